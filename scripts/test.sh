@@ -1,0 +1,10 @@
+#!/usr/bin/env bash
+# Install everything the tests need (Python venv + extras) and run the whole suite. `.ci/run` calls this.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+export PIP_DISABLE_PIP_VERSION_CHECK=1 DEBIAN_FRONTEND=noninteractive
+[ -x .venv/bin/python ] || python3 -m venv .venv
+.venv/bin/python -m pip install -q --upgrade pip
+.venv/bin/python -m pip install -q -e '.[test,postgres]'
+.venv/bin/python -m ruff check server tests migrations benchmarks
+.venv/bin/python -m pytest -q -p no:cacheprovider "$@"

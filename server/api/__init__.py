@@ -1,0 +1,10 @@
+"""The JSON API under /api/v1 (thin routers: parse → service → schema)."""
+
+from fastapi import APIRouter
+
+from server.api import missions, parts, team
+
+api_router = APIRouter(prefix="/api/v1")
+api_router.include_router(parts.router)
+api_router.include_router(missions.router)
+api_router.include_router(team.router)

@@ -1,0 +1,191 @@
+"""The ``liftmatch`` command. Exit codes: 0 ok, 2 usage error, 1 failure (one line on stderr)."""
+
+from __future__ import annotations
+
+import argparse
+import getpass
+import os
+import sys
+from collections.abc import Callable, Sequence
+
+from pydantic import ValidationError
+
+from server.config import Settings, get_settings
+from server.db import make_engine, make_sessionmaker, transaction
+from server.errors import DomainError
+
+Handler = Callable[[argparse.Namespace, Settings], int]
+
+
+class CliError(Exception):
+    """A failure to report in one line."""
+
+
+def _sessionmaker(settings: Settings):  # type: ignore[no-untyped-def]
+    return make_sessionmaker(make_engine(settings.database_url))
+
+
+def cmd_migrate(args: argparse.Namespace, settings: Settings) -> int:
+    from server import migrate
+
+    migrate.upgrade(settings.database_url, args.revision)
+    print(f"database at revision {args.revision}", file=sys.stderr)
+    return 0
+
+
+def cmd_create_team(args: argparse.Namespace, settings: Settings) -> int:
+    from server.services import accounts
+
+    with transaction(_sessionmaker(settings)) as session:
+        team = accounts.create_team(session, name=args.name)
+        print(team.id)
+    return 0
+
+
+def _read_password(args: argparse.Namespace) -> str:
+    if args.password_stdin:
+        return sys.stdin.readline().rstrip("\n")
+    if not sys.stdin.isatty():
+        raise CliError("no terminal to prompt for a password; use --password-stdin")
+    first = getpass.getpass("Password: ")
+    if first != getpass.getpass("Repeat password: "):
+        raise CliError("the passwords differ")
+    return first
+
+
+def cmd_create_user(args: argparse.Namespace, settings: Settings) -> int:
+    from server.services import accounts
+
+    password = _read_password(args)
+    with transaction(_sessionmaker(settings)) as session:
+        team = accounts.get_team_by_name(session, name=args.team)
+        user = accounts.create_user(
+            session,
+            settings=settings,
+            email=args.email,
+            password=password,
+            team=team,
+            role=args.role,
+            display_name=args.name or "",
+        )
+        print(user.id)
+    return 0
+
+
+def cmd_create_api_key(args: argparse.Namespace, settings: Settings) -> int:
+    from server.services import accounts
+
+    with transaction(_sessionmaker(settings)) as session:
+        team = accounts.get_team_by_name(session, name=args.team)
+        _, key = accounts.create_api_key(session, team_id=team.id, scope=args.scope, name=args.name or "")
+    print(key)  # alone on stdout: scripts capture it
+    return 0
+
+
+def cmd_load_demo(args: argparse.Namespace, settings: Settings) -> int:
+    from server.services import seed
+
+    with transaction(_sessionmaker(settings)) as session:
+        summary = seed.load_demo(session, settings=settings)
+    print(summary, file=sys.stderr)
+    return 0
+
+
+def _serve(settings: Settings, host: str, port: int, reload: bool = False) -> int:
+    import uvicorn
+
+    uvicorn.run(
+        "server.main:create_app", factory=True, host=host, port=port, reload=reload, log_level="info", workers=1
+    )
+    return 0
+
+
+def _require_secret(settings: Settings) -> None:
+    try:
+        settings.check_secret()
+    except ValueError as exc:
+        raise CliError(str(exc)) from None
+
+
+def cmd_serve(args: argparse.Namespace, settings: Settings) -> int:
+    _require_secret(settings)
+    print(f"liftmatch serving on http://{args.host}:{args.port}/", file=sys.stderr)
+    return _serve(settings, args.host, args.port, args.reload)
+
+
+def cmd_demo(args: argparse.Namespace, settings: Settings) -> int:
+    from server import migrate
+    from server.services import seed
+
+    _require_secret(settings)
+    migrate.upgrade(settings.database_url)
+    with transaction(_sessionmaker(settings)) as session:
+        summary = seed.load_demo(session, settings=settings, if_missing=True)
+    print(summary, file=sys.stderr)
+    print(
+        f"\n  liftmatch demo: http://{args.host}:{args.port}/\n"
+        f"  log in as {seed.DEMO_LOGIN[0]} / {seed.DEMO_LOGIN[1]}  (invented demo data)\n",
+        file=sys.stderr,
+    )
+    return _serve(settings, args.host, args.port)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="liftmatch", description=__doc__)
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    def add(name: str, handler: Handler, help_text: str) -> argparse.ArgumentParser:
+        p = sub.add_parser(name, help=help_text, description=help_text)
+        p.set_defaults(handler=handler)
+        return p
+
+    for name, handler, text in (
+        ("serve", cmd_serve, "serve the web app and API"),
+        ("demo", cmd_demo, "migrate, load the invented demo scenario and serve"),
+    ):
+        p = add(name, handler, text)
+        p.add_argument("--host", default="127.0.0.1")
+        p.add_argument("--port", type=int, default=8000)
+        if name == "serve":
+            p.add_argument("--reload", action="store_true", help="restart on code changes (development)")
+    p = add("migrate", cmd_migrate, "bring the database schema up to date")
+    p.add_argument("--revision", default="head")
+    p = add("create-team", cmd_create_team, "create a team; prints its id")
+    p.add_argument("name")
+    p = add("create-user", cmd_create_user, "create a user in a team; prints the user id")
+    p.add_argument("email")
+    p.add_argument("--team", required=True)
+    p.add_argument("--role", required=True, choices=["owner", "engineer", "viewer"])
+    p.add_argument("--name", help="display name")
+    p.add_argument("--password-stdin", action="store_true", help="read the password from the first stdin line")
+    p = add("create-api-key", cmd_create_api_key, "create an API key; prints the key alone on stdout")
+    p.add_argument("--team", required=True)
+    p.add_argument("--scope", required=True, choices=["read", "write"])
+    p.add_argument("--name", help="what the key is for")
+    add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)  # exits 2 on a usage error
+    if args.command == "demo":
+        os.environ.setdefault("LIFTMATCH_DEMO", "1")
+    try:
+        get_settings.cache_clear()
+        settings = get_settings()
+        return int(args.handler(args, settings))
+    except ValidationError as exc:
+        first = exc.errors()[0]
+        where = ".".join(str(p) for p in first["loc"])
+        print(f"liftmatch: configuration {where}: {first['msg'].removeprefix('Value error, ')}", file=sys.stderr)
+        return 1
+    except (DomainError, CliError) as exc:
+        print(f"liftmatch: {exc}", file=sys.stderr)
+        return 1
+    except KeyboardInterrupt:
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,147 @@
+"""Request dependencies as ``Annotated`` aliases: DB session, settings, the calling team, htmx flag."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import Annotated, Literal
+
+from fastapi import Depends, Path, Request
+from sqlalchemy.orm import Session
+
+from server.config import Settings
+from server.errors import Forbidden, Unauthorized
+from server.security import csrf_matches
+from server.services import accounts
+
+UNSAFE_METHODS = {"POST", "PUT", "PATCH", "DELETE"}
+MAX_ID = 2**63 - 1
+
+
+def get_db(request: Request) -> Iterator[Session]:
+    with request.app.state.sessionmaker() as session:
+        yield session
+
+
+def get_settings_dep(request: Request) -> Settings:
+    settings: Settings = request.app.state.settings
+    return settings
+
+
+SessionDep = Annotated[Session, Depends(get_db)]
+SettingsDep = Annotated[Settings, Depends(get_settings_dep)]
+IdPath = Annotated[int, Path(ge=1, le=MAX_ID, description="Row id")]
+
+
+@dataclass(frozen=True)
+class Caller:
+    """Who is asking, for which team, and whether they may write. Every query is scoped by ``team_id``."""
+
+    team_id: int
+    team_name: str
+    role: str
+    via: Literal["session", "key"]
+    user_id: int | None = None
+    api_key_id: int | None = None
+
+    @property
+    def can_write(self) -> bool:
+        return self.role in ("owner", "engineer", "key:write")
+
+
+class LoginRequired(Unauthorized):
+    """Raised for browser pages; rendered as a redirect to the login page."""
+
+
+def _from_bearer(request: Request, session: Session) -> Caller | None:
+    header = request.headers.get("authorization")
+    if not header:
+        return None
+    scheme, _, token = header.partition(" ")
+    if scheme.lower() != "bearer" or not token.strip():
+        raise Unauthorized("Authorization header must be 'Bearer <api key>'")
+    found = accounts.resolve_api_key(session, token.strip())
+    if found is None:
+        raise Unauthorized("Unknown or revoked API key")
+    key, team = found
+    return Caller(team.id, team.name, f"key:{key.scope}", "key", api_key_id=key.id)
+
+
+def _from_session(request: Request, session: Session) -> Caller | None:
+    user_id = request.session.get("user_id")
+    team_id = request.session.get("team_id")
+    if not user_id or not team_id:
+        return None
+    membership = accounts.membership(session, user_id=int(user_id), team_id=int(team_id))
+    if membership is None:
+        request.session.pop("user_id", None)
+        return None
+    return Caller(team_id, membership.team.name, membership.role, "session", user_id=int(user_id))
+
+
+def check_csrf(request: Request, form_token: str | None = None) -> None:
+    """Unsafe requests authenticated by cookie must echo the session's CSRF token (header or form field)."""
+    if request.method not in UNSAFE_METHODS:
+        return
+    given = request.headers.get("x-csrf-token") or form_token
+    if not csrf_matches(request.session.get("csrf"), given):
+        raise Forbidden("Missing or wrong CSRF token; reload the page and try again")
+
+
+async def _form_csrf(request: Request) -> str | None:
+    if request.method not in UNSAFE_METHODS or request.headers.get("x-csrf-token"):
+        return None
+    content_type = request.headers.get("content-type", "")
+    if "form" not in content_type:
+        return None
+    form = await request.form()
+    token = form.get("csrf_token")
+    return token if isinstance(token, str) else None
+
+
+FormCsrf = Annotated[str | None, Depends(_form_csrf)]
+
+
+def get_caller(request: Request, session: SessionDep, form_token: FormCsrf) -> Caller:
+    """API callers: a bearer key, or a logged-in browser session (with CSRF on writes)."""
+    caller = _from_bearer(request, session)
+    if caller is None:
+        caller = _from_session(request, session)
+        if caller is None:
+            raise Unauthorized("Send 'Authorization: Bearer <api key>' or log in")
+        check_csrf(request, form_token)
+    return caller
+
+
+def get_page_caller(request: Request, session: SessionDep, form_token: FormCsrf) -> Caller:
+    """Browser pages: a logged-in session; otherwise a redirect to the login page."""
+    caller = _from_session(request, session)
+    if caller is None:
+        raise LoginRequired("Please log in")
+    check_csrf(request, form_token)
+    return caller
+
+
+def _writer(caller: Caller) -> Caller:
+    if not caller.can_write:
+        raise Forbidden("This account or key may read but not change the team's data")
+    return caller
+
+
+def get_writer(caller: Annotated[Caller, Depends(get_caller)]) -> Caller:
+    return _writer(caller)
+
+
+def get_page_writer(caller: Annotated[Caller, Depends(get_page_caller)]) -> Caller:
+    return _writer(caller)
+
+
+def is_htmx(request: Request) -> bool:
+    return request.headers.get("hx-request") == "true"
+
+
+CallerDep = Annotated[Caller, Depends(get_caller)]
+WriterDep = Annotated[Caller, Depends(get_writer)]
+PageCaller = Annotated[Caller, Depends(get_page_caller)]
+PageWriter = Annotated[Caller, Depends(get_page_writer)]
+HtmxRequest = Annotated[bool, Depends(is_htmx)]

@@ -1,0 +1,87 @@
+"""Map errors to responses in one place: problem+json under /api, friendly pages elsewhere."""
+
+from __future__ import annotations
+
+import logging
+from typing import Any
+from urllib.parse import quote
+
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import JSONResponse, RedirectResponse, Response
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+from server.deps import LoginRequired
+from server.errors import DomainError, problem
+
+log = logging.getLogger("liftmatch")
+PROBLEM = "application/problem+json"
+
+
+def _is_api(request: Request) -> bool:
+    return request.url.path.startswith("/api/")
+
+
+def _page(request: Request, status: int, title: str, detail: str, headers: dict[str, str] | None = None) -> Response:
+    templates = request.app.state.templates
+    return templates.TemplateResponse(
+        request,
+        "pages/error.html",
+        {"status": status, "title": title, "detail": detail},
+        status_code=status,
+        headers=headers,
+    )
+
+
+def _validation_errors(exc: RequestValidationError) -> list[dict[str, Any]]:
+    out = []
+    for err in exc.errors():
+        loc = [str(p) for p in err.get("loc", ()) if p not in ("body", "query", "path", "header")]
+        message = str(err.get("msg", "invalid")).removeprefix("Value error, ")
+        field = ".".join(loc)
+        if not field:
+            first = message.split(" ", 1)[0]
+            field = first if "_" in first else "body"
+        out.append({"field": field, "message": message, "location": str(err.get("loc", ("",))[0])})
+    return out
+
+
+def install(app: FastAPI) -> None:
+    @app.exception_handler(DomainError)
+    async def domain_error(request: Request, exc: DomainError) -> Response:
+        if isinstance(exc, LoginRequired) and not _is_api(request):
+            target = quote(request.url.path + (f"?{request.url.query}" if request.url.query else ""))
+            if request.headers.get("hx-request") == "true":
+                return Response(status_code=204, headers={"HX-Redirect": f"/login?next={target}"})
+            return RedirectResponse(f"/login?next={target}", status_code=303)
+        headers = {"WWW-Authenticate": "Bearer"} if exc.status == 401 else None
+        if _is_api(request):
+            body = problem(exc.status, exc.title, exc.detail, [e.as_dict() for e in exc.errors])
+            return JSONResponse(body, status_code=exc.status, media_type=PROBLEM, headers=headers)
+        return _page(request, exc.status, exc.title, str(exc))
+
+    @app.exception_handler(RequestValidationError)
+    async def validation_error(request: Request, exc: RequestValidationError) -> Response:
+        errors = _validation_errors(exc)
+        detail = "; ".join(f"{e['field']}: {e['message']}" for e in errors)
+        if _is_api(request):
+            body = problem(422, "Invalid input", detail, errors)
+            return JSONResponse(body, status_code=422, media_type=PROBLEM)
+        return _page(request, 422, "Invalid input", detail)
+
+    @app.exception_handler(StarletteHTTPException)
+    async def http_error(request: Request, exc: StarletteHTTPException) -> Response:
+        title = {404: "Not found", 405: "Method not allowed"}.get(exc.status_code, "Error")
+        detail = str(exc.detail)
+        if _is_api(request):
+            body = problem(exc.status_code, title, detail)
+            return JSONResponse(body, status_code=exc.status_code, media_type=PROBLEM, headers=exc.headers)
+        return _page(request, exc.status_code, title, detail, headers=exc.headers)
+
+    @app.exception_handler(Exception)
+    async def unexpected(request: Request, exc: Exception) -> Response:
+        log.exception("unhandled error on %s %s", request.method, request.url.path)
+        detail = "Something went wrong on our side; nothing was saved. The error is in the server log."
+        if _is_api(request):
+            return JSONResponse(problem(500, "Server error", detail), status_code=500, media_type=PROBLEM)
+        return _page(request, 500, "Server error", detail)

@@ -1,0 +1,63 @@
+"""create_app(): the FastAPI application (routers, templates, static files, error handling)."""
+
+from __future__ import annotations
+
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+
+from fastapi import FastAPI
+from fastapi.staticfiles import StaticFiles
+from starlette.middleware.sessions import SessionMiddleware
+
+from server import __version__, http_errors
+from server.api import api_router
+from server.config import REPO_ROOT, Settings, get_settings
+from server.db import make_engine, make_sessionmaker
+from server.pages import page_router
+from server.pages._render import make_templates
+
+WEB = REPO_ROOT / "web"
+
+
+def create_app(settings: Settings | None = None) -> FastAPI:
+    settings = settings or get_settings()
+    settings.check_secret()
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        engine = make_engine(settings.database_url)
+        app.state.engine = engine
+        app.state.sessionmaker = make_sessionmaker(engine)
+        yield
+        engine.dispose()
+
+    app = FastAPI(
+        title="liftmatch",
+        version=__version__,
+        summary="Rank drone power systems (pack × ESC × motor × propeller) from your own parts and bench runs.",
+        lifespan=lifespan,
+        openapi_url="/api/v1/openapi.json",
+        docs_url="/api/v1/docs",
+        redoc_url=None,
+        responses={400: {"description": "Malformed request body"}},
+    )
+    app.state.settings = settings
+    app.state.templates = make_templates(WEB / "templates")
+    app.add_middleware(
+        SessionMiddleware,
+        secret_key=settings.secret_key,
+        session_cookie="liftmatch_session",
+        max_age=settings.session_max_age_s,
+        same_site="lax",
+        https_only=settings.cookie_secure,
+    )
+    app.mount("/static", StaticFiles(directory=WEB / "static"), name="static")
+    app.include_router(api_router)
+    app.include_router(page_router)
+    http_errors.install(app)
+
+    @app.get("/healthz", include_in_schema=False)
+    def healthz() -> dict[str, str]:
+        return {"status": "ok", "version": __version__}
+
+    return app

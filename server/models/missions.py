@@ -1,0 +1,54 @@
+"""Airframes and the missions flown with them."""
+
+from __future__ import annotations
+
+from sqlalchemy import Float, ForeignKey, Integer, String, Text
+from sqlalchemy.orm import Mapped, mapped_column, relationship
+
+from server.db import Base
+from server.models._common import TeamOwned, Timestamped
+
+
+class Airframe(TeamOwned, Timestamped, Base):
+    """An airframe; frame mass excludes motors, ESCs, propellers and packs."""
+
+    __tablename__ = "airframe"
+
+    name: Mapped[str] = mapped_column(String(120))
+    rotor_count: Mapped[int] = mapped_column(Integer)
+    frame_mass_g: Mapped[float] = mapped_column(Float)
+    max_prop_diameter_in: Mapped[float | None] = mapped_column(Float, nullable=True)
+    max_packs_in_parallel: Mapped[int] = mapped_column(Integer, default=1)
+    notes: Mapped[str] = mapped_column(Text, default="")
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    missions: Mapped[list[Mission]] = relationship(back_populates="airframe", passive_deletes=True)
+
+
+class Mission(TeamOwned, Timestamped, Base):
+    """What an airframe must do: hover or cruise point, conditions, and the limits a system must keep."""
+
+    __tablename__ = "mission"
+
+    name: Mapped[str] = mapped_column(String(120))
+    airframe_id: Mapped[int] = mapped_column(ForeignKey("airframe.id", ondelete="RESTRICT"), index=True)
+    kind: Mapped[str] = mapped_column(String(8))
+    payload_mass_g: Mapped[float] = mapped_column(Float, default=0.0)
+    altitude_m: Mapped[float] = mapped_column(Float, default=0.0)
+    temperature_offset_c: Mapped[float] = mapped_column(Float, default=0.0)
+    cruise_airspeed_m_s: Mapped[float | None] = mapped_column(Float, nullable=True)
+    lift_to_drag: Mapped[float | None] = mapped_column(Float, nullable=True)
+    min_thrust_to_weight: Mapped[float] = mapped_column(Float, default=2.0)
+    duty_min: Mapped[float] = mapped_column(Float, default=0.40)
+    duty_max: Mapped[float] = mapped_column(Float, default=0.75)
+    min_endurance_min: Mapped[float] = mapped_column(Float, default=0.0)
+    usable_fraction: Mapped[float] = mapped_column(Float, default=0.8)
+    cutoff_v_per_cell: Mapped[float] = mapped_column(Float, default=3.3)
+    esc_current_margin: Mapped[float] = mapped_column(Float, default=1.2)
+    pack_current_fraction: Mapped[float] = mapped_column(Float, default=0.8)
+    cruise_state_of_charge: Mapped[float] = mapped_column(Float, default=0.5)
+    max_all_up_mass_g: Mapped[float | None] = mapped_column(Float, nullable=True)
+    notes: Mapped[str] = mapped_column(Text, default="")
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    airframe: Mapped[Airframe] = relationship(back_populates="missions")

@@ -1,0 +1,148 @@
+"""Form fields described from the pydantic schemas, so pages and API validate the same way."""
+
+from __future__ import annotations
+
+import typing
+from dataclasses import dataclass
+from typing import Any, Literal
+
+from pydantic import BaseModel
+
+TABLE_COLUMNS = {"static_table": ("rpm", "ct", "cp"), "forward_table": ("j", "ct", "cp")}
+
+
+@dataclass(frozen=True)
+class FormField:
+    name: str
+    label: str
+    unit: str
+    widget: Literal["number", "text", "select", "textarea", "table"]
+    required: bool
+    minimum: float | None = None
+    maximum: float | None = None
+    step: str = "any"
+    choices: tuple[str, ...] = ()
+    help: str = ""
+
+
+def _label(name: str) -> str:
+    words = name.replace("_", " ")
+    for suffix in (
+        " mohm",
+        " ohm",
+        " mah",
+        " khz",
+        " ns",
+        " uh",
+        " rpm per v",
+        " m s",
+        " in",
+        " g",
+        " a",
+        " v",
+        " w",
+        " c",
+        " m",
+        " min",
+    ):
+        if words.endswith(suffix):
+            words = words[: -len(suffix)]
+            break
+    return words[:1].upper() + words[1:]
+
+
+def form_fields(schema: type[BaseModel]) -> list[FormField]:
+    """One FormField per schema field, in declaration order."""
+    out: list[FormField] = []
+    for name, info in schema.model_fields.items():
+        extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
+        unit = str(extra.get("x-unit", ""))
+        help_text = (info.description or "").removesuffix(f"[{unit}]").strip()
+        annotation = info.annotation
+        args = typing.get_args(annotation)
+        base = next((a for a in args if a is not type(None)), annotation) if args else annotation
+        literal_args = typing.get_args(base) if typing.get_origin(base) is Literal else ()
+        if name in TABLE_COLUMNS:
+            widget: Any = "table"
+        elif literal_args:
+            widget = "select"
+        elif name == "notes":
+            widget = "textarea"
+        elif base in (int, float):
+            widget = "number"
+        else:
+            widget = "text"
+        out.append(
+            FormField(
+                name=name,
+                label=_label(name),
+                unit=unit if unit not in ("currency units",) else "",
+                widget=widget,
+                required=info.is_required(),
+                minimum=extra.get("minimum"),
+                maximum=extra.get("maximum"),  # type: ignore[arg-type]
+                step="1" if base is int else "any",
+                choices=tuple(str(a) for a in literal_args),
+                help=help_text,
+            )
+        )
+    return out
+
+
+def table_to_text(rows: list[dict[str, Any]] | None, columns: tuple[str, ...]) -> str:
+    if not rows:
+        return ""
+    return "\n".join(", ".join(f"{row[c]:g}" for c in columns) for row in rows)
+
+
+def text_to_table(text: str, columns: tuple[str, ...]) -> list[dict[str, float]]:
+    """Lines of comma- or space-separated numbers → rows; raises ValueError naming the bad line."""
+    rows = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        line = line.strip()
+        if not line or line.startswith("#") or line.replace(" ", "").lower() == ",".join(columns):
+            continue
+        cells = [c for c in line.replace(",", " ").replace(";", " ").split() if c]
+        if len(cells) != len(columns):
+            raise ValueError(f"line {number}: expected {len(columns)} numbers ({', '.join(columns)})")
+        try:
+            rows.append({c: float(v) for c, v in zip(columns, cells, strict=True)})
+        except ValueError:
+            raise ValueError(f"line {number}: not a number") from None
+    return rows
+
+
+def form_to_data(fields: list[FormField], values: dict[str, str]) -> tuple[dict[str, Any], dict[str, str]]:
+    """Submitted strings → data for the schema (empty = not given); table parse errors by field."""
+    data: dict[str, Any] = {}
+    errors: dict[str, str] = {}
+    for field in fields:
+        if field.name not in values:  # not on the form: the schema default applies
+            continue
+        raw = values[field.name]
+        if field.widget == "table":
+            try:
+                data[field.name] = text_to_table(raw, TABLE_COLUMNS[field.name]) or None
+            except ValueError as exc:
+                errors[field.name] = str(exc)
+        elif raw != "":
+            data[field.name] = raw
+        elif not field.required:
+            data[field.name] = "" if field.widget in ("text", "textarea") else None
+    return data, errors
+
+
+def values_of(obj: Any, fields: list[FormField]) -> dict[str, str]:
+    """Form values (strings) of a stored row."""
+    out = {}
+    for field in fields:
+        value = getattr(obj, field.name, None)
+        if field.widget == "table":
+            out[field.name] = table_to_text(value, TABLE_COLUMNS[field.name])
+        elif value is None:
+            out[field.name] = ""
+        elif isinstance(value, float):
+            out[field.name] = f"{value:g}"
+        else:
+            out[field.name] = str(value)
+    return out

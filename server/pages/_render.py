@@ -1,0 +1,85 @@
+"""Rendering helpers: the Jinja environment, whole page or one named block for htmx, form parsing."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Any
+
+from fastapi import Request
+from fastapi.responses import HTMLResponse
+from fastapi.templating import Jinja2Templates
+from markupsafe import Markup, escape
+
+from server.security import new_csrf_token
+
+
+def fmt_number(value: Any, digits: int = 3) -> str:
+    """A number with ``digits`` significant figures and thin-space thousands; '—' for missing."""
+    if value is None or value == "":
+        return "—"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if not isinstance(value, int | float):
+        return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return "—"
+    if isinstance(value, int) or float(value).is_integer() and abs(value) >= 10 ** (digits - 1):
+        return f"{int(round(value)):,}".replace(",", "\u2009")
+    magnitude = math.floor(math.log10(abs(value))) if value else 0
+    decimals = max(0, digits - 1 - magnitude)
+    return f"{value:,.{decimals}f}".replace(",", "\u2009")
+
+
+def quantity(value: Any, unit: str = "", digits: int = 3) -> Markup:
+    """Value plus unit, with the unit in its own span so it never wraps away from the number."""
+    number = fmt_number(value, digits)
+    if not unit or number == "—":
+        return Markup(f'<span class="num">{escape(number)}</span>')
+    return Markup(f'<span class="num">{escape(number)}</span>\u00a0<span class="unit">{escape(unit)}</span>')
+
+
+def make_templates(directory: Path) -> Jinja2Templates:
+    templates = Jinja2Templates(directory=str(directory))
+    templates.env.filters["num"] = fmt_number
+    templates.env.globals["quantity"] = quantity
+    templates.env.globals["csrf_token"] = csrf_token
+    # Macros as a global (not a per-template import) so a single block can be rendered on its own.
+    templates.env.globals["forms"] = templates.env.get_template("macros/forms.html").module
+    return templates
+
+
+def csrf_token(request: Request) -> str:
+    """The session's CSRF token, created on first use."""
+    token = request.session.get("csrf")
+    if not token:
+        token = new_csrf_token()
+        request.session["csrf"] = token
+    return str(token)
+
+
+def render(
+    request: Request,
+    template: str,
+    context: dict[str, Any],
+    *,
+    block: str | None = None,
+    status_code: int = 200,
+    headers: dict[str, str] | None = None,
+) -> HTMLResponse:
+    """The whole page, or only ``block`` of it when htmx asks (``Vary: HX-Request`` either way)."""
+    templates: Jinja2Templates = request.app.state.templates
+    ctx = {"request": request, **context}
+    csrf_token(request)
+    all_headers = {"Vary": "HX-Request", **(headers or {})}
+    if block and request.headers.get("hx-request") == "true":
+        tmpl = templates.env.get_template(template)
+        html = "".join(tmpl.blocks[block](tmpl.new_context(ctx)))
+        return HTMLResponse(html, status_code=status_code, headers=all_headers)
+    response = templates.TemplateResponse(request, template, context, status_code=status_code, headers=all_headers)
+    return response  # type: ignore[return-value]
+
+
+def form_values(form: Any) -> dict[str, str]:
+    """Text fields of a submitted form, stripped, without the CSRF token."""
+    return {k: v.strip() for k, v in form.items() if isinstance(v, str) and k != "csrf_token"}

@@ -1,0 +1,160 @@
+"""Airframes & missions page: list, add and edit (forms validated by the same schemas as the API)."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import APIRouter, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from pydantic import BaseModel, ValidationError
+
+from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
+from server.errors import DomainError, InvalidInput
+from server.pages._forms import form_fields, form_to_data, values_of
+from server.pages._render import form_values, render
+from server.schemas.missions import AirframeCreate, MissionCreate
+from server.services import missions as missions_service
+from server.services._validation import field_errors
+
+router = APIRouter()
+AIRFRAME_FIELDS = form_fields(AirframeCreate)
+MISSION_FIELDS = [f for f in form_fields(MissionCreate) if f.name != "airframe_id"]
+
+
+def _page(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
+    ctx: dict[str, Any] = {
+        "caller": caller,
+        "nav": "missions",
+        "airframes": missions_service.list_airframes(session, team_id=caller.team_id),
+        "missions": missions_service.list_missions(session, team_id=caller.team_id),
+        "airframe_fields": AIRFRAME_FIELDS,
+        "mission_fields": MISSION_FIELDS,
+        "airframe_values": {},
+        "airframe_errors": {},
+        "mission_values": {"kind": "hover"},
+        "mission_errors": {},
+        "message": "",
+    }
+    ctx.update(extra)
+    return render(request, "pages/missions.html", ctx, status_code=status_code)
+
+
+def _validate(schema: type[BaseModel], fields: Any, values: dict[str, str]) -> tuple[Any, dict[str, str]]:
+    data, errors = form_to_data(fields, values)
+    if "airframe_id" in values:
+        data["airframe_id"] = values["airframe_id"]
+    try:
+        model = schema.model_validate(data)
+    except ValidationError as exc:
+        for err in field_errors(exc):
+            errors.setdefault(err.field, err.message)
+        return None, errors
+    return model, errors
+
+
+@router.get("/missions", response_class=HTMLResponse)
+def missions_page(request: Request, caller: PageCaller, session: SessionDep) -> HTMLResponse:
+    return _page(request, session, caller)
+
+
+@router.post("/airframes", response_class=HTMLResponse)
+async def add_airframe(request: Request, caller: PageWriter, session: SessionDep) -> Response:
+    values = form_values(await request.form())
+    model, errors = _validate(AirframeCreate, AIRFRAME_FIELDS, values)
+    if model is None:
+        return _page(
+            request,
+            session,
+            caller,
+            422,
+            airframe_values=values,
+            airframe_errors=errors,
+            message="Airframe not saved: fix the fields marked below.",
+        )
+    missions_service.create_airframe(session, team_id=caller.team_id, data=model)
+    session.commit()
+    return RedirectResponse("/missions", status_code=303)
+
+
+@router.post("/missions", response_class=HTMLResponse)
+async def add_mission(request: Request, caller: PageWriter, session: SessionDep) -> Response:
+    values = form_values(await request.form())
+    model, errors = _validate(MissionCreate, MISSION_FIELDS, values)
+    if model is not None:
+        try:
+            missions_service.create_mission(session, team_id=caller.team_id, data=model)
+            session.commit()
+            return RedirectResponse("/missions", status_code=303)
+        except InvalidInput as exc:
+            session.rollback()
+            errors = {e.field: e.message for e in exc.errors}
+    return _page(
+        request,
+        session,
+        caller,
+        422,
+        mission_values=values,
+        mission_errors=errors,
+        message="Mission not saved: fix the fields marked below.",
+    )
+
+
+@router.get("/missions/{mission_id}/edit", response_class=HTMLResponse)
+def edit_mission_page(request: Request, caller: PageCaller, session: SessionDep, mission_id: IdPath) -> HTMLResponse:
+    mission = missions_service.get_mission(session, team_id=caller.team_id, mission_id=mission_id)
+    values = values_of(mission, MISSION_FIELDS) | {"airframe_id": str(mission.airframe_id)}
+    return render(
+        request,
+        "pages/mission_edit.html",
+        {
+            "caller": caller,
+            "nav": "missions",
+            "mission": mission,
+            "fields": MISSION_FIELDS,
+            "values": values,
+            "errors": {},
+            "message": "",
+            "airframes": missions_service.list_airframes(session, team_id=caller.team_id),
+        },
+    )
+
+
+@router.post("/missions/{mission_id}", response_class=HTMLResponse)
+async def update_mission(request: Request, caller: PageWriter, session: SessionDep, mission_id: IdPath) -> Response:
+    values = form_values(await request.form())
+    data, errors = form_to_data(MISSION_FIELDS, values)
+    data["airframe_id"] = values.get("airframe_id")
+    message = ""
+    if not errors:
+        try:
+            missions_service.update_mission(
+                session,
+                team_id=caller.team_id,
+                mission_id=mission_id,
+                changes=data,
+                expected_version=int(values.get("version", "0") or 0),
+            )
+            session.commit()
+            return RedirectResponse("/missions", status_code=303)
+        except InvalidInput as exc:
+            session.rollback()
+            errors = {e.field: e.message for e in exc.errors}
+        except DomainError as exc:
+            session.rollback()
+            message = exc.detail
+    mission = missions_service.get_mission(session, team_id=caller.team_id, mission_id=mission_id)
+    return render(
+        request,
+        "pages/mission_edit.html",
+        {
+            "caller": caller,
+            "nav": "missions",
+            "mission": mission,
+            "fields": MISSION_FIELDS,
+            "values": values,
+            "errors": errors,
+            "message": message or "Not saved: fix the fields marked below.",
+            "airframes": missions_service.list_airframes(session, team_id=caller.team_id),
+        },
+        status_code=409 if message else 422,
+    )

@@ -1,0 +1,63 @@
+"""Field builders: physical bounds with messages that name the allowed range and unit."""
+
+from __future__ import annotations
+
+import math
+from typing import Annotated, Any
+
+from pydantic import AfterValidator, BaseModel, Field, create_model
+
+
+def _fmt(value: float) -> str:
+    return f"{value:g}"
+
+
+def ranged(tp: type, lo: float, hi: float, unit: str, *, description: str = "", title: str | None = None) -> Any:
+    """``tp`` constrained to ``lo..hi`` [unit]; NaN/inf rejected; the error names the range."""
+
+    def check(value: Any) -> Any:
+        if value is None:
+            return value
+        if isinstance(value, float) and not math.isfinite(value):
+            raise ValueError("must be a finite number")
+        if not lo <= value <= hi:
+            raise ValueError(f"must be between {_fmt(lo)} and {_fmt(hi)} {unit} (got {_fmt(value)})".strip())
+        return value
+
+    extra = {"minimum": lo, "maximum": hi, "x-unit": unit}
+    return Annotated[
+        tp,
+        AfterValidator(check),
+        Field(description=f"{description} [{unit}]".strip(), title=title, json_schema_extra=extra),
+    ]
+
+
+def text(max_length: int, *, description: str = "", min_length: int = 0) -> Any:
+    def strip(value: str) -> str:
+        value = value.strip()
+        if len(value) < min_length:
+            raise ValueError("must not be empty" if min_length == 1 else f"needs at least {min_length} characters")
+        return value
+
+    return Annotated[str, Field(max_length=max_length, description=description), AfterValidator(strip)]
+
+
+def unit_of(model: type[BaseModel], name: str) -> str:
+    """The unit declared for a field (empty when it has none)."""
+    extra = model.model_fields[name].json_schema_extra
+    return str(extra.get("x-unit", "")) if isinstance(extra, dict) else ""
+
+
+def partial_model(model: type[BaseModel], name: str) -> type[BaseModel]:
+    """A copy of ``model`` whose fields are all optional (``None`` = leave unchanged)."""
+    fields: dict[str, Any] = {}
+    for field_name, info in model.model_fields.items():
+        annotation: Any = info.annotation
+        optional: Any = annotation | None
+        if info.metadata:
+            optional = Annotated[optional, *info.metadata]
+        fields[field_name] = (
+            optional,
+            Field(default=None, description=info.description, json_schema_extra=info.json_schema_extra),
+        )
+    return create_model(name, __config__=model.model_config, **fields)

@@ -1,0 +1,83 @@
+"""Request/response models for airframes and missions."""
+
+from __future__ import annotations
+
+from datetime import datetime
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, model_validator
+
+from server.schemas._fields import partial_model, ranged, text
+
+MissionKind = Literal["hover", "cruise"]
+
+
+class AirframeCreate(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: text(120, min_length=1)  # type: ignore[valid-type]
+    rotor_count: ranged(int, 1, 16, "rotors", description="Rotors (1 for a fixed-wing puller)")  # type: ignore[valid-type]
+    frame_mass_g: ranged(float, 1, 500_000, "g", description="Frame mass without motors, ESCs, props and packs")  # type: ignore[valid-type]
+    max_prop_diameter_in: ranged(float, 1, 80, "in", description="Largest propeller that fits") | None = None  # type: ignore[valid-type]
+    max_packs_in_parallel: ranged(int, 1, 4, "packs", description="Identical packs flown in parallel") = 1  # type: ignore[valid-type]
+    notes: text(4000) = ""  # type: ignore[valid-type]
+
+
+class AirframeRead(AirframeCreate):
+    model_config = ConfigDict(from_attributes=True, extra="ignore")
+
+    id: int
+    version: int
+    created_at: datetime
+    updated_at: datetime
+
+
+class MissionCreate(BaseModel):
+    """A mission; every limit defaults to common practice (no published source) and can be edited."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    name: text(120, min_length=1)  # type: ignore[valid-type]
+    airframe_id: int
+    kind: MissionKind
+    payload_mass_g: ranged(float, 0, 500_000, "g", description="Payload carried") = 0.0  # type: ignore[valid-type]
+    altitude_m: ranged(float, -500, 11_000, "m", description="Altitude (ISA troposphere)") = 0.0  # type: ignore[valid-type]
+    temperature_offset_c: ranged(float, -60, 60, "°C", description="Offset from the ISA temperature") = 0.0  # type: ignore[valid-type]
+    cruise_airspeed_m_s: ranged(float, 0.5, 150, "m/s", description="Cruise airspeed (cruise missions)") | None = None  # type: ignore[valid-type]
+    lift_to_drag: ranged(float, 1, 60, "", description="Lift-to-drag ratio at cruise") | None = None  # type: ignore[valid-type]
+    min_thrust_to_weight: ranged(float, 0, 20, "", description="Minimum thrust-to-weight at full throttle") = 2.0  # type: ignore[valid-type]
+    duty_min: ranged(float, 0.05, 1, "", description="Lowest acceptable hover/cruise PWM duty") = 0.40  # type: ignore[valid-type]
+    duty_max: ranged(float, 0.05, 1, "", description="Highest acceptable hover/cruise PWM duty") = 0.75  # type: ignore[valid-type]
+    min_endurance_min: ranged(float, 0, 1440, "min", description="Minimum endurance") = 0.0  # type: ignore[valid-type]
+    usable_fraction: ranged(float, 0.1, 1, "", description="Usable share of pack capacity (1 − reserve)") = 0.8  # type: ignore[valid-type]
+    cutoff_v_per_cell: ranged(float, 2.5, 4.0, "V", description="Under-load cut-off per cell") = 3.3  # type: ignore[valid-type]
+    esc_current_margin: ranged(float, 1, 5, "", description="ESC continuous rating ÷ full-throttle motor current") = 1.2  # type: ignore[valid-type]
+    pack_current_fraction: ranged(float, 0.05, 1, "", description="Allowed share of the pack's continuous C rating") = (
+        0.8  # type: ignore[valid-type]
+    )
+    cruise_state_of_charge: ranged(
+        float, 0.05, 1, "", description="State of charge at which the cruise point is scored"
+    ) = 0.5  # type: ignore[valid-type]
+    max_all_up_mass_g: ranged(float, 1, 1_000_000, "g", description="Largest acceptable all-up mass") | None = None  # type: ignore[valid-type]
+    notes: text(4000) = ""  # type: ignore[valid-type]
+
+    @model_validator(mode="after")
+    def _consistent(self) -> MissionCreate:
+        if self.duty_min > self.duty_max:
+            raise ValueError("duty_min must not exceed duty_max")
+        if self.kind == "cruise" and (self.cruise_airspeed_m_s is None or self.lift_to_drag is None):
+            raise ValueError("a cruise mission needs cruise_airspeed_m_s and lift_to_drag")
+        return self
+
+
+class MissionRead(MissionCreate):
+    model_config = ConfigDict(from_attributes=True, extra="ignore")
+
+    id: int
+    version: int
+    created_at: datetime
+    updated_at: datetime
+
+
+AirframeUpdate = partial_model(AirframeCreate, "AirframeUpdate")
+MissionUpdate = partial_model(MissionCreate, "MissionUpdate")

@@ -1,0 +1,120 @@
+"""Airframes and missions: list, create, update (optimistic version), delete."""
+
+from __future__ import annotations
+
+from typing import Any, TypeVar
+
+from pydantic import BaseModel
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from server.errors import Conflict, FieldError, InvalidInput, NotFound, PreconditionRequired, VersionMismatch
+from server.models import Airframe, Mission
+from server.schemas.missions import AirframeCreate, MissionCreate
+from server.services._validation import validate
+
+Row = TypeVar("Row", Airframe, Mission)
+
+
+def _get(session: Session, model: type[Row], *, team_id: int, row_id: int, label: str) -> Row:
+    row = session.scalar(select(model).where(model.id == row_id, model.team_id == team_id))
+    if row is None:
+        raise NotFound(f"No {label} with id {row_id}")
+    return row
+
+
+def get_airframe(session: Session, *, team_id: int, airframe_id: int) -> Airframe:
+    return _get(session, Airframe, team_id=team_id, row_id=airframe_id, label="airframe")
+
+
+def get_mission(session: Session, *, team_id: int, mission_id: int) -> Mission:
+    return _get(session, Mission, team_id=team_id, row_id=mission_id, label="mission")
+
+
+def list_airframes(session: Session, *, team_id: int) -> list[Airframe]:
+    return list(session.scalars(select(Airframe).where(Airframe.team_id == team_id).order_by(Airframe.name)))
+
+
+def list_missions(session: Session, *, team_id: int, airframe_id: int | None = None) -> list[Mission]:
+    stmt = select(Mission).where(Mission.team_id == team_id)
+    if airframe_id is not None:
+        stmt = stmt.where(Mission.airframe_id == airframe_id)
+    return list(session.scalars(stmt.order_by(Mission.name)))
+
+
+def _check_airframe(session: Session, *, team_id: int, airframe_id: int) -> None:
+    found = session.scalar(select(Airframe.id).where(Airframe.id == airframe_id, Airframe.team_id == team_id))
+    if found is None:
+        raise InvalidInput("Unknown airframe", [FieldError("airframe_id", f"no airframe with id {airframe_id}")])
+
+
+def _apply(row: Airframe | Mission, data: BaseModel) -> None:
+    for name, value in data.model_dump().items():
+        setattr(row, name, value)
+
+
+def create_airframe(session: Session, *, team_id: int, data: AirframeCreate) -> Airframe:
+    row = Airframe(team_id=team_id, version=1)
+    _apply(row, data)
+    session.add(row)
+    session.flush()
+    return row
+
+
+def create_mission(session: Session, *, team_id: int, data: MissionCreate) -> Mission:
+    _check_airframe(session, team_id=team_id, airframe_id=data.airframe_id)
+    row = Mission(team_id=team_id, version=1)
+    _apply(row, data)
+    session.add(row)
+    session.flush()
+    return row
+
+
+def _check_version(row: Airframe | Mission, expected: int | None, label: str) -> None:
+    if expected is None:
+        raise PreconditionRequired("Send If-Match: \"<version>\" (or a 'version' field) to update")
+    if expected != row.version:
+        raise VersionMismatch(
+            f"This {label} was changed by someone else (now version {row.version}, you sent {expected})"
+        )
+
+
+def update_airframe(
+    session: Session, *, team_id: int, airframe_id: int, changes: dict[str, Any], expected_version: int | None
+) -> Airframe:
+    row = get_airframe(session, team_id=team_id, airframe_id=airframe_id)
+    _check_version(row, expected_version, "airframe")
+    merged = {name: getattr(row, name) for name in AirframeCreate.model_fields} | changes
+    _apply(row, validate(AirframeCreate, merged, what="airframe"))
+    row.version += 1
+    session.flush()
+    return row
+
+
+def update_mission(
+    session: Session, *, team_id: int, mission_id: int, changes: dict[str, Any], expected_version: int | None
+) -> Mission:
+    row = get_mission(session, team_id=team_id, mission_id=mission_id)
+    _check_version(row, expected_version, "mission")
+    merged = {name: getattr(row, name) for name in MissionCreate.model_fields} | changes
+    data = validate(MissionCreate, merged, what="mission")
+    _check_airframe(session, team_id=team_id, airframe_id=data.airframe_id)
+    _apply(row, data)
+    row.version += 1
+    session.flush()
+    return row
+
+
+def delete_airframe(session: Session, *, team_id: int, airframe_id: int) -> None:
+    row = get_airframe(session, team_id=team_id, airframe_id=airframe_id)
+    used = session.scalar(select(func.count()).select_from(Mission).where(Mission.airframe_id == row.id)) or 0
+    if used:
+        raise Conflict(f"This airframe has {used} mission(s); delete them first")
+    session.delete(row)
+    session.flush()
+
+
+def delete_mission(session: Session, *, team_id: int, mission_id: int) -> None:
+    row = get_mission(session, team_id=team_id, mission_id=mission_id)
+    session.delete(row)
+    session.flush()

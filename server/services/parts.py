@@ -1,0 +1,286 @@
+"""The parts library: list, create, update (optimistic version), archive, delete, CSV import/export."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from collections.abc import Sequence
+from typing import Any
+
+from pydantic import BaseModel, ValidationError
+from sqlalchemy import Column, func, or_, select
+from sqlalchemy.orm import Session
+
+from server.errors import Conflict, FieldError, InvalidInput, NotFound, PreconditionRequired, VersionMismatch
+from server.models import PART_MODELS, PartColumns
+from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS
+from server.services._validation import field_errors, validate
+
+MAX_PAGE_SIZE = 500
+MAX_IMPORT_ROWS = 5000
+MAX_IMPORT_BYTES = 2 * 1024 * 1024
+JSON_COLUMNS = ("static_table", "forward_table")
+WHERE_OPERATORS = (">=", "<=", "!=", "=", ">", "<")
+
+
+def model_for(kind: str) -> type[PartColumns]:
+    try:
+        return PART_MODELS[kind]
+    except KeyError:
+        raise NotFound(f"Unknown part kind {kind!r}; use one of {', '.join(PART_MODELS)}") from None
+
+
+def singular(kind: str) -> str:
+    return KIND_LABELS[kind][0].lower()
+
+
+def to_read(kind: str, part: PartColumns) -> dict[str, Any]:
+    """The JSON form of a stored part."""
+    data: dict[str, Any] = READ_SCHEMAS[kind].model_validate(part).model_dump(mode="json")
+    data["kind"] = kind
+    return data
+
+
+def _column(model: type[PartColumns], name: str, field: str) -> Column[Any]:
+    table = model.__table__  # type: ignore[attr-defined]
+    if name not in table.c or name in JSON_COLUMNS or name == "team_id":
+        raise InvalidInput("Unknown column", [FieldError(field, f"{name!r} is not a column of this part kind")])
+    column: Column[Any] = table.c[name]
+    return column
+
+
+def _where(model: type[PartColumns], clause: str) -> Any:
+    for op in WHERE_OPERATORS:
+        name, sep, raw = clause.partition(op)
+        if sep:
+            column = _column(model, name.strip(), "where")
+            try:
+                value: Any = float(raw) if column.type.python_type in (int, float) else raw.strip()
+            except (ValueError, NotImplementedError):
+                raise InvalidInput("Bad filter", [FieldError("where", f"{raw!r} is not a number")]) from None
+            return {
+                ">=": column >= value,
+                "<=": column <= value,
+                "!=": column != value,
+                "=": column == value,
+                ">": column > value,
+                "<": column < value,
+            }[op]
+    raise InvalidInput(
+        "Bad filter", [FieldError("where", f"{clause!r}: use field>=value, field<=value or field=value")]
+    )
+
+
+def list_parts(
+    session: Session,
+    *,
+    team_id: int,
+    kind: str,
+    q: str | None = None,
+    archived: str = "false",
+    where: Sequence[str] = (),
+    sort: str = "name",
+    page: int = 1,
+    page_size: int = 50,
+) -> tuple[list[PartColumns], int]:
+    """One page of the team's parts of ``kind`` and the total count after filtering."""
+    model = model_for(kind)
+    stmt = select(model).where(model.team_id == team_id)
+    if archived == "false":
+        stmt = stmt.where(model.archived.is_(False))
+    elif archived == "true":
+        stmt = stmt.where(model.archived.is_(True))
+    if q:
+        like = f"%{q.strip()}%"
+        stmt = stmt.where(or_(model.name.ilike(like), model.maker.ilike(like), model.part_number.ilike(like)))
+    for clause in where:
+        stmt = stmt.where(_where(model, clause))
+    total = session.scalar(select(func.count()).select_from(stmt.subquery())) or 0
+    descending = sort.startswith("-")
+    column = _column(model, sort.lstrip("-"), "sort")
+    order = column.desc() if descending else column.asc()
+    page_size = max(1, min(page_size, MAX_PAGE_SIZE))
+    stmt = stmt.order_by(order, model.id).offset((max(page, 1) - 1) * page_size).limit(page_size)
+    return list(session.scalars(stmt)), int(total)
+
+
+def get_part(session: Session, *, team_id: int, kind: str, part_id: int) -> PartColumns:
+    """A part of the team, or NotFound (another team's part is indistinguishable from a missing one)."""
+    model = model_for(kind)
+    part = session.scalar(select(model).where(model.id == part_id, model.team_id == team_id))
+    if part is None:
+        raise NotFound(f"No {singular(kind)} with id {part_id}")
+    return part
+
+
+def _stored_fields(kind: str, part: PartColumns) -> dict[str, Any]:
+    schema = CREATE_SCHEMAS[kind]
+    return {name: getattr(part, name) for name in schema.model_fields}
+
+
+def _apply(part: PartColumns, data: BaseModel) -> None:
+    for name, value in data.model_dump(mode="json").items():
+        setattr(part, name, value)
+
+
+def create_part(session: Session, *, team_id: int, user_id: int | None, kind: str, data: BaseModel) -> PartColumns:
+    model = model_for(kind)
+    part = model(team_id=team_id, created_by_id=user_id, updated_by_id=user_id, version=1)
+    _apply(part, data)
+    session.add(part)
+    session.flush()
+    return part
+
+
+def update_part(
+    session: Session,
+    *,
+    team_id: int,
+    user_id: int | None,
+    kind: str,
+    part_id: int,
+    changes: dict[str, Any],
+    expected_version: int | None,
+) -> PartColumns:
+    """Apply ``changes`` (fields to set) if ``expected_version`` is still the stored version."""
+    part = get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+    if expected_version is None:
+        raise PreconditionRequired("Send If-Match: \"<version>\" (or a 'version' field) to update")
+    if expected_version != part.version:
+        raise VersionMismatch(
+            f"This {singular(kind)} was changed by someone else (now version {part.version}, "
+            f"you sent {expected_version}); reload and apply your change again"
+        )
+    merged = {**_stored_fields(kind, part), **changes}
+    data = validate(CREATE_SCHEMAS[kind], merged, what=singular(kind))
+    _apply(part, data)
+    part.version += 1
+    part.updated_by_id = user_id
+    session.flush()
+    return part
+
+
+def set_archived(
+    session: Session, *, team_id: int, user_id: int | None, kind: str, part_id: int, archived: bool
+) -> PartColumns:
+    part = get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+    if part.archived != archived:
+        part.archived = archived
+        part.version += 1
+        part.updated_by_id = user_id
+    session.flush()
+    return part
+
+
+def references(session: Session, part: PartColumns) -> int:
+    """How many stored rows (bench runs, results, shortlist entries...) point at this part."""
+    table = type(part).__table__  # type: ignore[attr-defined]
+    count = 0
+    for other in table.metadata.sorted_tables:
+        for fk in other.foreign_keys:
+            if fk.column.table is table:
+                count += session.scalar(select(func.count()).select_from(other).where(fk.parent == part.id)) or 0
+    return count
+
+
+def delete_part(session: Session, *, team_id: int, kind: str, part_id: int) -> None:
+    """Delete an unused part; a part used by saved data can only be archived."""
+    part = get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+    used = references(session, part)
+    if used:
+        raise Conflict(f"This {singular(kind)} is used by {used} saved record(s); archive it instead of deleting it")
+    session.delete(part)
+    session.flush()
+
+
+# --- CSV --------------------------------------------------------------------------------------------
+
+
+def csv_columns(kind: str) -> list[str]:
+    return list(CREATE_SCHEMAS[kind].model_fields)
+
+
+def export_csv(session: Session, *, team_id: int, kind: str, include_archived: bool = False) -> str:
+    """All the team's parts of ``kind`` as CSV (tables as JSON text), readable by :func:`import_csv`."""
+    model = model_for(kind)
+    stmt = select(model).where(model.team_id == team_id).order_by(model.id)
+    if not include_archived:
+        stmt = stmt.where(model.archived.is_(False))
+    columns = csv_columns(kind)
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow(columns)
+    for part in session.scalars(stmt):
+        row = []
+        for name in columns:
+            value = getattr(part, name)
+            if name in JSON_COLUMNS:
+                row.append("" if value is None else json.dumps(value, separators=(",", ":")))
+            else:
+                row.append("" if value is None else value)
+        writer.writerow(row)
+    return out.getvalue()
+
+
+def parse_csv(kind: str, raw: bytes) -> list[BaseModel]:
+    """Validate a CSV of parts; raises InvalidInput listing every bad row and column (nothing is saved)."""
+    if len(raw) > MAX_IMPORT_BYTES:
+        raise InvalidInput("File too large", [FieldError("file", f"must be at most {MAX_IMPORT_BYTES} bytes")])
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InvalidInput("Not a text file", [FieldError("file", "must be UTF-8 text")]) from None
+    reader = csv.reader(io.StringIO(text))
+    header = next(reader, None)
+    if not header or not any(h.strip() for h in header):
+        raise InvalidInput("Empty file", [FieldError("file", "needs a header row and at least one data row")])
+    header = [h.strip() for h in header]
+    schema = CREATE_SCHEMAS[kind]
+    errors: list[FieldError] = []
+    dupes = sorted({h for h in header if header.count(h) > 1})
+    unknown = [h for h in header if h not in schema.model_fields]
+    missing = [n for n, f in schema.model_fields.items() if f.is_required() and n not in header]
+    errors += [FieldError(h, "column appears more than once", 1) for h in dupes]
+    errors += [FieldError(h, "unknown column", 1) for h in unknown]
+    errors += [FieldError(h, "required column is missing", 1) for h in missing]
+    if errors:
+        raise InvalidInput(f"Bad header in {kind} CSV", errors)
+    parsed: list[BaseModel] = []
+    line = 1
+    for line, cells in enumerate(reader, start=2):
+        if not any(c.strip() for c in cells):
+            continue
+        if len(cells) != len(header):
+            errors.append(FieldError("row", f"has {len(cells)} cells, the header has {len(header)}", line))
+            continue
+        record: dict[str, Any] = {}
+        for name, cell in zip(header, cells, strict=True):
+            cell = cell.strip()
+            if cell == "":
+                continue
+            if name in JSON_COLUMNS:
+                try:
+                    record[name] = json.loads(cell)
+                except json.JSONDecodeError:
+                    errors.append(FieldError(name, "must be a JSON list of rows", line))
+                    continue
+            else:
+                record[name] = cell
+        try:
+            parsed.append(schema.model_validate(record))
+        except ValidationError as exc:
+            errors += field_errors(exc, row=line)
+        if line - 1 > MAX_IMPORT_ROWS:
+            raise InvalidInput("Too many rows", [FieldError("file", f"at most {MAX_IMPORT_ROWS} rows")])
+    if errors:
+        raise InvalidInput(f"{len(errors)} problem(s) in the {kind} CSV; nothing was imported", errors)
+    if not parsed:
+        raise InvalidInput("No data rows", [FieldError("file", "needs at least one data row")])
+    return parsed
+
+
+def import_csv(session: Session, *, team_id: int, user_id: int | None, kind: str, raw: bytes) -> list[PartColumns]:
+    """Create every part in the CSV, or none of them."""
+    rows = parse_csv(kind, raw)
+    return [create_part(session, team_id=team_id, user_id=user_id, kind=kind, data=row) for row in rows]

@@ -1,0 +1,68 @@
+"""Load the invented demo scenario (seed_data/northfold.json) through the same validation as the API."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from server.config import REPO_ROOT, Settings
+from server.errors import Conflict
+from server.models import Team
+from server.schemas.missions import AirframeCreate, MissionCreate
+from server.schemas.parts import CREATE_SCHEMAS
+from server.services import accounts, missions, parts
+from server.services._validation import validate
+
+DEMO_FILE = REPO_ROOT / "seed_data" / "northfold.json"
+DEMO_LOGIN = ("engineer@northfold.example", "northfold-demo")
+
+
+def read_demo(path: Path = DEMO_FILE) -> dict[str, Any]:
+    data: dict[str, Any] = json.loads(path.read_text(encoding="utf-8"))
+    return data
+
+
+def load_demo(session: Session, *, settings: Settings, if_missing: bool = False, path: Path = DEMO_FILE) -> str:
+    """Create the demo team with its users, parts, airframes and missions; returns a one-line summary."""
+    data = read_demo(path)
+    team_name = data["team"]["name"]
+    if session.scalar(select(Team).where(Team.name == team_name)) is not None:
+        if if_missing:
+            return f"demo team {team_name!r} already loaded"
+        raise Conflict(f"The demo team {team_name!r} already exists")
+    team = accounts.create_team(session, name=team_name)
+    for user in data["users"]:
+        accounts.create_user(
+            session,
+            settings=settings,
+            email=user["email"],
+            password=user["password"],
+            team=team,
+            role=user["role"],
+            display_name=user.get("display_name", ""),
+        )
+    counts = {}
+    for kind, schema in CREATE_SCHEMAS.items():
+        rows = data.get(kind, [])
+        for row in rows:
+            model = validate(schema, row, what=f"demo {kind} {row.get('name')!r}")
+            parts.create_part(session, team_id=team.id, user_id=None, kind=kind, data=model)
+        counts[kind] = len(rows)
+    airframe_ids = {}
+    for row in data["airframes"]:
+        airframe = missions.create_airframe(
+            session, team_id=team.id, data=validate(AirframeCreate, row, what="demo airframe")
+        )
+        airframe_ids[airframe.name] = airframe.id
+    for row in data["missions"]:
+        fields = {k: v for k, v in row.items() if k != "airframe"} | {"airframe_id": airframe_ids[row["airframe"]]}
+        missions.create_mission(session, team_id=team.id, data=validate(MissionCreate, fields, what="demo mission"))
+    listed = ", ".join(f"{n} {k}" for k, n in counts.items())
+    return (
+        f"loaded demo team {team_name!r}: {listed}, {len(data['airframes'])} airframes, "
+        f"{len(data['missions'])} missions (invented data)"
+    )

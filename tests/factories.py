@@ -1,0 +1,106 @@
+"""Small factory functions: teams with keys and users, valid part payloads per kind."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+
+from server.db import transaction
+from server.services import accounts
+
+PASSWORD = "correct-horse-battery"
+
+
+@dataclass
+class TeamFixture:
+    team_id: int
+    name: str
+    read_key: str
+    write_key: str
+    owner_email: str
+    viewer_email: str
+
+    def headers(self, scope: str = "write") -> dict[str, str]:
+        return {"Authorization": f"Bearer {self.write_key if scope == 'write' else self.read_key}"}
+
+
+def make_team(app: FastAPI, name: str = "Alpha") -> TeamFixture:
+    """A team with an owner, a viewer, and one read and one write key."""
+    slug = name.lower().replace(" ", "-")
+    with transaction(app.state.sessionmaker) as session:
+        team = accounts.create_team(session, name=name)
+        settings = app.state.settings
+        accounts.create_user(
+            session, settings=settings, email=f"owner@{slug}.example", password=PASSWORD, team=team, role="owner"
+        )
+        accounts.create_user(
+            session, settings=settings, email=f"viewer@{slug}.example", password=PASSWORD, team=team, role="viewer"
+        )
+        _, read_key = accounts.create_api_key(session, team_id=team.id, scope="read")
+        _, write_key = accounts.create_api_key(session, team_id=team.id, scope="write")
+        return TeamFixture(team.id, name, read_key, write_key, f"owner@{slug}.example", f"viewer@{slug}.example")
+
+
+def login(client: TestClient, email: str, password: str = PASSWORD) -> str:
+    """Log in through the form; returns the session's CSRF token."""
+    page = client.get("/login")
+    token = page.text.split('name="csrf_token" value="', 1)[1].split('"', 1)[0]
+    response = client.post(
+        "/login", data={"email": email, "password": password, "csrf_token": token, "next": "/"}, follow_redirects=False
+    )
+    assert response.status_code == 303, response.text
+    home = client.get("/")
+    return home.text.split('name="csrf_token" value="', 1)[1].split('"', 1)[0]
+
+
+def part_payload(kind: str, name: str = "Test part", **overrides: Any) -> dict[str, Any]:
+    """A valid create body for ``kind`` (values are arbitrary but inside every bound)."""
+    base: dict[str, dict[str, Any]] = {
+        "batteries": {
+            "cells_series": 4,
+            "cells_parallel": 1,
+            "capacity_mah": 5000,
+            "cell_resistance_mohm": 5,
+            "max_continuous_c": 25,
+            "max_burst_c": 50,
+            "chemistry": "lipo",
+            "mass_g": 540,
+        },
+        "escs": {
+            "continuous_current_a": 40,
+            "burst_current_a": 50,
+            "min_cells": 2,
+            "max_cells": 6,
+            "pwm_frequency_khz": 24,
+            "mass_g": 30,
+        },
+        "motors": {
+            "kv_rpm_per_v": 920,
+            "winding_resistance_ohm": 0.1,
+            "no_load_current_a": 0.5,
+            "no_load_test_voltage_v": 10,
+            "max_current_a": 25,
+            "max_cells": 4,
+            "mass_g": 60,
+        },
+        "propellers": {
+            "diameter_in": 10,
+            "pitch_in": 4.7,
+            "blades": 2,
+            "ct": 0.11,
+            "cp": 0.045,
+            "mass_g": 14,
+            "static_table": [{"rpm": 3000, "ct": 0.108, "cp": 0.046}, {"rpm": 6000, "ct": 0.113, "cp": 0.045}],
+        },
+    }
+    return {
+        "name": name,
+        "part_number": f"T-{kind[:3]}-1",
+        "maker": "Test maker",
+        "unit_cost": 10.0,
+        **base[kind],
+        **overrides,
+    }
