@@ -4,7 +4,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 export PIP_DISABLE_PIP_VERSION_CHECK=1 DEBIAN_FRONTEND=noninteractive
 [ -x .venv/bin/python ] || python3 -m venv .venv
-.venv/bin/python -m pip install -q --upgrade pip
-.venv/bin/python -m pip install -q -e '.[test,postgres]'
-.venv/bin/python -m ruff check server tests migrations benchmarks
+.venv/bin/python -m pip install -q --upgrade pip 2> >(grep -v "WARNING: Location" >&2)
+.venv/bin/python -m pip install -q -e '.[test,postgres]' 2> >(grep -v "WARNING: Location" >&2)
+.venv/bin/python -m ruff check .
 .venv/bin/python -m pytest -q -p no:cacheprovider "$@"
