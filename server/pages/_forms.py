@@ -8,6 +8,8 @@ from typing import Any, Literal
 
 from pydantic import BaseModel
 
+from server.schemas._fields import field_meta
+
 TABLE_COLUMNS = {"static_table": ("rpm", "ct", "cp"), "forward_table": ("j", "ct", "cp")}
 
 
@@ -55,9 +57,9 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
     """One FormField per schema field, in declaration order."""
     out: list[FormField] = []
     for name, info in schema.model_fields.items():
-        extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
+        extra, description = field_meta(info)
         unit = str(extra.get("x-unit", ""))
-        help_text = (info.description or "").removesuffix(f"[{unit}]").strip()
+        help_text = description.removesuffix(f"[{unit}]").strip()
         annotation = info.annotation
         args = typing.get_args(annotation)
         base = next((a for a in args if a is not type(None)), annotation) if args else annotation

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import math
+import typing
 from typing import Annotated, Any
 
 from pydantic import AfterValidator, BaseModel, Field, create_model
+from pydantic.fields import FieldInfo
 
 
 def _fmt(value: float) -> str:
@@ -42,10 +44,20 @@ def text(max_length: int, *, description: str = "", min_length: int = 0) -> Any:
     return Annotated[str, Field(max_length=max_length, description=description), AfterValidator(strip)]
 
 
+def field_meta(info: FieldInfo) -> tuple[dict[str, Any], str]:
+    """The ``ranged`` bounds/unit dict and description of a field, also when it is ``ranged(...) | None``."""
+    if isinstance(info.json_schema_extra, dict):
+        return dict(info.json_schema_extra), info.description or ""
+    for arg in typing.get_args(info.annotation):
+        for meta in getattr(arg, "__metadata__", ()):
+            if isinstance(meta, FieldInfo) and isinstance(meta.json_schema_extra, dict):
+                return dict(meta.json_schema_extra), meta.description or ""
+    return {}, info.description or ""
+
+
 def unit_of(model: type[BaseModel], name: str) -> str:
     """The unit declared for a field (empty when it has none)."""
-    extra = model.model_fields[name].json_schema_extra
-    return str(extra.get("x-unit", "")) if isinstance(extra, dict) else ""
+    return str(field_meta(model.model_fields[name])[0].get("x-unit", ""))
 
 
 def partial_model(model: type[BaseModel], name: str) -> type[BaseModel]:
