@@ -1,0 +1,11 @@
+"""Pure, vectorised propulsion physics: numpy in, numpy out, no I/O, nothing else of ``server`` imported.
+
+One module per component (atmosphere, propeller, motor, esc, battery), the coupled operating point of N rotors
+on one pack (drive), discharge integration (endurance) and common-practice sizing rules (sizing). Every
+function broadcasts over candidates; batch solvers return a per-element :class:`Status` and never raise.
+The model and its check cases are specified in the shared physics.md ("Reference model v1").
+"""
+
+from ._types import FloatArray, Status
+
+__all__ = ["FloatArray", "Status"]

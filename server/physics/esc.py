@@ -1,0 +1,211 @@
+"""ESC: averaged PWM switch with conduction resistance, plus the partial-throttle losses.
+
+The averaged model puts ``R_on_path`` in series with the motor (``V_m = d V_bus = E + I (R + R_on_path)``).
+Below full throttle the bridge chops the bus, which costs extra power the averaged model misses:
+
+- ripple copper ``P_rip = (R + R_on_path) ΔI^2 / 12`` with ``ΔI = V_bus d (1 - d) / (L f_sw)`` (peak-peak),
+- switching ``P_sw = 0.5 V_bus I f_sw (t_on + t_off)``,
+- dead time ``P_dt = V_SD I (2 t_dead) f_sw``,
+- input capacitor ``P_cap = ESR I^2 d (1 - d)``,
+- calibrated ``P_pwm = k_pwm V_bus I d (1 - d)`` (default k_pwm = 0; fitted from bench runs).
+
+All are zero at d = 1, where the bridge only commutates. Complementary (synchronous) PWM is assumed;
+:func:`freewheel_diode_loss_w` gives the non-synchronous alternative.
+
+References
+----------
+.. [1] N. Mohan, T. M. Undeland, W. P. Robbins, *Power Electronics: Converters, Applications, and Design*,
+   3rd ed., Wiley, 2003 (switching loss, step-down converter ripple).
+.. [2] R. W. Erickson and D. Maksimović, *Fundamentals of Power Electronics*, 2nd ed., Kluwer, 2001
+   (inductor ripple, capacitor RMS current, switching loss).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from ._types import ArrayLike, FloatArray, as_float_array
+
+
+@dataclass(frozen=True)
+class EscParams:
+    """ESC parameters (physics.md reference model v1 defaults); every field broadcasts.
+
+    Parameters
+    ----------
+    on_path_resistance_ohm : array_like, default 0.010
+        Resistance of the conducting switches in series with the motor (2 R_DS(on)). [Ω]
+    switching_frequency_hz : array_like, default 24e3
+        PWM frequency f_sw. [Hz]
+    transition_time_s : array_like, default 200e-9
+        Sum of turn-on and turn-off transition times t_on + t_off. [s]
+    dead_time_s : array_like, default 0.5e-6
+        Dead time per edge (two edges per period). [s]
+    body_diode_drop_v : array_like, default 0.8
+        Body-diode forward voltage V_SD during dead time. [V]
+    input_esr_ohm : array_like, default 0.020
+        ESR of the bulk input capacitor. [Ω]
+    pwm_loss_coefficient : array_like, default 0
+        Calibrated k_pwm of ``P_pwm = k_pwm V_bus I d (1 - d)``. [-]
+    max_current_a : array_like, default inf
+        Continuous current rating; exceeding it flags ``Status.OVER_CURRENT``. [A]
+    """
+
+    on_path_resistance_ohm: FloatArray = 0.010  # type: ignore[assignment]
+    switching_frequency_hz: FloatArray = 24e3  # type: ignore[assignment]
+    transition_time_s: FloatArray = 200e-9  # type: ignore[assignment]
+    dead_time_s: FloatArray = 0.5e-6  # type: ignore[assignment]
+    body_diode_drop_v: FloatArray = 0.8  # type: ignore[assignment]
+    input_esr_ohm: FloatArray = 0.020  # type: ignore[assignment]
+    pwm_loss_coefficient: FloatArray = 0.0  # type: ignore[assignment]
+    max_current_a: FloatArray = np.inf  # type: ignore[assignment]
+
+    def __post_init__(self) -> None:
+        for f in fields(self):
+            object.__setattr__(self, f.name, as_float_array(getattr(self, f.name)))
+
+    @classmethod
+    def lossless_switching(cls, on_path_resistance_ohm: ArrayLike = 0.0) -> EscParams:
+        """An ideal averaged switch: only the conduction resistance remains (physics.md §4 cases)."""
+        return cls(on_path_resistance_ohm=as_float_array(on_path_resistance_ohm),
+                   transition_time_s=as_float_array(0.0), dead_time_s=as_float_array(0.0),
+                   body_diode_drop_v=as_float_array(0.0), input_esr_ohm=as_float_array(0.0))
+
+
+@dataclass(frozen=True)
+class PartialThrottleLosses:
+    """Partial-throttle loss terms per rotor, all zero at d = 1. [W]"""
+
+    pwm_ripple_w: FloatArray
+    switching_w: FloatArray
+    dead_time_w: FloatArray
+    input_capacitor_w: FloatArray
+    calibrated_pwm_w: FloatArray
+
+    @property
+    def total_w(self) -> FloatArray:
+        """``P_extra`` including the calibrated term. [W]"""
+        return (self.pwm_ripple_w + self.switching_w + self.dead_time_w + self.input_capacitor_w
+                + self.calibrated_pwm_w)
+
+
+def _chopping(duty: ArrayLike) -> FloatArray:
+    """``d (1 - d)`` clipped to d in [0, 1]; zero at full throttle."""
+    d = np.clip(as_float_array(duty), 0.0, 1.0)
+    return d * (1.0 - d)
+
+
+def _switching_mask(duty: ArrayLike) -> FloatArray:
+    """1 while the bridge chops (d < 1), 0 at full throttle (only commutations, neglected)."""
+    return np.where(as_float_array(duty) < 1.0, 1.0, 0.0)
+
+
+def ripple_current_a(bus_voltage_v: ArrayLike, duty: ArrayLike, inductance_h: ArrayLike,
+                     switching_frequency_hz: ArrayLike) -> FloatArray:
+    """Peak-to-peak motor current ripple ``ΔI = V_bus d (1 - d) / (L f_sw)``. [A]
+
+    Maximum ``V_bus / (4 L f_sw)`` at d = 0.5. (Erickson's Δi is half of this.)
+    """
+    return as_float_array(bus_voltage_v) * _chopping(duty) / (
+        as_float_array(inductance_h) * as_float_array(switching_frequency_hz))
+
+
+def rms_current_a(average_current_a: ArrayLike, ripple_current_pp_a: ArrayLike) -> FloatArray:
+    """RMS of a triangular ripple on a mean ``sqrt(I^2 + ΔI^2 / 12)``. [A]"""
+    return np.sqrt(as_float_array(average_current_a) ** 2 + as_float_array(ripple_current_pp_a) ** 2 / 12.0)
+
+
+def ripple_copper_loss_w(ripple_current_pp_a: ArrayLike, series_resistance_ohm: ArrayLike) -> FloatArray:
+    """Copper loss of the ripple above the averaged model ``(R + R_on_path) ΔI^2 / 12``. [W]"""
+    return as_float_array(series_resistance_ohm) * as_float_array(ripple_current_pp_a) ** 2 / 12.0
+
+
+def switching_loss_w(bus_voltage_v: ArrayLike, motor_current_a: ArrayLike, duty: ArrayLike,
+                     switching_frequency_hz: ArrayLike, transition_time_s: ArrayLike) -> FloatArray:
+    """Hard-switching loss with linear transitions ``0.5 V_bus I f_sw (t_on + t_off)``, 0 at d = 1. [W]"""
+    return (0.5 * as_float_array(bus_voltage_v) * as_float_array(motor_current_a)
+            * as_float_array(switching_frequency_hz) * as_float_array(transition_time_s) * _switching_mask(duty))
+
+
+def dead_time_loss_w(motor_current_a: ArrayLike, duty: ArrayLike, switching_frequency_hz: ArrayLike,
+                     dead_time_s: ArrayLike, body_diode_drop_v: ArrayLike) -> FloatArray:
+    """Body-diode conduction during dead time ``V_SD I (2 t_dead) f_sw``, 0 at d = 1. [W]"""
+    return (as_float_array(body_diode_drop_v) * as_float_array(motor_current_a) * 2.0
+            * as_float_array(dead_time_s) * as_float_array(switching_frequency_hz) * _switching_mask(duty))
+
+
+def input_capacitor_rms_current_a(motor_current_a: ArrayLike, duty: ArrayLike) -> FloatArray:
+    """Input-capacitor RMS current ``I sqrt(d (1 - d))``. [A]"""
+    return as_float_array(motor_current_a) * np.sqrt(_chopping(duty))
+
+
+def input_capacitor_loss_w(motor_current_a: ArrayLike, duty: ArrayLike, input_esr_ohm: ArrayLike) -> FloatArray:
+    """Input-capacitor ESR loss ``ESR I^2 d (1 - d)``. [W]"""
+    return as_float_array(input_esr_ohm) * input_capacitor_rms_current_a(motor_current_a, duty) ** 2
+
+
+def calibrated_pwm_loss_w(bus_voltage_v: ArrayLike, motor_current_a: ArrayLike, duty: ArrayLike,
+                          pwm_loss_coefficient: ArrayLike) -> FloatArray:
+    """Calibrated catch-all ``P_pwm = k_pwm V_bus I d (1 - d)`` (e.g. ripple iron loss). [W]"""
+    return (as_float_array(pwm_loss_coefficient) * as_float_array(bus_voltage_v)
+            * as_float_array(motor_current_a) * _chopping(duty))
+
+
+def freewheel_diode_loss_w(motor_current_a: ArrayLike, duty: ArrayLike, diode_drop_v: ArrayLike = 0.8) -> FloatArray:
+    """Non-synchronous ESC: freewheel diode loss ``V_F I (1 - d)`` replacing the low-side conduction. [W]"""
+    d = np.clip(as_float_array(duty), 0.0, 1.0)
+    return as_float_array(diode_drop_v) * as_float_array(motor_current_a) * (1.0 - d)
+
+
+def partial_throttle_losses(bus_voltage_v: ArrayLike, duty: ArrayLike, motor_current_a: ArrayLike,
+                            motor_resistance_ohm: ArrayLike, inductance_h: ArrayLike,
+                            esc: EscParams) -> PartialThrottleLosses:
+    """Every partial-throttle loss term of one rotor's ESC.
+
+    Parameters
+    ----------
+    bus_voltage_v : array_like
+        ESC input (bus) voltage. [V]
+    duty : array_like
+        PWM duty, 0..1. [-]
+    motor_current_a : array_like
+        Average motor current. [A]
+    motor_resistance_ohm : array_like
+        Motor line-to-line resistance R (the ripple flows through R + R_on_path). [Ω]
+    inductance_h : array_like
+        Motor line-to-line inductance. [H]
+    esc : EscParams
+        ESC parameters.
+
+    Returns
+    -------
+    PartialThrottleLosses
+        Ripple copper, switching, dead time, input capacitor and calibrated terms. [W]
+    """
+    ripple = ripple_current_a(bus_voltage_v, duty, inductance_h, esc.switching_frequency_hz)
+    series = as_float_array(motor_resistance_ohm) + esc.on_path_resistance_ohm
+    return PartialThrottleLosses(
+        pwm_ripple_w=ripple_copper_loss_w(ripple, series),
+        switching_w=switching_loss_w(bus_voltage_v, motor_current_a, duty, esc.switching_frequency_hz,
+                                     esc.transition_time_s),
+        dead_time_w=dead_time_loss_w(motor_current_a, duty, esc.switching_frequency_hz, esc.dead_time_s,
+                                     esc.body_diode_drop_v),
+        input_capacitor_w=input_capacitor_loss_w(motor_current_a, duty, esc.input_esr_ohm),
+        calibrated_pwm_w=calibrated_pwm_loss_w(bus_voltage_v, motor_current_a, duty, esc.pwm_loss_coefficient),
+    )
+
+
+def extra_loss_w(bus_voltage_v: ArrayLike, duty: ArrayLike, motor_current_a: ArrayLike,
+                 motor_resistance_ohm: ArrayLike, inductance_h: ArrayLike, esc: EscParams) -> FloatArray:
+    """``P_extra`` (all partial-throttle terms including ``P_pwm``) as one array. [W]"""
+    return partial_throttle_losses(bus_voltage_v, duty, motor_current_a, motor_resistance_ohm,
+                                   inductance_h, esc).total_w
+
+
+def bus_current_a(bus_voltage_v: ArrayLike, duty: ArrayLike, motor_current_a: ArrayLike,
+                  extra_loss_w_: ArrayLike) -> FloatArray:
+    """Average ESC input current by energy balance ``I_bus = d I + P_extra / V_bus``. [A]"""
+    return as_float_array(duty) * as_float_array(motor_current_a) + as_float_array(extra_loss_w_) / as_float_array(
+        bus_voltage_v)

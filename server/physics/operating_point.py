@@ -1,0 +1,136 @@
+"""The result of an operating-point solve: per-rotor state, every loss term, and pack totals.
+
+Kept apart from the solvers in :mod:`drive` so that the ranking engine can import the result type alone.
+Every quantity is recomputed here from the solved speed and bus voltage, so the reported numbers are
+mutually consistent (the energy balance of physics.md reference model v1 item 5 closes to rounding).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import esc as esc_model
+from ._problem import Problem
+from ._types import RPM_PER_RAD_S, ArrayLike, FloatArray, IntArray, Status
+from .propeller import coefficients_at, figure_of_merit, specific_thrust_g_per_w
+
+
+@dataclass(frozen=True)
+class OperatingPoint:
+    """Per-rotor operating point of a batch of candidates (all arrays of the broadcast shape).
+
+    Powers are per rotor unless named ``pack_``; losses are in [W]. ``electrical_power_w`` is the ESC input
+    power ``V_bus I_bus``; ``drive_efficiency`` = shaft ÷ electrical (motor + ESC); ``specific_thrust_g_per_w``
+    is thrust per ESC input power. ``status`` holds :class:`Status` codes; values are NaN where the status
+    is not OK, OVER_CURRENT or DATA_ERROR.
+    """
+
+    rpm: FloatArray
+    omega_rad_s: FloatArray
+    thrust_n: FloatArray
+    torque_nm: FloatArray
+    shaft_power_w: FloatArray
+    duty: FloatArray
+    motor_current_a: FloatArray
+    motor_voltage_v: FloatArray
+    bus_voltage_v: FloatArray
+    bus_current_a: FloatArray
+    electrical_power_w: FloatArray
+    motor_copper_loss_w: FloatArray
+    motor_no_load_loss_w: FloatArray
+    esc_conduction_loss_w: FloatArray
+    pwm_ripple_loss_w: FloatArray
+    switching_loss_w: FloatArray
+    dead_time_loss_w: FloatArray
+    input_capacitor_loss_w: FloatArray
+    calibrated_pwm_loss_w: FloatArray
+    drive_efficiency: FloatArray
+    specific_thrust_g_per_w: FloatArray
+    thrust_coefficient: FloatArray
+    power_coefficient: FloatArray
+    open_circuit_voltage_v: FloatArray
+    rotor_count: FloatArray
+    pack_current_a: FloatArray
+    pack_loss_w: FloatArray
+    status: IntArray
+
+    @property
+    def extra_loss_w(self) -> FloatArray:
+        """All partial-throttle ESC losses of one rotor (P_extra including P_pwm). [W]"""
+        return (self.pwm_ripple_loss_w + self.switching_loss_w + self.dead_time_loss_w
+                + self.input_capacitor_loss_w + self.calibrated_pwm_loss_w)
+
+    @property
+    def total_thrust_n(self) -> FloatArray:
+        """Thrust of all rotors. [N]"""
+        return self.rotor_count * self.thrust_n
+
+    @property
+    def pack_power_w(self) -> FloatArray:
+        """Power drawn from the cells ``V_oc I_pack`` (includes the pack's own loss). [W]"""
+        return self.open_circuit_voltage_v * self.pack_current_a
+
+    @property
+    def craft_electrical_power_w(self) -> FloatArray:
+        """ESC input power of all rotors ``N V_bus I_bus``. [W]"""
+        return self.rotor_count * self.electrical_power_w
+
+
+
+def motor_side(p: Problem, omega: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+    """Coefficients and motor state at speed Ω: (ct, cp, current I, motor voltage V_m = E + I R')."""
+    ct, cp = coefficients_at(p.table, omega, p.airspeed_m_s)
+    n = omega / (2.0 * math.pi)
+    torque = cp * p.density_kg_m3 * n * n * p.diameter_m**5 / (2.0 * math.pi)
+    current = p.no_load_current_a + torque * p.kv_rad_s_per_v
+    motor_voltage = omega / p.kv_rad_s_per_v + current * p.series_resistance_ohm
+    return ct, cp, current, motor_voltage
+
+
+def assemble(p: Problem, omega: FloatArray, bus: FloatArray, status: IntArray) -> OperatingPoint:
+    """Every reported quantity from the solved speed and bus voltage (NaN where status is not OK)."""
+    solved = status == Status.OK
+    omega = np.where(solved, omega, np.nan)
+    bus = np.where(solved, bus, np.nan)
+    shape = p.shape
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ct, cp, current, motor_voltage = motor_side(p, omega)
+        duty = motor_voltage / bus
+        n = omega / (2.0 * math.pi)
+        thrust = ct * p.density_kg_m3 * n * n * p.diameter_m**4
+        torque = (current - p.no_load_current_a) / p.kv_rad_s_per_v  # Kt (I - I0), Kt = 1/Kv_SI
+        shaft = torque * omega
+        losses = esc_model.partial_throttle_losses(bus, duty, current, p.resistance_ohm, p.inductance_h, p.esc)
+        bus_current = esc_model.bus_current_a(bus, duty, current, losses.total_w)
+        electrical = bus * bus_current
+        pack_current = p.rotor_count * bus_current
+        efficiency = shaft / electrical
+        # Momentum bound: a static point with FM > 1 means the propeller data are wrong.
+        impossible = solved & np.broadcast_to(p.airspeed_m_s == 0.0, solved.shape) & (figure_of_merit(ct, cp) > 1.0)
+    limit = np.minimum(p.max_current_a, p.esc.max_current_a)
+    status = status.copy()
+    status[solved & (current > limit)] = Status.OVER_CURRENT
+    status[impossible] = Status.DATA_ERROR
+
+    def out(a: ArrayLike) -> FloatArray:
+        return np.broadcast_to(np.asarray(a, dtype=np.float64), (p.size,)).reshape(shape).copy()
+
+    return OperatingPoint(
+        rpm=out(omega * RPM_PER_RAD_S), omega_rad_s=out(omega), thrust_n=out(thrust), torque_nm=out(torque),
+        shaft_power_w=out(shaft), duty=out(duty), motor_current_a=out(current), motor_voltage_v=out(motor_voltage),
+        bus_voltage_v=out(bus), bus_current_a=out(bus_current), electrical_power_w=out(electrical),
+        motor_copper_loss_w=out(current**2 * p.resistance_ohm),
+        motor_no_load_loss_w=out(p.no_load_current_a * omega / p.kv_rad_s_per_v),
+        esc_conduction_loss_w=out(current**2 * p.esc.on_path_resistance_ohm),
+        pwm_ripple_loss_w=out(losses.pwm_ripple_w), switching_loss_w=out(losses.switching_w),
+        dead_time_loss_w=out(losses.dead_time_w), input_capacitor_loss_w=out(losses.input_capacitor_w),
+        calibrated_pwm_loss_w=out(losses.calibrated_pwm_w),
+        drive_efficiency=out(efficiency), specific_thrust_g_per_w=out(specific_thrust_g_per_w(thrust, electrical)),
+        thrust_coefficient=out(ct), power_coefficient=out(cp),
+        open_circuit_voltage_v=out(p.open_circuit_voltage_v), rotor_count=out(p.rotor_count),
+        pack_current_a=out(pack_current), pack_loss_w=out(p.pack_resistance_ohm * pack_current**2),
+        status=status.reshape(shape),
+    )
