@@ -91,6 +91,40 @@ def cmd_load_demo(args: argparse.Namespace, settings: Settings) -> int:
     return 0
 
 
+def cmd_predict(args: argparse.Namespace, settings: Settings) -> int:
+    """Predict from a JSON request (file or stdin); parts by id need --team. Invalid input exits 2."""
+    import json
+
+    from server.schemas.predict import PredictRequest
+    from server.services import accounts
+    from server.services import predict as predict_service
+    from server.services._validation import field_errors
+
+    try:
+        text = sys.stdin.read() if args.file == "-" else open(args.file, encoding="utf-8").read()
+    except OSError as exc:
+        raise CliError(f"cannot read {args.file}: {exc.strerror}") from None
+    try:
+        request = PredictRequest.model_validate(json.loads(text))
+    except json.JSONDecodeError as exc:
+        print(f"liftmatch: invalid input: not JSON ({exc.msg} at line {exc.lineno})", file=sys.stderr)
+        return 2
+    except ValidationError as exc:
+        errors = "; ".join(f"{e.field}: {e.message}" for e in field_errors(exc))
+        print(f"liftmatch: invalid input: {errors}", file=sys.stderr)
+        return 2
+    with transaction(_sessionmaker(settings)) as session:
+        team_id = accounts.get_team_by_name(session, name=args.team).id if args.team else None
+        try:
+            result = predict_service.predict(session, team_id, request)
+        except DomainError as exc:
+            print(f"liftmatch: invalid input: {exc}", file=sys.stderr)
+            return 2
+    json.dump(result, sys.stdout, indent=2)
+    sys.stdout.write("\n")
+    return 0
+
+
 def _serve(settings: Settings, host: str, port: int, reload: bool = False) -> int:
     import uvicorn
 
@@ -162,6 +196,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--team", required=True)
     p.add_argument("--scope", required=True, choices=["read", "write"])
     p.add_argument("--name", help="what the key is for")
+    p = add("predict", cmd_predict, "operating points of one power system: JSON request in, JSON out")
+    p.add_argument("file", nargs="?", default="-", help="request JSON file, or - for stdin (default)")
+    p.add_argument("--team", help="team whose saved parts ids refer to")
     add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
     return parser
 

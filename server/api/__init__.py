@@ -2,9 +2,10 @@
 
 from fastapi import APIRouter
 
-from server.api import missions, parts, team
+from server.api import missions, parts, predict, team
 
 api_router = APIRouter(prefix="/api/v1")
 api_router.include_router(parts.router)
 api_router.include_router(missions.router)
 api_router.include_router(team.router)
+api_router.include_router(predict.router)

@@ -2,11 +2,12 @@
 
 from fastapi import APIRouter
 
-from server.pages import auth, home, missions, parts, team
+from server.pages import auth, home, missions, parts, predict, team
 
 page_router = APIRouter(include_in_schema=False)
 page_router.include_router(auth.router)
 page_router.include_router(home.router)
 page_router.include_router(parts.router)
 page_router.include_router(missions.router)
+page_router.include_router(predict.router)
 page_router.include_router(team.router)

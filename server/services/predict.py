@@ -1,0 +1,239 @@
+"""Predict: operating points (and optionally endurance) of one power system, for the API, CLI and page."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+from sqlalchemy.orm import Session
+
+from server.errors import FieldError, InvalidInput
+from server.physics import atmosphere, drive, endurance
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status
+from server.physics.battery import PackParams
+from server.physics.operating_point import OperatingPoint
+from server.physics.propeller import tip_mach_number
+from server.schemas.predict import PredictRequest
+from server.services import power_system as ps
+
+TIP_MACH_LIMIT = 0.7  # common practice, no source (physics.md §2 typical range: keep ≲ 0.6–0.7)
+LOSS_FIELDS = {
+    "motor_copper": "motor_copper_loss_w", "motor_no_load": "motor_no_load_loss_w",
+    "esc_conduction": "esc_conduction_loss_w", "pwm_ripple": "pwm_ripple_loss_w", "switching": "switching_loss_w",
+    "dead_time": "dead_time_loss_w", "input_capacitor": "input_capacitor_loss_w",
+    "calibrated_pwm": "calibrated_pwm_loss_w",
+}
+POINT_FIELDS = ["rpm", "thrust_n", "torque_nm", "shaft_power_w", "duty", "motor_current_a", "motor_voltage_v",
+                "bus_voltage_v", "bus_current_a", "electrical_power_w", "drive_efficiency", "specific_thrust_g_per_w"]
+
+
+def _f(value: Any) -> float | None:
+    number = float(value)
+    return number if math.isfinite(number) else None
+
+
+class System:
+    """The resolved power system of a request: physics parameters plus where each value came from."""
+
+    def __init__(self, session: Session | None, team_id: int | None, request: PredictRequest) -> None:
+        self.request = request
+        self.esc = ps.resolve(session, team_id, "escs", request.esc, "esc", ps.ESC_FIELDS, ps.ESC_DEFAULTS)
+        self.motor = ps.resolve(session, team_id, "motors", request.motor, "motor", ps.MOTOR_FIELDS,
+                                ps.MOTOR_DEFAULTS)
+        self.prop = ps.resolve(session, team_id, "propellers", request.propeller, "propeller", ps.PROP_FIELDS)
+        self.battery = ps.resolve(session, team_id, "batteries", request.battery, "battery",
+                                  ps.BATTERY_FIELDS, {"cells_parallel": 1, "chemistry": "lipo"})
+        self.motor_params = ps.motor_params(self.motor)
+        self.esc_params = ps.esc_params(self.esc)
+        self.static_table, self.forward_table = ps.propeller_tables(self.prop)
+        conditions = request.conditions
+        outside_k = None if conditions.air_temperature_c is None else conditions.air_temperature_c + 273.15
+        self.density = float(atmosphere.air_density_kg_m3(
+            conditions.altitude_m, temperature_offset_k=conditions.temperature_offset_c or 0.0,
+            outside_air_temperature_k=outside_k,
+        ))
+        self.temperature_k = float(atmosphere.air_temperature_k(
+            conditions.altitude_m, temperature_offset_k=conditions.temperature_offset_c or 0.0,
+            outside_air_temperature_k=outside_k,
+        ))
+        self.airspeed = conditions.airspeed_m_s
+        if self.airspeed > 0 and self.forward_table is None:
+            raise InvalidInput("No forward-flight data", [FieldError(
+                "propeller.forward_table", "an airspeed above 0 needs CT/CP versus advance ratio J")])
+        self.table = self.forward_table if self.airspeed > 0 else self.static_table
+        b = request.battery
+        if b.supply_voltage_v is not None:
+            self.pack: PackParams | None = None
+            self.open_circuit_v = b.supply_voltage_v
+            self.pack_resistance = b.wiring_resistance_ohm
+        else:
+            self.battery.require(["cells_series", "capacity_mah", "cell_resistance_mohm"], "battery")
+            v = self.battery.values
+            k = b.packs_in_parallel
+            self.pack = PackParams(
+                cells_series=v["cells_series"], capacity_ah=v["capacity_mah"] / 1000 * k,
+                cell_resistance_ohm=v["cell_resistance_mohm"] / 1000, cells_parallel=v["cells_parallel"] * k,
+                wiring_resistance_ohm=b.wiring_resistance_ohm,
+                full_voltage_per_cell_v=ps.FULL_VOLTAGE_PER_CELL_V[v["chemistry"]],
+            )
+            self.open_circuit_v = float(self.pack.open_circuit_voltage_v(b.state_of_charge))
+            self.pack_resistance = float(self.pack.resistance_ohm)
+
+    def solve_kwargs(self) -> dict[str, Any]:
+        return {
+            "motor": self.motor_params, "esc": self.esc_params, "propeller": self.table,
+            "open_circuit_voltage_v": self.open_circuit_v, "pack_resistance_ohm": self.pack_resistance,
+            "rotor_count": self.request.rotor_count, "density_kg_m3": self.density, "airspeed_m_s": self.airspeed,
+        }
+
+    def parameters(self) -> dict[str, dict[str, dict[str, Any]]]:
+        return {"battery": self.battery.report(), "esc": self.esc.report(), "motor": self.motor.report(),
+                "propeller": self.prop.report()}
+
+
+def solve_points(system: System, kinds: list[str], values: np.ndarray) -> OperatingPoint:
+    """All requested points in one vectorised call per kind; results in request order."""
+    n = len(kinds)
+    out: dict[str, np.ndarray] = {}
+    kinds_arr = np.array(kinds)
+    for kind, fn in (("throttle", drive.at_duty), ("thrust_n", drive.for_thrust), ("rpm", drive.at_rpm)):
+        mask = kinds_arr == kind
+        if not mask.any():
+            continue
+        op = fn(values[mask], **system.solve_kwargs())
+        for name, array in vars(op).items():
+            full = out.setdefault(name, np.full(n, np.nan))
+            full[mask] = np.broadcast_to(np.asarray(array, dtype=float), (int(mask.sum()),))
+    out["status"] = out["status"].astype(np.int8)
+    return OperatingPoint(**out)
+
+
+def _warnings(system: System, op: OperatingPoint, i: int) -> list[str]:
+    notes: list[str] = []
+    status = Status(int(op.status[i]))
+    current = op.motor_current_a[i]
+    motor_max = system.motor.values.get("max_current_a")
+    esc_max = system.esc.values.get("continuous_current_a")
+    if motor_max and current > motor_max:
+        notes.append(f"motor current {current:.1f} A is above the motor's rating of {motor_max:g} A")
+    if esc_max and current > esc_max:
+        notes.append(f"motor current {current:.1f} A is above the ESC's continuous rating of {esc_max:g} A")
+    if system.pack is not None:
+        c_rating = system.battery.values.get("max_continuous_c")
+        if c_rating:
+            allowed = c_rating * float(system.pack.capacity_ah)
+            if op.pack_current_a[i] > allowed:
+                notes.append(f"pack current {op.pack_current_a[i]:.1f} A is above its continuous rating "
+                             f"{c_rating:g} C = {allowed:.1f} A")
+    if np.isfinite(op.omega_rad_s[i]):
+        mach = float(tip_mach_number(op.omega_rad_s[i], system.table.diameter_m,
+                                     atmosphere.speed_of_sound_m_s(system.temperature_k)).ravel()[0])
+        if mach > TIP_MACH_LIMIT:
+            notes.append(f"tip Mach {mach:.2f} is above {TIP_MACH_LIMIT} (noise, loss of efficiency)")
+    table = system.prop.values.get("static_table")
+    if table and system.airspeed == 0 and np.isfinite(op.rpm[i]):
+        lo, hi = table[0]["rpm"], table[-1]["rpm"]
+        if not lo <= op.rpm[i] <= hi:
+            notes.append(f"{op.rpm[i]:.0f} rpm is outside the measured range {lo:g}–{hi:g} rpm; "
+                         "coefficients held at the nearest measured value")
+    if np.isfinite(op.bus_voltage_v[i]) and op.bus_voltage_v[i] < 0.5 * system.open_circuit_v:
+        notes.append("bus voltage below half the open-circuit voltage: the pack cannot deliver more power")
+    if status == Status.INFEASIBLE_THRUST:
+        notes.append("not reachable: needs a PWM duty above 1 with this supply")
+    elif status == Status.DATA_ERROR:
+        notes.append("this point beats the momentum-theory ideal power: check the propeller coefficients")
+    elif status not in (Status.OK, Status.OVER_CURRENT):
+        notes.append(f"no solution ({status.name.lower()})")
+    return notes
+
+
+def _point(system: System, op: OperatingPoint, i: int, request: dict[str, float]) -> dict[str, Any]:
+    rotors = system.request.rotor_count
+    craft: dict[str, Any] = {
+        "thrust_n": _f(op.thrust_n[i] * rotors), "bus_current_a": _f(op.pack_current_a[i]),
+        "electrical_power_w": _f(op.electrical_power_w[i] * rotors), "pack_loss_w": _f(op.pack_loss_w[i]),
+        "thrust_to_weight": None,
+    }
+    if system.request.all_up_mass_g:
+        weight_n = system.request.all_up_mass_g / 1000 * STANDARD_GRAVITY_M_S2
+        craft["thrust_to_weight"] = _f(op.thrust_n[i] * rotors / weight_n)
+    return {
+        "request": request,
+        "status": Status(int(op.status[i])).name.lower(),
+        **{name: _f(getattr(op, name)[i]) for name in POINT_FIELDS},
+        "losses_w": {key: _f(getattr(op, attr)[i]) for key, attr in LOSS_FIELDS.items()},
+        "craft": craft,
+        "warnings": _warnings(system, op, i),
+    }
+
+
+def _endurance(system: System) -> dict[str, Any] | None:
+    spec = system.request.endurance
+    if spec is None:
+        return None
+    if system.pack is None:
+        raise InvalidInput("No endurance on a bench supply", [
+            FieldError("endurance", "a stiff bench supply has no capacity; give a pack to simulate a discharge")])
+    pack = PackParams(**{**vars(system.pack), "usable_fraction": spec.usable_fraction,
+                         "cutoff_voltage_per_cell_v": spec.cutoff_v_per_cell,
+                         "peukert_exponent": spec.peukert_exponent})
+    start_soc = system.request.battery.state_of_charge
+    if spec.power_w is not None:
+        result: Any = endurance.constant_power(spec.power_w, pack=pack, initial_state_of_charge=start_soc)
+        start = {"bus_voltage_v": _f(np.ravel(result.start_voltage_v)[0]),
+                 "bus_current_a": _f(np.ravel(result.start_current_a)[0])}
+        end = {"bus_voltage_v": _f(np.ravel(result.end_voltage_v)[0]),
+               "bus_current_a": _f(np.ravel(result.end_current_a)[0])}
+    else:
+        kwargs = system.solve_kwargs()
+        for key in ("open_circuit_voltage_v", "pack_resistance_ohm"):
+            kwargs.pop(key)
+        result = endurance.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc, **kwargs)
+        start, end = _state(result.start), _state(result.end)
+    seconds = _f(np.ravel(result.time_s)[0])
+    return {
+        "minutes": None if seconds is None else seconds / 60,
+        "seconds": seconds,
+        "stop_reason": endurance.StopReason(int(np.ravel(result.stop_reason)[0])).name.lower(),
+        "final_state_of_charge": _f(np.ravel(result.final_state_of_charge)[0]),
+        "start": start,
+        "end": end,
+    }
+
+
+def _state(point: OperatingPoint) -> dict[str, float | None]:
+    return {"duty": _f(np.ravel(point.duty)[0]), "bus_voltage_v": _f(np.ravel(point.bus_voltage_v)[0]),
+            "bus_current_a": _f(np.ravel(point.pack_current_a)[0]),
+            "motor_current_a": _f(np.ravel(point.motor_current_a)[0])}
+
+
+def predict(session: Session | None, team_id: int | None, request: PredictRequest) -> dict[str, Any]:
+    """Operating points (request order) and optional endurance for one power system."""
+    system = System(session, team_id, request)
+    kinds = [p.kind for p in request.points]
+    values = np.array([getattr(p, p.kind) for p in request.points], dtype=float)
+    op = solve_points(system, kinds, values)
+    points = [_point(system, op, i, {kinds[i]: float(values[i])}) for i in range(len(kinds))]
+    warnings = sorted({w for p in points for w in p["warnings"]})
+    return {
+        "air_density_kg_m3": system.density,
+        "points": points,
+        "endurance": _endurance(system),
+        "parameters": system.parameters(),
+        "warnings": warnings,
+    }
+
+
+def curve(system: System, steps: int = 40) -> dict[str, list[float | None]]:
+    """Electrical power and specific thrust versus thrust per rotor over a duty sweep (for charts)."""
+    duties = np.linspace(0.15, 1.0, steps)
+    op = drive.at_duty(duties, **system.solve_kwargs())
+    ok = np.isin(op.status, [Status.OK, Status.OVER_CURRENT])
+    return {
+        "duty": [float(d) for d in duties[ok]],
+        "thrust_n": [float(t) for t in op.thrust_n[ok]],
+        "electrical_power_w": [float(p) for p in op.electrical_power_w[ok]],
+        "specific_thrust_g_per_w": [float(g) for g in op.specific_thrust_g_per_w[ok]],
+        "drive_efficiency": [float(e) for e in op.drive_efficiency[ok]],
+    }

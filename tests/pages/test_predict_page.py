@@ -1,0 +1,45 @@
+"""Predict page: renders the form, computes the same numbers as the API, shows errors, and the htmx block."""
+
+from __future__ import annotations
+
+from bs4 import BeautifulSoup
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+
+from tests.factories import login, make_team, part_payload
+
+
+def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    h = team.headers()
+    ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
+           for kind in ("batteries", "escs", "motors", "propellers")}
+    login(client, team.owner_email)
+    params = {"submitted": "1", "battery_id": ids["batteries"], "esc_id": ids["escs"], "motor_id": ids["motors"],
+              "propeller_id": ids["propellers"], "rotor_count": "4", "throttles": "1.0, 0.6", "thrusts": "4"}
+    page = client.get("/predict", params=params)
+    assert page.status_code == 200
+    soup = BeautifulSoup(page.text, "html.parser")
+    rows = soup.select("#points tbody tr")
+    assert len(rows) == 3
+    api = client.post("/api/v1/predict", json={
+        "battery": {"id": ids["batteries"]}, "esc": {"id": ids["escs"]}, "motor": {"id": ids["motors"]},
+        "propeller": {"id": ids["propellers"]}, "rotor_count": 4,
+        "points": [{"throttle": 1.0}, {"throttle": 0.6}, {"thrust_n": 4}]}, headers=h).json()
+    shown_power = rows[1].select("td")[8].text
+    assert shown_power == f"{api['points'][1]['electrical_power_w']:.3g}".replace(",", "")
+    assert soup.select_one("#predict-chart-data") is not None and soup.select_one("#chart-curves") is not None
+    sources = {r.select("td")[1].text: r.select("td")[3].text.strip() for r in soup.select("#parameters tbody tr")}
+    assert sources["kv_rpm_per_v"] == "part" and sources["k_pwm"] == "default"
+    fragment = client.get("/predict", params=params, headers={"HX-Request": "true"})
+    assert "<html" not in fragment.text and 'id="predict-results"' in fragment.text
+
+
+def test_predict_page_lists_missing_values(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    login(client, team.owner_email)
+    page = client.get("/predict", params={"submitted": "1", "supply_voltage_v": "11.1", "throttles": "1",
+                                          "motor.kv_rpm_per_v": "900", "propeller.diameter_in": "10"})
+    assert page.status_code == 422
+    errors = BeautifulSoup(page.text, "html.parser").select_one("ul.errors").text
+    assert "motor.winding_resistance_ohm" in errors
