@@ -1,7 +1,10 @@
 """ORM models; importing this package registers every table on ``Base.metadata``."""
 
+from server.models.bench import BenchRun, BenchSample, Calibration
 from server.models.missions import Airframe, Mission
 from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
+from server.models.rankings import Ranking, RankingResult
+from server.models.shortlists import Shortlist, ShortlistEntry
 from server.models.teams import ApiKey, Membership, Team, User
 
 __all__ = [
@@ -9,12 +12,19 @@ __all__ = [
     "Airframe",
     "ApiKey",
     "Battery",
+    "BenchRun",
+    "BenchSample",
+    "Calibration",
     "Esc",
     "Membership",
     "Mission",
     "Motor",
     "PartColumns",
     "Propeller",
+    "Ranking",
+    "RankingResult",
+    "Shortlist",
+    "ShortlistEntry",
     "Team",
     "User",
 ]
