@@ -104,3 +104,16 @@ def part_payload(kind: str, name: str = "Test part", **overrides: Any) -> dict[s
         **base[kind],
         **overrides,
     }
+
+
+def make_library(client: TestClient, team: TeamFixture, rotors: int = 4) -> dict[str, int]:
+    """One of each part (from part_payload), an airframe and a hover mission; returns their ids."""
+    h = team.headers()
+    ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
+           for kind in ("batteries", "escs", "motors", "propellers")}
+    ids["airframe"] = client.post("/api/v1/airframes", headers=h, json={
+        "name": "Test quad", "rotor_count": rotors, "frame_mass_g": 900}).json()["id"]
+    ids["mission"] = client.post("/api/v1/missions", headers=h, json={
+        "name": "Test hover", "airframe_id": ids["airframe"], "kind": "hover", "payload_mass_g": 200,
+        "altitude_m": 500}).json()["id"]
+    return ids

@@ -8,4 +8,7 @@ The model and its check cases are specified in the shared physics.md ("Reference
 
 from ._types import FloatArray, Status
 
-__all__ = ["FloatArray", "Status"]
+ENGINE_VERSION = "1.0-ref-v1"
+"""Version of the engine's numbers; stored with every ranking, calibration and shortlist snapshot."""
+
+__all__ = ["ENGINE_VERSION", "FloatArray", "Status"]

@@ -11,9 +11,11 @@ from typing import Any
 
 import numpy as np
 from pydantic import BaseModel
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
+from server.models import Calibration, PartColumns
 from server.physics.battery import LIHV_FULL_V_PER_CELL, LIPO_FULL_V_PER_CELL
 from server.physics.esc import EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H, MotorParams
@@ -70,9 +72,38 @@ class Resolved:
             )
 
 
+def calibrated_values(session: Session, *, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
+    """Identified parameters of the part's newest active calibration (fixed ones are not measurements)."""
+    row = session.scalar(
+        select(Calibration)
+        .where(Calibration.team_id == team_id, Calibration.part_kind == kind, Calibration.part_id == part_id,
+               Calibration.active.is_(True))
+        .order_by(Calibration.created_at.desc(), Calibration.id.desc())
+    )
+    if row is None:
+        return {}
+    return {name: p["value"] for name, p in row.parameters.items() if p.get("status") == "identified"}
+
+
+def from_part(session: Session, team_id: int, kind: str, part: PartColumns, fields: list[str],
+              use_calibration: bool = True) -> tuple[dict[str, Any], dict[str, str]]:
+    """A saved part's fields, with calibrated values replacing them (measured wins over entered)."""
+    values: dict[str, Any] = {}
+    sources: dict[str, str] = {}
+    for name in fields:
+        value = getattr(part, name, None)
+        if value is not None:
+            values[name], sources[name] = value, "part"
+    if use_calibration:
+        for name, value in calibrated_values(session, team_id=team_id, kind=kind, part_id=part.id).items():
+            if name in fields:
+                values[name], sources[name] = value, "calibrated"
+    return values, sources
+
+
 def resolve(session: Session | None, team_id: int | None, kind: str, given: BaseModel, where: str,
             fields: list[str], defaults: dict[str, float] | None = None) -> Resolved:
-    """Saved part (when ``given.id``) overlaid with the request's fields, then defaults for what is left."""
+    """Saved part (when ``given.id``; calibration wins) overlaid with the request's fields, then defaults."""
     values: dict[str, Any] = {}
     sources: dict[str, str] = {}
     part_id = getattr(given, "id", None)
@@ -83,10 +114,7 @@ def resolve(session: Session | None, team_id: int | None, kind: str, given: Base
             part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
         except Exception as exc:
             raise InvalidInput("Unknown part", [FieldError(f"{where}.id", str(exc))]) from None
-        for name in fields:
-            value = getattr(part, name, None)
-            if value is not None:
-                values[name], sources[name] = value, "part"
+        values, sources = from_part(session, team_id, kind, part, fields)
     for name, value in given.model_dump(exclude_unset=True, exclude={"id"}, mode="json").items():
         if value is not None:
             values[name], sources[name] = value, "request"

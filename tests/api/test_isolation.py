@@ -71,6 +71,23 @@ def two_teams(app: FastAPI, client: TestClient) -> tuple[TeamFixture, TeamFixtur
     ).json()["id"]
     keys = client.get("/api/v1/team/api-keys", headers=h).json()
     ids["key_id"] = keys[0]["id"]
+    shortlist = client.post(
+        "/api/v1/shortlists", json={"name": SECRET_NAME, "mission_id": ids["mission_id"]}, headers=h
+    )
+    ids["shortlist_id"] = shortlist.json()["id"]
+    entry = client.post(
+        f"/api/v1/shortlists/{ids['shortlist_id']}/entries",
+        headers=h,
+        json={
+            "battery_id": ids["part_id:batteries"],
+            "esc_id": ids["part_id:escs"],
+            "motor_id": ids["part_id:motors"],
+            "propeller_id": ids["part_id:propellers"],
+            "note": SECRET_NAME,
+        },
+    )
+    assert entry.status_code == 201, entry.text
+    ids["entry_id"] = entry.json()["id"]
     return alpha, beta, ids
 
 
@@ -82,12 +99,23 @@ def test_every_route_needs_credentials(app: FastAPI, client: TestClient, two_tea
         assert response.headers["content-type"].startswith("application/problem+json")
 
 
+def _body(method: str, path: str, ids: dict[str, int]) -> dict[str, Any]:
+    """A body that passes validation, so the only thing left to fail is the ownership check."""
+    if path.endswith("/shortlists/{shortlist_id}") and method == "PATCH":
+        return {"name": "x"}
+    if path.endswith("/reorder"):
+        return {"entry_ids": [ids["entry_id"]]}
+    if path.endswith("/shortlists/{shortlist_id}/entries") and method == "POST":
+        return {"ranking_id": 1, "rank": 1}
+    return {}
+
+
 def test_other_team_sees_nothing_and_gets_404(app: FastAPI, client: TestClient, two_teams: Any) -> None:
     alpha, beta, ids = two_teams
     checked_ids = 0
     for method, path in api_routes(app):
         url = _fill(path, ids)
-        response = client.request(method, url, headers=beta.headers("write"), json={})
+        response = client.request(method, url, headers=beta.headers("write"), json=_body(method, path, ids))
         assert SECRET_NAME not in response.text, (method, path)
         if "{" in path:
             assert response.status_code == 404, (method, path, response.status_code, response.text)
@@ -106,7 +134,9 @@ def test_read_keys_and_viewers_cannot_write(app: FastAPI, client: TestClient, tw
     writes = [(m, p) for m, p in api_routes(app) if m in UNSAFE and (m, p) not in COMPUTE_ONLY]
     assert writes
     for method, path in writes:
-        response = client.request(method, _fill(path, ids), headers=alpha.headers("read"), json={})
+        response = client.request(
+            method, _fill(path, ids), headers=alpha.headers("read"), json=_body(method, path, ids)
+        )
         assert response.status_code == 403, (method, path, response.status_code, response.text)
 
 

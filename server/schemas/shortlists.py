@@ -1,0 +1,94 @@
+"""Request/response models for shortlists."""
+
+from __future__ import annotations
+
+from datetime import datetime
+from typing import Any
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+from server.schemas._fields import ranged, text
+
+Id = ranged(int, 1, 2**63 - 1, "")
+MAX_ENTRIES = 6
+
+
+class ShortlistCreate(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: text(120, min_length=1)  # type: ignore[valid-type]
+    mission_id: Id  # type: ignore[valid-type]
+
+
+class ShortlistRename(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: text(120, min_length=1)  # type: ignore[valid-type]
+
+
+class EntryCreate(BaseModel):
+    """Four parts and a pack configuration, or a row of a ranking (``ranking_id`` + ``rank``)."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    battery_id: Id | None = None  # type: ignore[valid-type]
+    esc_id: Id | None = None  # type: ignore[valid-type]
+    motor_id: Id | None = None  # type: ignore[valid-type]
+    propeller_id: Id | None = None  # type: ignore[valid-type]
+    packs_in_parallel: ranged(int, 1, 4, "packs") = 1  # type: ignore[valid-type]
+    ranking_id: Id | None = None  # type: ignore[valid-type]
+    rank: ranged(int, 1, 1_000_000, "") | None = None  # type: ignore[valid-type]
+    note: text(4000) = ""  # type: ignore[valid-type]
+
+    @model_validator(mode="after")
+    def _one_way(self) -> EntryCreate:
+        parts = [self.battery_id, self.esc_id, self.motor_id, self.propeller_id]
+        by_rank = self.ranking_id is not None or self.rank is not None
+        if by_rank and any(p is not None for p in parts):
+            raise ValueError("ranking_id: give either the four part ids or ranking_id with rank, not both")
+        if by_rank and (self.ranking_id is None or self.rank is None):
+            raise ValueError("ranking_id: an entry from a ranking needs both ranking_id and rank")
+        if not by_rank and any(p is None for p in parts):
+            raise ValueError("battery_id: give battery_id, esc_id, motor_id and propeller_id (or ranking_id and rank)")
+        return self
+
+
+class EntryUpdate(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    note: text(4000) | None = None  # type: ignore[valid-type]
+
+
+class Reorder(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    entry_ids: list[int] = Field(..., min_length=1, max_length=MAX_ENTRIES)
+
+
+class EntryRead(BaseModel):
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    position: int
+    battery_id: int
+    esc_id: int
+    motor_id: int
+    propeller_id: int
+    packs_in_parallel: int
+    ranking_id: int | None
+    note: str
+    metrics: dict[str, Any]
+    engine_version: str
+    added_by: str | None = None
+    added_at: datetime
+
+
+class ShortlistRead(BaseModel):
+    id: int
+    name: str
+    mission_id: int
+    mission_name: str
+    created_by: str | None
+    created_at: datetime
+    updated_at: datetime
+    entries: list[EntryRead]

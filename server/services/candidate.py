@@ -1,0 +1,267 @@
+"""One power system evaluated for a mission with the full physics engine (shortlists, compare, refinement).
+
+Definitions follow the rankings issue: the cruise point is solved at the mission's ``cruise_state_of_charge``;
+thrust-to-weight at full throttle at the end of usable capacity (state of charge 1 − usable_fraction); peak
+motor and pack currents at full throttle with a full pack; endurance by a constant-thrust discharge from a full
+pack. Limits are the mission's (defaults are common practice, no source).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from sqlalchemy.orm import Session
+
+from server.errors import FieldError, InvalidInput
+from server.models import Battery, Esc, Mission, Motor, Propeller
+from server.physics import atmosphere, drive, endurance
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status
+from server.physics.battery import PackParams
+from server.physics.operating_point import OperatingPoint
+from server.services import parts as parts_service
+from server.services import power_system as ps
+
+G0 = STANDARD_GRAVITY_M_S2
+LOSS_NAMES = [
+    "motor_copper",
+    "motor_no_load",
+    "esc_conduction",
+    "pwm_ripple",
+    "switching",
+    "dead_time",
+    "input_capacitor",
+    "calibrated_pwm",
+]
+
+
+@dataclass(frozen=True)
+class CandidateIds:
+    battery_id: int
+    esc_id: int
+    motor_id: int
+    propeller_id: int
+    packs_in_parallel: int = 1
+
+
+def _f(value: Any) -> float | None:
+    number = float(np.ravel(value)[0])
+    return number if np.isfinite(number) else None
+
+
+@dataclass
+class Candidate:
+    """Loaded parts plus physics parameters of one candidate for one mission."""
+
+    mission: Mission
+    ids: CandidateIds
+    battery: Battery
+    esc: Esc
+    motor: Motor
+    propeller: Propeller
+    kwargs: dict[str, Any]
+    pack: PackParams
+    thrust_required_n: float
+    all_up_mass_g: float
+    cost: float | None
+    sources: dict[str, dict[str, str]]
+
+    def point_at_soc(self, soc: float, **kw: Any) -> dict[str, Any]:
+        return {
+            "open_circuit_voltage_v": float(self.pack.open_circuit_voltage_v(soc)),
+            "pack_resistance_ohm": float(self.pack.resistance_ohm),
+            **self.kwargs,
+            **kw,
+        }
+
+
+def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds) -> Candidate:
+    """Resolve the four parts (calibrations win) and the mission's required thrust per rotor."""
+    get = parts_service.get_part
+    try:
+        battery = get(session, team_id=team_id, kind="batteries", part_id=ids.battery_id)
+        esc = get(session, team_id=team_id, kind="escs", part_id=ids.esc_id)
+        motor = get(session, team_id=team_id, kind="motors", part_id=ids.motor_id)
+        prop = get(session, team_id=team_id, kind="propellers", part_id=ids.propeller_id)
+    except Exception as exc:
+        raise InvalidInput("Unknown part", [FieldError("part", str(exc))]) from None
+    airframe = mission.airframe
+    k = ids.packs_in_parallel
+    if not 1 <= k <= 4:
+        raise InvalidInput("Bad pack configuration", [FieldError("packs_in_parallel", "must be 1–4")])
+    resolved = {}
+    for kind, part, fields, defaults in (
+        ("escs", esc, ps.ESC_FIELDS, ps.ESC_DEFAULTS),
+        ("motors", motor, ps.MOTOR_FIELDS, ps.MOTOR_DEFAULTS),
+        ("propellers", prop, ps.PROP_FIELDS, {}),
+    ):
+        values, sources = ps.from_part(session, team_id, kind, part, fields)
+        for name, value in defaults.items():
+            if values.get(name) is None:
+                values[name], sources[name] = value, "default"
+        resolved[kind] = ps.Resolved(kind, values, sources, part.id)
+    static, forward = ps.propeller_tables(resolved["propellers"])
+    rotors = airframe.rotor_count
+    mass_g = (
+        airframe.frame_mass_g
+        + mission.payload_mass_g
+        + k * battery.mass_g
+        + rotors * (motor.mass_g + prop.mass_g + esc.mass_g)
+    )
+    weight_n = mass_g / 1000 * G0
+    density = float(atmosphere.air_density_kg_m3(mission.altitude_m, temperature_offset_k=mission.temperature_offset_c))
+    if mission.kind == "cruise":
+        if forward is None:
+            raise InvalidInput(
+                "No forward-flight data",
+                [FieldError("propeller.forward_table", "a cruise mission needs CT/CP versus J")],
+            )
+        thrust = weight_n / float(mission.lift_to_drag or 1) / rotors
+        table, airspeed = forward, float(mission.cruise_airspeed_m_s or 0)
+    else:
+        thrust, table, airspeed = weight_n / rotors, static, 0.0
+    costs = [battery.unit_cost, esc.unit_cost, motor.unit_cost, prop.unit_cost]
+    cost = (
+        None
+        if any(c is None for c in costs)
+        else (k * battery.unit_cost + rotors * (esc.unit_cost + motor.unit_cost + prop.unit_cost))
+    )  # type: ignore[operator]
+    pack = PackParams(
+        cells_series=battery.cells_series,
+        capacity_ah=battery.capacity_mah / 1000 * k,
+        cell_resistance_ohm=battery.cell_resistance_mohm / 1000,
+        cells_parallel=battery.cells_parallel * k,
+        full_voltage_per_cell_v=ps.FULL_VOLTAGE_PER_CELL_V[battery.chemistry],
+        usable_fraction=mission.usable_fraction,
+        cutoff_voltage_per_cell_v=mission.cutoff_v_per_cell,
+    )
+    kwargs = {
+        "motor": ps.motor_params(resolved["motors"]),
+        "esc": ps.esc_params(resolved["escs"]),
+        "propeller": table,
+        "rotor_count": rotors,
+        "density_kg_m3": density,
+        "airspeed_m_s": airspeed,
+    }
+    return Candidate(
+        mission,
+        ids,
+        battery,
+        esc,
+        motor,
+        prop,
+        kwargs,
+        pack,
+        thrust,
+        mass_g,
+        cost,
+        {kind: r.sources for kind, r in resolved.items()},
+    )
+
+
+def _losses(op: OperatingPoint) -> dict[str, float | None]:
+    return {name: _f(getattr(op, f"{name}_loss_w")) for name in LOSS_NAMES}
+
+
+def evaluate(
+    session: Session, *, team_id: int, mission: Mission, ids: CandidateIds, with_curves: bool = False
+) -> dict[str, Any]:
+    """Every number the compare page shows for one candidate (craft totals unless named per rotor)."""
+    c = load(session, team_id=team_id, mission=mission, ids=ids)
+    rotors = c.mission.airframe.rotor_count
+    cruise = drive.for_thrust(c.thrust_required_n, **c.point_at_soc(mission.cruise_state_of_charge))
+    low = drive.full_throttle(**c.point_at_soc(1 - mission.usable_fraction))
+    peak = drive.full_throttle(**c.point_at_soc(1.0))
+    discharge = endurance.constant_thrust(c.thrust_required_n, pack=c.pack, **c.kwargs)
+    weight_n = c.all_up_mass_g / 1000 * G0
+    motor_current = _f(peak.motor_current_a)
+    pack_current = _f(peak.pack_current_a)
+    allowed_pack = mission.pack_current_fraction * c.battery.max_continuous_c * float(c.pack.capacity_ah)
+    metrics: dict[str, Any] = {
+        "battery_id": ids.battery_id,
+        "esc_id": ids.esc_id,
+        "motor_id": ids.motor_id,
+        "propeller_id": ids.propeller_id,
+        "packs_in_parallel": ids.packs_in_parallel,
+        "cells_series": c.battery.cells_series,
+        "pack_nominal_voltage_v": 3.7 * c.battery.cells_series
+        if c.battery.chemistry != "lihv"
+        else 3.8 * c.battery.cells_series,
+        "all_up_mass_g": c.all_up_mass_g,
+        "thrust_required_n": c.thrust_required_n,
+        "cruise": {
+            "status": Status(int(np.ravel(cruise.status)[0])).name.lower(),
+            "duty": _f(cruise.duty),
+            "rpm": _f(cruise.rpm),
+            "thrust_n": _f(cruise.thrust_n),
+            "electrical_power_w": _f(cruise.electrical_power_w * rotors),
+            "electrical_power_per_rotor_w": _f(cruise.electrical_power_w),
+            "bus_current_a": _f(cruise.pack_current_a),
+            "bus_voltage_v": _f(cruise.bus_voltage_v),
+            "motor_current_a": _f(cruise.motor_current_a),
+            "shaft_power_w": _f(cruise.shaft_power_w),
+            "specific_thrust_g_per_w": _f(cruise.specific_thrust_g_per_w),
+            "drive_efficiency": _f(cruise.drive_efficiency),
+            "losses_w": _losses(cruise),
+            "pack_loss_w": _f(cruise.pack_loss_w),
+        },
+        "full_throttle": {
+            "thrust_n": _f(low.thrust_n),
+            "thrust_to_weight": _f(low.thrust_n * rotors / weight_n),
+            "motor_current_a": motor_current,
+            "bus_current_a": pack_current,
+            "bus_voltage_v": _f(peak.bus_voltage_v),
+            "electrical_power_w": _f(peak.electrical_power_w * rotors),
+        },
+        "endurance_min": _f(discharge.time_s / 60),
+        "endurance_stop_reason": endurance.StopReason(int(np.ravel(discharge.stop_reason)[0])).name.lower(),
+        "cost": c.cost,
+        "currency": c.battery.currency,
+        "margins": {
+            "motor_current_fraction": None
+            if not (motor_current and c.motor.max_current_a)
+            else motor_current / c.motor.max_current_a,
+            "esc_rating_over_current": None if not motor_current else c.esc.continuous_current_a / motor_current,
+            "pack_current_fraction": None if not pack_current else pack_current / allowed_pack,
+        },
+        "ratings": {
+            "motor_max_current_a": c.motor.max_current_a,
+            "esc_continuous_current_a": c.esc.continuous_current_a,
+            "pack_allowed_current_a": allowed_pack,
+        },
+        "sources": c.sources,
+    }
+    if with_curves:
+        metrics["curves"] = curves(c)
+    return metrics
+
+
+def curves(c: Candidate, steps: int = 40) -> dict[str, Any]:
+    """Electrical power and specific thrust vs thrust per rotor (cruise SOC) and pack voltage vs time."""
+    mission = c.mission
+    duties = np.linspace(0.15, 1.0, steps)
+    sweep = drive.at_duty(duties, **c.point_at_soc(mission.cruise_state_of_charge))
+    ok = np.isin(sweep.status, [Status.OK, Status.OVER_CURRENT])
+    socs = np.linspace(1.0, 1.0 - mission.usable_fraction, 41)
+    held = drive.for_thrust(
+        np.full(socs.shape, c.thrust_required_n),
+        **{
+            **c.kwargs,
+            "open_circuit_voltage_v": c.pack.open_circuit_voltage_v(socs),
+            "pack_resistance_ohm": float(c.pack.resistance_ohm),
+        },
+    )
+    good = np.isin(held.status, [Status.OK, Status.OVER_CURRENT]) & np.isfinite(held.pack_current_a)
+    # Coulomb counting between SOC nodes (trapezoid on 1/I), as in the endurance module.
+    seconds_per_soc = 3600 * float(c.pack.capacity_ah) / held.pack_current_a
+    step = np.abs(np.diff(socs)) * 0.5 * (seconds_per_soc[1:] + seconds_per_soc[:-1])
+    time_s = np.concatenate([[0.0], np.cumsum(step)])
+    last = int(np.argmin(good)) if not good.all() else len(socs)
+    return {
+        "thrust_n": sweep.thrust_n[ok].tolist(),
+        "electrical_power_w": sweep.electrical_power_w[ok].tolist(),
+        "specific_thrust_g_per_w": sweep.specific_thrust_g_per_w[ok].tolist(),
+        "discharge_time_min": (time_s[:last] / 60).tolist(),
+        "discharge_bus_voltage_v": held.bus_voltage_v[:last].tolist(),
+    }

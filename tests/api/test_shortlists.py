@@ -1,0 +1,133 @@
+"""Shortlists API: entries, notes, order, re-evaluation, compare.json against predict, BOM by hand."""
+
+from __future__ import annotations
+
+import csv
+import io
+
+import pytest
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+
+from server.db import transaction
+from server.models import Calibration
+from server.physics import ENGINE_VERSION
+from tests.factories import TeamFixture, make_library, make_team, part_payload
+
+
+@pytest.fixture
+def team(app: FastAPI, client: TestClient) -> TeamFixture:
+    return make_team(app)
+
+
+def entry_body(ids: dict[str, int], **over: object) -> dict[str, object]:
+    return {"battery_id": ids["batteries"], "esc_id": ids["escs"], "motor_id": ids["motors"],
+            "propeller_id": ids["propellers"], **over}
+
+
+def test_shortlist_lifecycle(client: TestClient, team: TeamFixture) -> None:
+    h = team.headers()
+    ids = make_library(client, team)
+    created = client.post("/api/v1/shortlists", json={"name": "Quad options", "mission_id": ids["mission"]}, headers=h)
+    assert created.status_code == 201
+    sid = created.json()["id"]
+    first = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, note="baseline"), headers=h)
+    assert first.status_code == 201, first.text
+    entry = first.json()
+    assert entry["engine_version"] == ENGINE_VERSION and entry["note"] == "baseline"
+    assert entry["metrics"]["cruise"]["electrical_power_w"] > 0 and entry["added_by"] is None  # added by a key
+    second = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, packs_in_parallel=2),
+                         headers=h).json()
+    assert second["metrics"]["all_up_mass_g"] == pytest.approx(entry["metrics"]["all_up_mass_g"] + 540)
+    reordered = client.post(f"/api/v1/shortlists/{sid}/reorder", json={"entry_ids": [second["id"], entry["id"]]},
+                            headers=h).json()
+    assert [e["id"] for e in reordered["entries"]] == [second["id"], entry["id"]]
+    noted = client.patch(f"/api/v1/shortlists/{sid}/entries/{entry['id']}", json={"note": "too heavy?"}, headers=h)
+    assert noted.json()["note"] == "too heavy?"
+    renamed = client.patch(f"/api/v1/shortlists/{sid}", json={"name": "Quad finalists"}, headers=h).json()
+    assert renamed["name"] == "Quad finalists"
+    assert client.delete(f"/api/v1/shortlists/{sid}/entries/{second['id']}", headers=h).status_code == 204
+    left = client.get(f"/api/v1/shortlists/{sid}", headers=h).json()["entries"]
+    assert [(e["id"], e["position"]) for e in left] == [(entry["id"], 0)]
+    assert client.delete(f"/api/v1/shortlists/{sid}", headers=h).status_code == 204
+    assert client.get(f"/api/v1/shortlists/{sid}", headers=h).status_code == 404
+
+
+def test_compare_json_equals_a_fresh_predict_call(client: TestClient, team: TeamFixture) -> None:
+    h = team.headers()
+    ids = make_library(client, team)
+    sid = client.post("/api/v1/shortlists", json={"name": "S", "mission_id": ids["mission"]}, headers=h).json()["id"]
+    client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids), headers=h)
+    client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, packs_in_parallel=2), headers=h)
+    compare = client.get(f"/api/v1/shortlists/{sid}/compare.json", headers=h).json()
+    assert len(compare["entries"]) == 2
+    for entry in compare["entries"]:
+        metrics = entry["metrics"]
+        predicted = client.post("/api/v1/predict", headers=h, json={
+            "battery": {"id": ids["batteries"], "packs_in_parallel": entry["packs_in_parallel"],
+                        "state_of_charge": 0.5},
+            "esc": {"id": ids["escs"]}, "motor": {"id": ids["motors"]}, "propeller": {"id": ids["propellers"]},
+            "rotor_count": 4, "all_up_mass_g": metrics["all_up_mass_g"], "conditions": {"altitude_m": 500},
+            "points": [{"thrust_n": metrics["thrust_required_n"]}]}).json()["points"][0]
+        assert metrics["cruise"]["electrical_power_w"] == pytest.approx(predicted["craft"]["electrical_power_w"],
+                                                                         rel=1e-9)
+        assert metrics["cruise"]["duty"] == pytest.approx(predicted["duty"], rel=1e-9)
+    mass_row = next(r for r in compare["rows"] if r["key"] == "all_up_mass_g")
+    assert mass_row["best"] == [0]  # one pack is lighter than two
+    assert compare["entries"][0]["metrics"]["curves"]["thrust_n"]
+
+
+def test_bom_quantities_and_totals_by_hand(client: TestClient, team: TeamFixture) -> None:
+    h = team.headers()
+    ids = make_library(client, team, rotors=6)
+    sid = client.post("/api/v1/shortlists", json={"name": "Hexa", "mission_id": ids["mission"]}, headers=h).json()["id"]
+    client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, packs_in_parallel=2), headers=h)
+    response = client.get(f"/api/v1/shortlists/{sid}/bom.csv?airframes=3", headers=h)
+    assert response.status_code == 200 and response.headers["content-type"].startswith("text/csv")
+    rows = {r["kind"]: r for r in csv.DictReader(io.StringIO(response.text))}
+    # By hand: 2 packs per airframe × 3 airframes = 6 packs at 10.00 = 60.00; 6 rotors × 3 = 18 motors.
+    assert rows["batteries"]["quantity_per_airframe"] == "2" and rows["batteries"]["quantity"] == "6"
+    assert rows["batteries"]["total_cost"] == "60.0"
+    assert rows["motors"]["quantity"] == "18" and rows["motors"]["total_cost"] == "180.0"
+    assert rows["propellers"]["part_number"] == "T-pro-1"
+    assert client.get(f"/api/v1/shortlists/{sid}/bom.csv?airframes=0", headers=h).status_code == 422
+
+
+def test_bad_input_is_a_clear_4xx(client: TestClient, team: TeamFixture, app: FastAPI) -> None:
+    h = team.headers()
+    ids = make_library(client, team)
+    assert client.post("/api/v1/shortlists", json={"name": "S", "mission_id": 999}, headers=h).status_code == 422
+    sid = client.post("/api/v1/shortlists", json={"name": "S", "mission_id": ids["mission"]}, headers=h).json()["id"]
+    unknown = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, motor_id=99999), headers=h)
+    assert unknown.status_code == 422 and unknown.json()["errors"][0]["field"] == "motor_id"
+    both = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, ranking_id=1, rank=1), headers=h)
+    assert both.status_code == 422
+    no_ranking = client.post(f"/api/v1/shortlists/{sid}/entries", json={"ranking_id": 12345, "rank": 1}, headers=h)
+    assert no_ranking.status_code == 422 and no_ranking.json()["errors"][0]["field"] == "ranking_id"
+    other = make_team(app, "Other")
+    other_motor = client.post("/api/v1/parts/motors", json=part_payload("motors"), headers=other.headers()).json()
+    foreign = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, motor_id=other_motor["id"]),
+                          headers=h)
+    assert foreign.status_code == 422
+    for _ in range(6):
+        assert client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids), headers=h).status_code == 201
+    seventh = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids), headers=h)
+    assert seventh.status_code == 409 and "at most 6" in seventh.json()["detail"]
+
+
+def test_re_evaluate_picks_up_a_new_calibration(client: TestClient, team: TeamFixture, app: FastAPI) -> None:
+    h = team.headers()
+    ids = make_library(client, team)
+    sid = client.post("/api/v1/shortlists", json={"name": "S", "mission_id": ids["mission"]}, headers=h).json()["id"]
+    before = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids), headers=h).json()
+    unchanged = client.post(f"/api/v1/shortlists/{sid}/re-evaluate", headers=h).json()["changes"]
+    assert unchanged[0]["changed"] == {}
+    with transaction(app.state.sessionmaker) as session:
+        session.add(Calibration(team_id=team.team_id, part_kind="escs", part_id=ids["escs"], engine_version="t",
+                                parameters={"k_pwm": {"value": 0.05, "stderr": 0.01, "status": "identified"}}))
+    changes = client.post(f"/api/v1/shortlists/{sid}/re-evaluate", headers=h).json()["changes"]
+    power = changes[0]["changed"]["cruise.electrical_power_w"]
+    assert power["before"] == pytest.approx(before["metrics"]["cruise"]["electrical_power_w"])
+    assert power["after"] > power["before"]  # the calibrated PWM loss costs power at partial throttle
+    stored = client.get(f"/api/v1/shortlists/{sid}", headers=h).json()["entries"][0]
+    assert stored["metrics"]["sources"]["escs"]["k_pwm"] == "calibrated"
