@@ -41,7 +41,47 @@
     });
   }
 
-  function all() { predictCharts(); }
+  function requiredLine(x, ys, axis) {
+    const finite = ys.filter((y) => Number.isFinite(y));
+    const lo = Math.min.apply(null, finite), hi = Math.max.apply(null, finite);
+    return { label: "required thrust", data: [{ x: x, y: lo }, { x: x, y: hi }], showLine: true, pointRadius: 0,
+             borderColor: "#1d2430", borderDash: [4, 4], borderWidth: 1.5, yAxisID: axis };
+  }
+
+  function compareCharts() {
+    const node = document.getElementById("compare-chart-data");
+    if (!node) return;
+    const data = JSON.parse(node.textContent || "null");
+    if (!data || !data.series.length) return;
+    const required = data.required_thrust_n[0];
+    function build(id, key, yLabel, markFull) {
+      const sets = [];
+      const all = [];
+      data.series.forEach((s, i) => {
+        const colour = PALETTE[i % PALETTE.length];
+        const pts = s.curves.thrust_n.map((x, j) => ({ x: x, y: s.curves[key][j] }));
+        pts.forEach((p) => all.push(p.y));
+        sets.push({ label: s.label, data: pts, showLine: true, pointRadius: 0, borderColor: colour, backgroundColor: colour });
+        sets.push({ label: s.label + " (cruise)", data: [{ x: s.cruise.thrust_n, y: s.cruise[key] }], pointRadius: 6, pointStyle: "circle", backgroundColor: colour, borderColor: colour });
+        if (markFull) {
+          const last = pts[pts.length - 1];
+          if (last) sets.push({ label: s.label + " (full throttle)", data: [last], pointRadius: 7, pointStyle: "triangle", backgroundColor: colour, borderColor: colour });
+        }
+      });
+      sets.push(requiredLine(required, all, "y"));
+      draw(id, { type: "scatter", data: { datasets: sets }, options: {
+        plugins: { legend: { labels: { filter: (item) => !/\((cruise|full throttle)\)$/.test(item.text) } } },
+        scales: { x: { title: { display: true, text: "thrust per rotor [N]" } }, y: { title: { display: true, text: yLabel } } } } });
+    }
+    build("chart-power", "electrical_power_w", "electrical power per rotor [W]", true);
+    build("chart-gw", "specific_thrust_g_per_w", "specific thrust [g/W]", false);
+    draw("chart-discharge", { type: "scatter", data: { datasets: data.series.map((s, i) => ({
+      label: s.label, showLine: true, pointRadius: 0, borderColor: PALETTE[i % PALETTE.length],
+      data: s.curves.discharge_time_min.map((t, j) => ({ x: t, y: s.curves.discharge_bus_voltage_v[j] })) })) },
+      options: { scales: { x: { title: { display: true, text: "time [min]" } }, y: { title: { display: true, text: "bus voltage [V]" } } } } });
+  }
+
+  function all() { predictCharts(); compareCharts(); }
   document.addEventListener("DOMContentLoaded", all);
   document.addEventListener("htmx:afterSettle", all);
   window.liftmatchCharts = { draw: draw, palette: PALETTE };

@@ -1,0 +1,169 @@
+"""Shortlists pages: list and create; compare (one column per entry, curves, cautions), notes, order, BOM."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Form, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from pydantic import ValidationError
+
+from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
+from server.errors import DomainError
+from server.pages._render import form_values, render
+from server.schemas.shortlists import EntryCreate, ShortlistCreate
+from server.services import missions as missions_service
+from server.services import parts as parts_service
+from server.services import shortlists as shortlists_service
+from server.services._validation import field_errors
+
+router = APIRouter(prefix="/shortlists")
+NEAR_LIMIT = 0.9  # a part at ≥ 90 % of its rating gets a caution (common practice, no source)
+
+
+def _errors(exc: Exception) -> list[str]:
+    if isinstance(exc, ValidationError):
+        return [f"{e.field}: {e.message}" for e in field_errors(exc)]
+    if isinstance(exc, DomainError):
+        return [f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
+    raise exc
+
+
+def _list_page(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
+    ctx = {"caller": caller, "nav": "shortlists",
+           "shortlists": [shortlists_service.read(session, s)
+                          for s in shortlists_service.list_all(session, team_id=caller.team_id)],
+           "missions": missions_service.list_missions(session, team_id=caller.team_id), "errors": [], "values": {}}
+    ctx.update(extra)
+    return render(request, "pages/shortlists.html", ctx, status_code=status_code)
+
+
+@router.get("", response_class=HTMLResponse)
+def shortlists_page(request: Request, caller: PageCaller, session: SessionDep) -> HTMLResponse:
+    return _list_page(request, session, caller)
+
+
+@router.post("", response_class=HTMLResponse)
+async def create_shortlist(request: Request, caller: PageWriter, session: SessionDep) -> Response:
+    values = form_values(await request.form())
+    try:
+        data = ShortlistCreate.model_validate(values)
+        row = shortlists_service.create(session, team_id=caller.team_id, user_id=caller.user_id, name=data.name,
+                                        mission_id=data.mission_id)
+        session.commit()
+    except (ValidationError, DomainError) as exc:
+        session.rollback()
+        return _list_page(request, session, caller, 422, errors=_errors(exc), values=values)
+    return RedirectResponse(f"/shortlists/{row.id}", status_code=303)
+
+
+def cautions(compare: dict[str, Any]) -> list[str]:
+    """Plain cautions for entries that run a part near or past its rating."""
+    notes = []
+    for i, entry in enumerate(compare["entries"], start=1):
+        m = entry["metrics"]["margins"]
+        if m["motor_current_fraction"] is not None and m["motor_current_fraction"] >= NEAR_LIMIT:
+            notes.append(f"Candidate {i}: full-throttle motor current is {m['motor_current_fraction']:.0%} of the "
+                         "motor's rating.")
+        if m["esc_rating_over_current"] is not None and m["esc_rating_over_current"] < 1.2:
+            notes.append(f"Candidate {i}: the ESC's continuous rating is only {m['esc_rating_over_current']:.2f} × "
+                         "the full-throttle motor current (common practice: ≥ 1.2).")
+        if m["pack_current_fraction"] is not None and m["pack_current_fraction"] >= NEAR_LIMIT:
+            notes.append(f"Candidate {i}: full-throttle pack current is {m['pack_current_fraction']:.0%} of what "
+                         "the mission allows from the pack's C rating.")
+    return notes
+
+
+def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: int, status_code: int = 200,
+                  **extra: Any) -> HTMLResponse:
+    shortlist = shortlists_service.get(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    compare = shortlists_service.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    charts = {
+        "required_thrust_n": compare["required_thrust_per_rotor_n"],
+        "series": [{"label": f"{i + 1}: {e['parts']['motors']['name']} / {e['parts']['propellers']['name']}",
+                    "curves": e["metrics"]["curves"],
+                    "cruise": {"thrust_n": e["metrics"]["cruise"]["thrust_n"],
+                               "electrical_power_w": e["metrics"]["cruise"]["electrical_power_per_rotor_w"],
+                               "specific_thrust_g_per_w": e["metrics"]["cruise"]["specific_thrust_g_per_w"]},
+                    "full_throttle": {"thrust_n": e["metrics"]["full_throttle"]["thrust_n"]}}
+                   for i, e in enumerate(compare["entries"])],
+    }
+    options = {kind: parts_service.list_parts(session, team_id=caller.team_id, kind=kind, page_size=500)[0]
+               for kind in ("batteries", "escs", "motors", "propellers")}
+    ctx = {"caller": caller, "nav": "shortlists", "shortlist": shortlists_service.read(session, shortlist),
+           "compare": compare, "charts": charts, "cautions": cautions(compare), "options": options, "errors": [],
+           "changes": None, "values": {}}
+    ctx.update(extra)
+    return render(request, "pages/shortlist_compare.html", ctx, status_code=status_code)
+
+
+@router.get("/{shortlist_id}", response_class=HTMLResponse)
+def compare_page(request: Request, caller: PageCaller, session: SessionDep, shortlist_id: IdPath) -> HTMLResponse:
+    return _compare_page(request, session, caller, shortlist_id)
+
+
+@router.post("/{shortlist_id}/entries", response_class=HTMLResponse)
+async def add_entry(request: Request, caller: PageWriter, session: SessionDep, shortlist_id: IdPath) -> Response:
+    values = form_values(await request.form())
+    try:
+        data = EntryCreate.model_validate({k: v for k, v in values.items() if v != ""})
+        shortlists_service.add_entry(session, team_id=caller.team_id, user_id=caller.user_id,
+                                     shortlist_id=shortlist_id, data=data)
+        session.commit()
+    except (ValidationError, DomainError) as exc:
+        session.rollback()
+        return _compare_page(request, session, caller, shortlist_id, 422, errors=_errors(exc), values=values)
+    return RedirectResponse(request.headers.get("x-return-to") or f"/shortlists/{shortlist_id}", status_code=303)
+
+
+@router.post("/{shortlist_id}/entries/{entry_id}/note", response_class=HTMLResponse)
+def edit_note(request: Request, caller: PageWriter, session: SessionDep, shortlist_id: IdPath, entry_id: IdPath,
+              note: Annotated[str, Form(max_length=4000)] = "") -> Response:
+    shortlists_service.update_entry(session, team_id=caller.team_id, shortlist_id=shortlist_id, entry_id=entry_id,
+                                    note=note.strip())
+    session.commit()
+    return RedirectResponse(f"/shortlists/{shortlist_id}", status_code=303)
+
+
+@router.post("/{shortlist_id}/entries/{entry_id}/remove", response_class=HTMLResponse)
+def remove_entry(caller: PageWriter, session: SessionDep, shortlist_id: IdPath, entry_id: IdPath) -> Response:
+    shortlists_service.remove_entry(session, team_id=caller.team_id, shortlist_id=shortlist_id, entry_id=entry_id)
+    session.commit()
+    return RedirectResponse(f"/shortlists/{shortlist_id}", status_code=303)
+
+
+@router.post("/{shortlist_id}/entries/{entry_id}/move", response_class=HTMLResponse)
+def move_entry(caller: PageWriter, session: SessionDep, shortlist_id: IdPath, entry_id: IdPath,
+               direction: Annotated[str, Form(pattern="^(left|right)$")] = "left") -> Response:
+    shortlist = shortlists_service.get(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    order = [e.id for e in shortlist.entries]
+    if entry_id in order:
+        i = order.index(entry_id)
+        j = i - 1 if direction == "left" else i + 1
+        if 0 <= j < len(order):
+            order[i], order[j] = order[j], order[i]
+            shortlists_service.reorder(session, team_id=caller.team_id, shortlist_id=shortlist_id, entry_ids=order)
+            session.commit()
+    return RedirectResponse(f"/shortlists/{shortlist_id}", status_code=303)
+
+
+@router.post("/{shortlist_id}/rename", response_class=HTMLResponse)
+def rename(caller: PageWriter, session: SessionDep, shortlist_id: IdPath,
+           name: Annotated[str, Form(min_length=1, max_length=120)]) -> Response:
+    shortlists_service.rename(session, team_id=caller.team_id, shortlist_id=shortlist_id, name=name.strip())
+    session.commit()
+    return RedirectResponse(f"/shortlists/{shortlist_id}", status_code=303)
+
+
+@router.post("/{shortlist_id}/re-evaluate", response_class=HTMLResponse)
+def re_evaluate(request: Request, caller: PageWriter, session: SessionDep, shortlist_id: IdPath) -> HTMLResponse:
+    changes = shortlists_service.re_evaluate(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    session.commit()
+    return _compare_page(request, session, caller, shortlist_id, changes=changes)
+
+
+@router.post("/{shortlist_id}/delete", response_class=HTMLResponse)
+def delete(caller: PageWriter, session: SessionDep, shortlist_id: IdPath) -> Response:
+    shortlists_service.delete(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    session.commit()
+    return RedirectResponse("/shortlists", status_code=303)
