@@ -84,5 +84,5 @@
   function all() { predictCharts(); compareCharts(); }
   document.addEventListener("DOMContentLoaded", all);
   document.addEventListener("htmx:afterSettle", all);
-  window.liftmatchCharts = { draw: draw, palette: PALETTE };
+  window.liftmatchCharts = { draw: draw, palette: PALETTE, charts: charts };
 })();
