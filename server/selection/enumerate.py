@@ -1,0 +1,171 @@
+"""Enumerate candidates (pack x k in parallel x ESC x motor x propeller) in compatible blocks, and chunk them.
+
+Incompatible combinations are counted, never materialised. Packs are grouped by cell count S; for each group
+the compatible ESCs (``min_cells <= S <= max_cells``) and motors (``S <= max_cells``) are fixed, so a block is
+a dense cube with axes (pack configuration, ESC, motor, propeller) that holds only compatible candidates.
+Propellers over the airframe's diameter limit (and, for cruise, those without forward data) are dropped from
+every block. A chunk is a slab of a block: a range of pack configurations and of ESCs with all motors and
+propellers, about ``chunk_size`` candidates (at least one motor x propeller plane).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+import numpy as np
+
+from server.physics.battery import open_circuit_voltage_per_cell_v
+
+from .evaluate import Batch
+from .library import MissionSpec, PartsLibrary
+from .propmodel import PropModel
+
+DEFAULT_CHUNK_SIZE = 65_536
+
+
+@dataclass(frozen=True)
+class Block:
+    """A dense cube of compatible candidates; axes (configuration, ESC, motor, propeller)."""
+
+    cells: float
+    packs: np.ndarray
+    ks: np.ndarray
+    escs: np.ndarray
+    motors: np.ndarray
+    props: np.ndarray
+
+    @property
+    def shape(self) -> tuple[int, int, int, int]:
+        return len(self.packs), len(self.escs), len(self.motors), len(self.props)
+
+    @property
+    def size(self) -> int:
+        return int(np.prod(self.shape, dtype=np.int64))
+
+
+@dataclass(frozen=True)
+class Chunk:
+    """A slab of a block: configurations ``c0:c1`` and ESCs ``e0:e1``, every motor and propeller."""
+
+    block: int
+    c0: int
+    c1: int
+    e0: int
+    e1: int
+
+
+@dataclass(frozen=True)
+class Plan:
+    """What will be evaluated, and how many combinations each prune reason removed."""
+
+    combinations: int
+    pruned: dict[str, int]
+    blocks: tuple[Block, ...]
+
+    @property
+    def evaluated(self) -> int:
+        return sum(b.size for b in self.blocks)
+
+
+def plan(library: PartsLibrary, mission: MissionSpec, model: PropModel) -> Plan:
+    """Group the library into compatible blocks and count the pruned combinations per reason."""
+    packs, escs, motors, props = library.packs, library.escs, library.motors, library.propellers
+    k_max = int(mission.max_packs_in_parallel)
+    combinations = k_max * len(packs) * len(escs) * len(motors) * len(props)
+    pack_ok, esc_ok, motor_ok = packs.valid(), escs.valid(), motors.valid()
+    prop_missing = ~props.valid() | (~model.valid & (model.has_table | (mission.kind == "hover")))
+    prop_large = ~prop_missing & ~(props.diameter_in <= mission.max_prop_diameter_in)
+    prop_no_forward = ~prop_missing & ~prop_large & ~model.has_table
+    prop_use = ~prop_missing & ~prop_large & ~prop_no_forward
+    n_p, n_e, n_m = int(pack_ok.sum()), int(esc_ok.sum()), int(motor_ok.sum())
+    n_q_ok = int(prop_use.sum())
+    pruned = dict.fromkeys(("missing_data", "prop_too_large", "no_forward_table", "esc_cell_range",
+                            "motor_cell_limit"), 0)
+    pruned["missing_data"] = combinations - k_max * n_p * n_e * n_m * int((~prop_missing).sum())
+    pruned["prop_too_large"] = k_max * n_p * n_e * n_m * int(prop_large.sum())
+    pruned["no_forward_table"] = k_max * n_p * n_e * n_m * int(prop_no_forward.sum())
+    blocks = []
+    valid_packs = np.flatnonzero(pack_ok)
+    esc_idx, motor_idx, prop_idx = np.flatnonzero(esc_ok), np.flatnonzero(motor_ok), np.flatnonzero(prop_use)
+    for cells in np.unique(packs.cells_series[valid_packs]):
+        group = valid_packs[packs.cells_series[valid_packs] == cells]
+        e_fit = esc_idx[(escs.min_cells[esc_idx] <= cells) & (cells <= escs.max_cells[esc_idx])]
+        m_fit = motor_idx[cells <= motors.max_cells[motor_idx]]
+        per_pack = k_max * n_q_ok
+        pruned["esc_cell_range"] += len(group) * per_pack * (n_e - len(e_fit)) * n_m
+        pruned["motor_cell_limit"] += len(group) * per_pack * len(e_fit) * (n_m - len(m_fit))
+        if len(e_fit) and len(m_fit) and len(prop_idx):
+            config_packs = np.repeat(group, k_max)
+            config_ks = np.tile(np.arange(1, k_max + 1), len(group))
+            blocks.append(Block(float(cells), config_packs, config_ks, e_fit, m_fit, prop_idx))
+    return Plan(combinations=combinations, pruned=pruned, blocks=tuple(blocks))
+
+
+def chunks(the_plan: Plan, chunk_size: int = DEFAULT_CHUNK_SIZE) -> Iterator[Chunk]:
+    """Slabs of about ``chunk_size`` candidates, in a fixed order (block, ESC range, configuration range)."""
+    for b, block in enumerate(the_plan.blocks):
+        n_c, n_e, n_m, n_q = block.shape
+        plane = n_m * n_q
+        e_step = max(1, min(n_e, chunk_size // max(plane, 1)))
+        c_step = max(1, chunk_size // max(plane * e_step, 1))
+        for e0 in range(0, n_e, e_step):
+            for c0 in range(0, n_c, c_step):
+                yield Chunk(b, c0, min(c0 + c_step, n_c), e0, min(e0 + e_step, n_e))
+
+
+def batch_for(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: np.ndarray, esc: np.ndarray,
+              motor: np.ndarray, prop: np.ndarray) -> Batch:
+    """Parameters of the candidates ``(pack, k, esc, motor, prop)``; index arrays broadcast together.
+
+    Cube layout: pass ``pack``/``k`` shaped (C, 1, 1, 1), ``esc`` (1, E, 1, 1), ``motor`` (1, 1, M, 1) and
+    ``prop`` (1, 1, 1, Q); flat lists: all (n,). The arithmetic is the same either way, so a candidate gets
+    bit-identical numbers in a block and in a list.
+    """
+    pk, es, mo, pr = library.packs, library.escs, library.motors, library.propellers
+    n_r = float(mission.rotor_count)
+    cells = pk.cells_series[pack]
+    full_v = pk.full_voltage_per_cell_v[pack]
+    kf = np.asarray(k, dtype=np.float64)
+    capacity = pk.capacity_ah[pack] * kf
+    freq = es.switching_frequency_hz[esc]
+    base = mission.frame_mass_kg + mission.payload_kg
+    mass = (base + kf * pk.mass_kg[pack]) + n_r * (es.mass_kg[esc] + (mo.mass_kg[motor] + pr.mass_kg[prop]))
+    return Batch(
+        voc_cruise_v=cells * open_circuit_voltage_per_cell_v(mission.cruise_state_of_charge, full_v),
+        voc_low_v=cells * open_circuit_voltage_per_cell_v(mission.low_state_of_charge, full_v),
+        voc_full_v=cells * open_circuit_voltage_per_cell_v(1.0, full_v),
+        pack_resistance_ohm=cells * pk.cell_resistance_ohm[pack] / (pk.cells_parallel[pack] * kf),
+        capacity_ah=capacity,
+        pack_limit_a=mission.pack_current_fraction * pk.max_continuous_c[pack] * capacity,
+        r_on_ohm=es.r_on_path_ohm[esc],
+        switching_coef=0.5 * freq * es.switching_time_s[esc],
+        dead_time_coef_v=es.diode_drop_v[esc] * 2.0 * es.dead_time_s[esc] * freq,
+        ripple_coef_s2=1.0 / (12.0 * freq * freq),
+        esr_ohm=es.input_esr_ohm[esc],
+        k_pwm=es.pwm_loss_coefficient[esc],
+        esc_rating_a=es.continuous_current_a[esc],
+        kv_si=mo.kv_rpm_per_v[motor] * (2.0 * np.pi / 60.0),
+        motor_resistance_ohm=mo.resistance_ohm[motor],
+        no_load_current_a=mo.no_load_current_a[motor],
+        inductance_h=mo.inductance_h[motor],
+        motor_rating_a=mo.max_current_a[motor],
+        q=np.asarray(prop, dtype=np.intp),
+        mass_kg=mass,
+    )
+
+
+def chunk_indices(block: Block, chunk: Chunk) -> tuple[np.ndarray, ...]:
+    """Cube-shaped global index arrays (pack, k, esc, motor, prop) of a chunk."""
+    c = slice(chunk.c0, chunk.c1)
+    e = slice(chunk.e0, chunk.e1)
+    return (block.packs[c].reshape(-1, 1, 1, 1), block.ks[c].reshape(-1, 1, 1, 1),
+            block.escs[e].reshape(1, -1, 1, 1), block.motors.reshape(1, 1, -1, 1), block.props.reshape(1, 1, 1, -1))
+
+
+def cost_of(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: np.ndarray, esc: np.ndarray,
+            motor: np.ndarray, prop: np.ndarray) -> np.ndarray:
+    """Cost of the candidates (k packs + one ESC, motor and propeller per rotor); NaN when a price is unknown."""
+    n_r = float(mission.rotor_count)
+    return (np.asarray(k, dtype=np.float64) * library.packs.cost[pack]
+            + n_r * (library.escs.cost[esc] + library.motors.cost[motor] + library.propellers.cost[prop]))

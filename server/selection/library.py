@@ -1,0 +1,354 @@
+"""Inputs of the ranking engine: the team's parts as columns of numpy arrays, and one mission.
+
+One frozen dataclass per part kind holds one row per part (the service layer builds them from the ORM rows;
+field names follow ``server/models/parts.py`` converted to SI). Conventions for missing values:
+
+- **NaN means unknown** and the part is rejected as ``missing_data`` (every combination using it), except
+- ESC loss fields (``r_on_path_ohm`` ... ``pwm_loss_coefficient``) and motor ``inductance_h``: NaN means
+  "use the physics.md reference-model default" (:class:`server.physics.esc.EscParams`, 30 µH);
+- ``inf`` means "no limit" (e.g. a motor without a stated ``max_cells`` or ``max_current_a``);
+- ``cost`` may be NaN (unknown price): it never rejects a part, sorts last for the cost objective and counts
+  as the worst cost in the Pareto set.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+from typing import Literal
+
+import numpy as np
+
+from server.physics import atmosphere
+from server.physics.esc import EscParams
+from server.physics.motor import DEFAULT_INDUCTANCE_H
+from server.physics.propeller import PropellerTable
+
+MissionKind = Literal["hover", "cruise"]
+INCH_M = 0.0254
+
+
+def _float(a: object) -> np.ndarray:
+    return np.atleast_1d(np.asarray(a, dtype=np.float64))
+
+
+def _freeze(obj: object, skip: tuple[str, ...] = ("ids",)) -> None:
+    for f in fields(obj):  # type: ignore[arg-type]
+        value = getattr(obj, f.name)
+        if f.name in skip or not isinstance(value, np.ndarray | list | tuple | float | int):
+            continue
+        arr = _float(value)
+        arr.setflags(write=False)
+        object.__setattr__(obj, f.name, arr)
+
+
+def _ids(ids: object, n: int) -> np.ndarray:
+    arr = np.asarray(ids)
+    if arr.shape != (n,):
+        raise ValueError(f"ids must have one entry per part ({n}), got shape {arr.shape}")
+    return arr
+
+
+def _check_lengths(obj: object, n: int) -> None:
+    for f in fields(obj):  # type: ignore[arg-type]
+        value = getattr(obj, f.name)
+        if isinstance(value, np.ndarray) and value.ndim == 1 and value.shape != (n,):
+            raise ValueError(f"{type(obj).__name__}.{f.name} has {value.shape[0]} rows, expected {n}")
+
+
+@dataclass(frozen=True)
+class PackLibrary:
+    """Battery packs as sold (one row each); a mission may fly k identical packs in parallel.
+
+    Parameters
+    ----------
+    ids : array_like
+        Part ids (any sortable scalars; ties in the ranking are broken by them).
+    cells_series, cells_parallel : array_like
+        S and P. [-]
+    capacity_ah : array_like
+        Labelled capacity of one pack (all P strings). [Ah]
+    cell_resistance_ohm : array_like
+        DC internal resistance of one cell; pack ``S r / P``. [Ω]
+    full_voltage_per_cell_v : array_like
+        OCV at 100 % SOC (LiPo 4.20, LiHV 4.35); the OCV table is scaled to it. [V]
+    max_continuous_c : array_like
+        Continuous C-rating on the pack capacity. [1/h]
+    mass_kg, cost : array_like
+        Mass of one pack [kg]; unit cost [currency] (NaN = unknown).
+    """
+
+    ids: np.ndarray
+    cells_series: np.ndarray
+    cells_parallel: np.ndarray
+    capacity_ah: np.ndarray
+    cell_resistance_ohm: np.ndarray
+    full_voltage_per_cell_v: np.ndarray
+    max_continuous_c: np.ndarray
+    mass_kg: np.ndarray
+    cost: np.ndarray
+
+    def __post_init__(self) -> None:
+        _freeze(self)
+        n = self.cells_series.shape[0]
+        object.__setattr__(self, "ids", _ids(self.ids, n))
+        _check_lengths(self, n)
+
+    def __len__(self) -> int:
+        return int(self.cells_series.shape[0])
+
+    def valid(self) -> np.ndarray:
+        """Packs with every needed value known (finite, positive where it must be)."""
+        ok = np.ones(len(self), dtype=bool)
+        for name in ("cells_series", "cells_parallel", "capacity_ah", "full_voltage_per_cell_v",
+                     "max_continuous_c", "mass_kg"):
+            a = getattr(self, name)
+            ok &= np.isfinite(a) & (a > 0)
+        return ok & np.isfinite(self.cell_resistance_ohm) & (self.cell_resistance_ohm >= 0)
+
+
+@dataclass(frozen=True)
+class EscLibrary:
+    """ESCs (one row each). NaN loss parameters take the physics.md reference-model defaults.
+
+    Parameters
+    ----------
+    continuous_current_a : array_like
+        Continuous current rating. [A]
+    min_cells, max_cells : array_like
+        Supported pack cell counts (``inf`` = no upper limit). [-]
+    r_on_path_ohm : array_like
+        Conduction resistance in series with the motor (2 R_DS(on)). [Ω]
+    switching_frequency_hz, switching_time_s, dead_time_s : array_like
+        PWM frequency [Hz], turn-on + turn-off transition time [s], dead time per edge [s].
+    diode_drop_v, input_esr_ohm, pwm_loss_coefficient : array_like
+        Body-diode drop [V], input-capacitor ESR [Ω], calibrated k_pwm [-].
+    mass_kg, cost : array_like
+        Mass [kg]; unit cost [currency].
+    """
+
+    ids: np.ndarray
+    continuous_current_a: np.ndarray
+    min_cells: np.ndarray
+    max_cells: np.ndarray
+    r_on_path_ohm: np.ndarray
+    switching_frequency_hz: np.ndarray
+    switching_time_s: np.ndarray
+    dead_time_s: np.ndarray
+    diode_drop_v: np.ndarray
+    input_esr_ohm: np.ndarray
+    pwm_loss_coefficient: np.ndarray
+    mass_kg: np.ndarray
+    cost: np.ndarray
+
+    def __post_init__(self) -> None:
+        _freeze(self)
+        n = self.continuous_current_a.shape[0]
+        object.__setattr__(self, "ids", _ids(self.ids, n))
+        _check_lengths(self, n)
+        defaults = EscParams()
+        for name, default in (("r_on_path_ohm", defaults.on_path_resistance_ohm),
+                              ("switching_frequency_hz", defaults.switching_frequency_hz),
+                              ("switching_time_s", defaults.transition_time_s),
+                              ("dead_time_s", defaults.dead_time_s), ("diode_drop_v", defaults.body_diode_drop_v),
+                              ("input_esr_ohm", defaults.input_esr_ohm),
+                              ("pwm_loss_coefficient", defaults.pwm_loss_coefficient)):
+            a = getattr(self, name)
+            filled = np.where(np.isnan(a), float(default), a)
+            filled.setflags(write=False)
+            object.__setattr__(self, name, filled)
+
+    def __len__(self) -> int:
+        return int(self.continuous_current_a.shape[0])
+
+    def valid(self) -> np.ndarray:
+        """ESCs with every needed value known."""
+        ok = ~np.isnan(self.continuous_current_a) & (self.continuous_current_a > 0)
+        ok &= np.isfinite(self.min_cells) & ~np.isnan(self.max_cells) & np.isfinite(self.mass_kg)
+        for name in ("r_on_path_ohm", "switching_frequency_hz", "switching_time_s", "dead_time_s", "diode_drop_v",
+                     "input_esr_ohm", "pwm_loss_coefficient"):
+            ok &= np.isfinite(getattr(self, name))
+        return ok & (self.switching_frequency_hz > 0)
+
+    def params(self, index: np.ndarray | slice = slice(None)) -> EscParams:
+        """Physics ESC parameters of the rows ``index`` (continuous rating as max current)."""
+        return EscParams(on_path_resistance_ohm=self.r_on_path_ohm[index],
+                         switching_frequency_hz=self.switching_frequency_hz[index],
+                         transition_time_s=self.switching_time_s[index], dead_time_s=self.dead_time_s[index],
+                         body_diode_drop_v=self.diode_drop_v[index], input_esr_ohm=self.input_esr_ohm[index],
+                         pwm_loss_coefficient=self.pwm_loss_coefficient[index],
+                         max_current_a=self.continuous_current_a[index])
+
+
+@dataclass(frozen=True)
+class MotorLibrary:
+    """Motors (one row each); NaN resistance or no-load current = unknown (rejected as missing data).
+
+    Parameters
+    ----------
+    kv_rpm_per_v : array_like
+        Speed constant. [rpm/V]
+    resistance_ohm : array_like
+        Line-to-line winding resistance. [Ω]
+    no_load_current_a : array_like
+        No-load current I0. [A]
+    inductance_h : array_like
+        Line-to-line inductance (NaN = 30 µH default). [H]
+    max_current_a : array_like
+        Rated maximum current (``inf`` = none stated). [A]
+    max_cells : array_like
+        Highest pack cell count allowed (``inf`` = none stated). [-]
+    mass_kg, cost : array_like
+        Mass [kg]; unit cost [currency].
+    """
+
+    ids: np.ndarray
+    kv_rpm_per_v: np.ndarray
+    resistance_ohm: np.ndarray
+    no_load_current_a: np.ndarray
+    inductance_h: np.ndarray
+    max_current_a: np.ndarray
+    max_cells: np.ndarray
+    mass_kg: np.ndarray
+    cost: np.ndarray
+
+    def __post_init__(self) -> None:
+        _freeze(self)
+        n = self.kv_rpm_per_v.shape[0]
+        object.__setattr__(self, "ids", _ids(self.ids, n))
+        _check_lengths(self, n)
+        filled = np.where(np.isnan(self.inductance_h), DEFAULT_INDUCTANCE_H, self.inductance_h)
+        filled.setflags(write=False)
+        object.__setattr__(self, "inductance_h", filled)
+
+    def __len__(self) -> int:
+        return int(self.kv_rpm_per_v.shape[0])
+
+    def valid(self) -> np.ndarray:
+        """Motors with every needed value known."""
+        ok = np.isfinite(self.kv_rpm_per_v) & (self.kv_rpm_per_v > 0)
+        ok &= np.isfinite(self.resistance_ohm) & (self.resistance_ohm >= 0)
+        ok &= np.isfinite(self.no_load_current_a) & (self.no_load_current_a >= 0)
+        ok &= (self.inductance_h > 0) & ~np.isnan(self.max_current_a) & ~np.isnan(self.max_cells)
+        return ok & np.isfinite(self.mass_kg)
+
+
+@dataclass(frozen=True)
+class PropellerLibrary:
+    """Propellers (one row each) with static CT/CP versus rpm and optional forward CT/CP versus J.
+
+    Parameters
+    ----------
+    diameter_m, diameter_in : array_like
+        Diameter in metres (physics) and inches (the airframe limit is in inches). [m], [in]
+    static : PropellerTable
+        Static coefficients versus rpm, batch ``(n,)``; an all-NaN row means "unknown" (a constant
+        ct/cp pair is a one-point row).
+    forward : PropellerTable or None
+        Coefficients versus advance ratio J, batch ``(n,)``; all-NaN rows for propellers without data.
+    mass_kg, cost : array_like
+        Mass [kg]; unit cost [currency].
+    """
+
+    ids: np.ndarray
+    diameter_m: np.ndarray
+    diameter_in: np.ndarray
+    static: PropellerTable
+    forward: PropellerTable | None
+    mass_kg: np.ndarray
+    cost: np.ndarray
+
+    def __post_init__(self) -> None:
+        _freeze(self, skip=("ids", "static", "forward"))
+        n = self.diameter_m.shape[0]
+        object.__setattr__(self, "ids", _ids(self.ids, n))
+        _check_lengths(self, n)
+        for name, table, axis in (("static", self.static, "rpm"), ("forward", self.forward, "advance_ratio")):
+            if table is None:
+                continue
+            if table.axis != axis or table.axis_values.shape[:-1] != (n,):
+                raise ValueError(f"{name} table must be versus {axis} with one row per propeller")
+
+    def __len__(self) -> int:
+        return int(self.diameter_m.shape[0])
+
+    def valid(self) -> np.ndarray:
+        """Propellers whose diameter and mass are known (the tables are checked per mission)."""
+        return np.isfinite(self.diameter_m) & (self.diameter_m > 0) & np.isfinite(self.diameter_in) & np.isfinite(
+            self.mass_kg)
+
+
+@dataclass(frozen=True)
+class PartsLibrary:
+    """The four part libraries one ranking draws from."""
+
+    packs: PackLibrary
+    escs: EscLibrary
+    motors: MotorLibrary
+    propellers: PropellerLibrary
+
+    @property
+    def sizes(self) -> tuple[int, int, int, int]:
+        return len(self.packs), len(self.escs), len(self.motors), len(self.propellers)
+
+
+@dataclass(frozen=True)
+class MissionSpec:
+    """One airframe's mission (field names follow ``server/models/missions.py`` in SI).
+
+    Defaults are the issue's common-practice values (no source): thrust-to-weight 2.0, duty band 0.40-0.75,
+    ESC continuous >= 1.2 x full-throttle motor current, pack current <= 0.8 x C x capacity, 80 % usable
+    capacity, 3.3 V per cell cut-off, cruise point at 50 % state of charge.
+    """
+
+    rotor_count: int
+    frame_mass_kg: float
+    kind: MissionKind = "hover"
+    payload_kg: float = 0.0
+    max_prop_diameter_in: float = float("inf")
+    max_packs_in_parallel: int = 1
+    cruise_airspeed_m_s: float = 0.0
+    lift_to_drag: float = float("nan")
+    altitude_m: float = 0.0
+    temperature_offset_c: float = 0.0
+    min_thrust_to_weight: float = 2.0
+    duty_min: float = 0.40
+    duty_max: float = 0.75
+    min_endurance_min: float = 0.0
+    usable_fraction: float = 0.8
+    cutoff_v_per_cell: float = 3.3
+    esc_current_margin: float = 1.2
+    pack_current_fraction: float = 0.8
+    cruise_state_of_charge: float = 0.5
+    max_all_up_mass_kg: float | None = None
+
+    def __post_init__(self) -> None:
+        if self.kind not in ("hover", "cruise"):
+            raise ValueError(f"unknown mission kind {self.kind!r}")
+        if int(self.rotor_count) < 1 or int(self.max_packs_in_parallel) < 1:
+            raise ValueError("rotor_count and max_packs_in_parallel must be at least 1")
+        if self.kind == "cruise" and not (self.cruise_airspeed_m_s > 0 and self.lift_to_drag > 0):
+            raise ValueError("a cruise mission needs cruise_airspeed_m_s > 0 and lift_to_drag > 0")
+        if not 0.0 < self.usable_fraction <= 1.0 or not 0.0 <= self.cruise_state_of_charge <= 1.0:
+            raise ValueError("usable_fraction must be in (0, 1] and cruise_state_of_charge in [0, 1]")
+        if not np.isfinite(self.frame_mass_kg + self.payload_kg):
+            raise ValueError("frame and payload mass must be finite")
+
+    @property
+    def density_kg_m3(self) -> float:
+        """ISA density at the mission altitude and temperature offset. [kg/m^3]"""
+        return float(atmosphere.air_density_kg_m3(self.altitude_m, self.temperature_offset_c))
+
+    @property
+    def airspeed_m_s(self) -> float:
+        """Axial airspeed of the cruise and full-throttle points (0 for hover). [m/s]"""
+        return float(self.cruise_airspeed_m_s) if self.kind == "cruise" else 0.0
+
+    @property
+    def thrust_per_weight(self) -> float:
+        """Required thrust over weight at the cruise point: 1 (hover) or 1/(L/D) (cruise). [-]"""
+        return 1.0 if self.kind == "hover" else 1.0 / float(self.lift_to_drag)
+
+    @property
+    def low_state_of_charge(self) -> float:
+        """State of charge at the end of usable capacity, where thrust-to-weight is checked. [-]"""
+        return 1.0 - float(self.usable_fraction)

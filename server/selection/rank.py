@@ -1,0 +1,196 @@
+"""The orchestrator: enumerate -> screen in chunks -> constrain -> rank / Pareto -> refine the top N -> rows."""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from multiprocessing import get_all_start_methods, get_context
+
+import numpy as np
+
+from .constraints import REASONS
+from .enumerate import DEFAULT_CHUNK_SIZE, Chunk, Plan, chunks, plan
+from .library import MissionSpec, PartsLibrary
+from .propmodel import PropModel
+from .refine import refine
+from .result import ENGINE_VERSION, OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
+from .rows import build_rows
+from .stream import Partial, run_chunks, screen_chunk
+
+SCREEN_SHARE = 0.9
+"""Share of the progress bar given to screening (the rest covers refinement and the result rows)."""
+
+
+def _id_ranks(library: PartsLibrary) -> tuple[np.ndarray, ...]:
+    ranks = []
+    for part in (library.packs, library.escs, library.motors, library.propellers):
+        order = np.argsort(part.ids, kind="stable")
+        rank = np.empty(len(order), dtype=np.intp)
+        rank[order] = np.arange(len(order))
+        ranks.append(rank)
+    return tuple(ranks)
+
+
+class _Progress:
+    """Monotone progress reporting in [0, 1]."""
+
+    def __init__(self, callback: Callable[[float], None] | None) -> None:
+        self.callback, self.last = callback, 0.0
+
+    def __call__(self, value: float) -> None:
+        value = min(1.0, max(self.last, float(value)))
+        if self.callback is not None and (value > self.last or value == 1.0):
+            self.callback(value)
+        self.last = value
+
+
+def _tasks(all_chunks: list[Chunk], the_plan: Plan, count: int) -> list[list[Chunk]]:
+    """Split chunks into ``count`` contiguous groups of about equal candidate counts."""
+    sizes = np.array([(c.c1 - c.c0) * (c.e1 - c.e0) * the_plan.blocks[c.block].shape[2]
+                      * the_plan.blocks[c.block].shape[3] for c in all_chunks], dtype=np.float64)
+    if not sizes.size:
+        return []
+    edges = np.searchsorted(np.cumsum(sizes), np.linspace(0, sizes.sum(), count + 1)[1:-1], side="right")
+    groups = np.split(np.arange(len(all_chunks)), edges)
+    return [[all_chunks[i] for i in g] for g in groups if g.size]
+
+
+def _screen_parallel(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, all_chunks: list[Chunk],
+                     partial: Partial, workers: int, progress: _Progress,
+                     should_cancel: Callable[[], bool] | None) -> bool:
+    """Screen with a process pool; returns True when cancelled."""
+    method = "fork" if "fork" in get_all_start_methods() else "spawn"
+    tasks = _tasks(all_chunks, the_plan, workers * 4)
+    total = max(the_plan.evaluated, 1)
+    with ProcessPoolExecutor(max_workers=workers, mp_context=get_context(method)) as pool:
+        pending: set[Future[Partial]] = {
+            pool.submit(run_chunks, library, mission, the_plan, task, partial.objective, partial.pool_size,
+                        partial.id_ranks) for task in tasks}
+        while pending:
+            done, pending = wait(pending, timeout=0.2, return_when=FIRST_COMPLETED)
+            for future in done:
+                partial.merge(future.result())
+            progress(SCREEN_SHARE * partial.evaluated / total)
+            if should_cancel is not None and should_cancel():
+                for future in pending:
+                    future.cancel()
+                pool.shutdown(wait=True, cancel_futures=True)
+                return True
+    return False
+
+
+def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruise_power", top_n: int = 50,
+         chunk_size: int = DEFAULT_CHUNK_SIZE, progress: Callable[[float], None] | None = None,
+         should_cancel: Callable[[], bool] | None = None, workers: int = 1) -> RankingOutcome:
+    """Rank every power system of ``library`` for ``mission``.
+
+    Parameters
+    ----------
+    library : PartsLibrary
+        Packs, ESCs, motors and propellers (NaN = unknown, see :mod:`.library`).
+    mission : MissionSpec
+        Airframe and mission (rotor count, masses, limits, flight condition).
+    objective : {"cruise_power", "endurance", "specific_thrust", "mass", "cost"}
+        Lowest craft electrical power at the cruise point, longest endurance, best g/W, lowest all-up mass,
+        lowest cost. Ties fall to the other metrics in that order (after thrust-to-weight), then part ids.
+    top_n : int, default 50
+        Rows to return; these are refined by the discharge simulation and re-ranked with it.
+    chunk_size : int
+        Candidates per evaluated chunk (memory ~ 1 kB per candidate of a chunk); results do not depend on it.
+    progress : callable, optional
+        Called with a monotonically increasing fraction in [0, 1]; the last call of a finished run is 1.0.
+    should_cancel : callable, optional
+        Polled between chunks; when it returns True the run stops with ``cancelled=True`` and no rows.
+    workers : int, default 1
+        Processes that screen blocks in parallel (results are identical to ``workers=1``).
+
+    Returns
+    -------
+    RankingOutcome
+        Counts per rejection reason, the top rows, the Pareto rows and timings [s].
+    """
+    if objective not in OBJECTIVES:
+        raise ValueError(f"unknown objective {objective!r}; choose one of {OBJECTIVES}")
+    if top_n < 0 or chunk_size < 1 or workers < 1:
+        raise ValueError("top_n must be >= 0, chunk_size and workers >= 1")
+    report = _Progress(progress)
+    report(0.0)
+    t0 = time.perf_counter()
+    model = PropModel.build(library.propellers, mission)
+    the_plan = plan(library, mission, model)
+    all_chunks = list(chunks(the_plan, chunk_size))
+    t1 = time.perf_counter()
+    partial = Partial(objective, 2 * top_n + 16 if top_n else 0, _id_ranks(library))
+    total = max(the_plan.evaluated, 1)
+    cancelled = False
+    if workers > 1 and len(all_chunks) > 1:
+        cancelled = _screen_parallel(library, mission, the_plan, all_chunks, partial, workers, report, should_cancel)
+    else:
+        for chunk in all_chunks:
+            if should_cancel is not None and should_cancel():
+                cancelled = True
+                break
+            screen_chunk(partial, library, mission, model, the_plan, chunk)
+            report(SCREEN_SHARE * partial.evaluated / total)
+    t2 = time.perf_counter()
+    rejected = dict(the_plan.pruned) | {name: int(partial.counts[i + 1]) for i, name in enumerate(REASONS)
+                                         if name not in the_plan.pruned}
+    violations = {name: int(partial.violations[i]) for i, name in enumerate(REASONS) if name not in the_plan.pruned}
+    feasible = int(partial.counts[0])
+    timings = {"enumerate_s": t1 - t0, "screen_s": t2 - t1}
+    if cancelled:
+        return RankingOutcome(objective=objective, combinations=the_plan.combinations, evaluated=partial.evaluated,
+                              feasible=feasible, rejected=rejected, violations=violations, top=[], pareto=[],
+                              timings=timings | {"refine_s": 0.0, "total_s": t2 - t0}, cancelled=True)
+    top, dropped, notes = _refine_top(library, mission, model, partial, top_n, report)
+    feasible -= len(dropped)
+    rejected["endurance_short"] += len(dropped)
+    front = partial.front.members
+    if dropped:
+        gone = {tuple(int(v) for v in key) for key in dropped}
+        keep = [i for i in range(len(front)) if tuple(int(a[i]) for a in front.indices()) not in gone]
+        front = front.take(np.array(keep, dtype=np.intp))
+        notes.append("Pareto members whose refined endurance fell below the minimum were removed.")
+    pareto_order = np.lexsort((front.prop, front.motor, front.esc, front.k, front.pack, front.cost, front.mass_kg,
+                               -front.thrust_to_weight, -front.endurance_min))
+    pareto_rows = build_rows(library, mission, model, front.take(pareto_order))
+    t3 = time.perf_counter()
+    report(1.0)
+    return RankingOutcome(objective=objective, combinations=the_plan.combinations, evaluated=partial.evaluated,
+                          feasible=feasible, rejected=rejected, violations=violations, top=top, pareto=pareto_rows,
+                          timings=timings | {"refine_s": t3 - t2, "total_s": t3 - t0}, engine_version=ENGINE_VERSION,
+                          notes=notes)
+
+
+def _refine_top(library: PartsLibrary, mission: MissionSpec, model: PropModel, partial: Partial, top_n: int,
+                report: _Progress) -> tuple[list[CandidateRow], list[tuple[int, ...]], list[str]]:
+    """Refine pool candidates in screening order until ``top_n`` meet the endurance floor; re-rank them."""
+    pool = partial.pool
+    accepted: list[int] = []
+    minutes_all = np.full(len(pool), np.nan)
+    reasons_all: list[str] = [""] * len(pool)
+    dropped: list[tuple[int, ...]] = []
+    position = 0
+    while len(accepted) < top_n and position < len(pool):
+        batch = np.arange(position, min(position + top_n - len(accepted), len(pool)))
+        minutes, reasons = refine(library, mission, model, pool.take(batch))
+        for j, i in enumerate(batch):
+            minutes_all[i], reasons_all[i] = minutes[j], reasons[j]
+            if minutes[j] >= mission.min_endurance_min:
+                accepted.append(int(i))
+            else:
+                dropped.append(tuple(int(a[i]) for a in pool.indices()))
+        position = int(batch[-1]) + 1
+        report(SCREEN_SHARE + (1.0 - SCREEN_SHARE) * 0.8 * len(accepted) / max(top_n, 1))
+    notes = []
+    if len(accepted) < top_n and len(accepted) < partial.counts[0] - len(dropped):
+        notes.append("Fewer rows than requested: too many of the best screened candidates failed the refined "
+                     "endurance floor.")
+    chosen = np.array(accepted, dtype=np.intp)
+    screened = pool.take(chosen)
+    refined = screened.replace_endurance(minutes_all[chosen])
+    order = ranking_order(refined, partial.objective, partial.id_ranks)
+    rows = build_rows(library, mission, model, refined.take(order), [reasons_all[i] for i in chosen[order]],
+                      np.ones(len(chosen), dtype=bool), screened.endurance_min[order])
+    return rows, dropped, notes

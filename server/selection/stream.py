@@ -1,0 +1,94 @@
+"""Streaming screen: evaluate chunks one after another, keeping only counts, the best few and the Pareto set.
+
+A :class:`Partial` is the reduced state of any set of chunks. Two partials merge into the partial of the
+union (counts add; the best ``pool_size`` under a total order and the non-dominated set do not depend on the
+order in which candidates arrive), which is what makes results independent of chunk size and of workers.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .constraints import REASONS, screen
+from .enumerate import Chunk, Plan, batch_for, chunk_indices, cost_of
+from .library import MissionSpec, PartsLibrary
+from .pareto import ParetoFront
+from .propmodel import PropModel
+from .result import CandidateSet, primary_key, ranking_order
+
+
+@dataclass
+class Partial:
+    """Counts per reason code, all-violation counts, the best candidates so far and the Pareto front."""
+
+    objective: str
+    pool_size: int
+    id_ranks: tuple[np.ndarray, ...]
+    counts: np.ndarray = field(default_factory=lambda: np.zeros(len(REASONS) + 1, dtype=np.int64))
+    violations: np.ndarray = field(default_factory=lambda: np.zeros(len(REASONS), dtype=np.int64))
+    pool: CandidateSet = field(default_factory=CandidateSet.empty)
+    front: ParetoFront = field(default_factory=ParetoFront)
+    evaluated: int = 0
+
+    def add_candidates(self, cs: CandidateSet) -> None:
+        """Keep the best ``pool_size`` of the pool and ``cs`` under the ranking's total order."""
+        if len(cs) == 0 or self.pool_size == 0:
+            return
+        if len(self.pool) >= self.pool_size:
+            worst = primary_key(self.pool.take(np.array([len(self.pool) - 1])), self.objective)[0]
+            cs = cs.take(np.flatnonzero(primary_key(cs, self.objective) <= worst))
+            if len(cs) == 0:
+                return
+        merged = CandidateSet.concat(self.pool, cs)
+        order = ranking_order(merged, self.objective, self.id_ranks)
+        self.pool = merged.take(order[: self.pool_size])
+
+    def merge(self, other: Partial) -> None:
+        self.counts += other.counts
+        self.violations += other.violations
+        self.evaluated += other.evaluated
+        self.add_candidates(other.pool)
+        self.front.merge(other.front)
+
+
+def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, model: PropModel, the_plan: Plan,
+                 chunk: Chunk) -> int:
+    """Evaluate one chunk into ``partial``; returns the number of candidates evaluated."""
+    block = the_plan.blocks[chunk.block]
+    index = chunk_indices(block, chunk)
+    result = screen(batch_for(library, mission, *index), model, mission)
+    codes = result.code.ravel()
+    partial.counts += np.bincount(codes, minlength=len(REASONS) + 1)
+    partial.violations += result.violations
+    partial.evaluated += codes.size
+    feasible = np.flatnonzero(codes == 0)
+    if feasible.size:
+        ic, ie, im, iq = np.unravel_index(feasible, result.code.shape)
+        pack = block.packs[chunk.c0 + ic]
+        k = block.ks[chunk.c0 + ic]
+        esc = block.escs[chunk.e0 + ie]
+        motor, prop = block.motors[im], block.props[iq]
+        cs = CandidateSet(
+            pack=pack, k=k, esc=esc, motor=motor, prop=prop,
+            electrical_power_w=result.electrical_power_w.ravel()[feasible],
+            endurance_min=result.endurance_min.ravel()[feasible],
+            specific_thrust_g_per_w=result.specific_thrust_g_per_w.ravel()[feasible],
+            thrust_to_weight=result.thrust_to_weight.ravel()[feasible],
+            mass_kg=result.mass_kg.ravel()[feasible],
+            cost=cost_of(library, mission, pack, k, esc, motor, prop),
+        )
+        partial.add_candidates(cs)
+        partial.front.add(cs)
+    return int(codes.size)
+
+
+def run_chunks(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, chunks: list[Chunk], objective: str,
+               pool_size: int, id_ranks: tuple[np.ndarray, ...]) -> Partial:
+    """Screen a list of chunks in a fresh partial (the unit of work of a worker process)."""
+    model = PropModel.build(library.propellers, mission)
+    partial = Partial(objective, pool_size, id_ranks)
+    for chunk in chunks:
+        screen_chunk(partial, library, mission, model, the_plan, chunk)
+    return partial

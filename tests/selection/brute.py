@@ -1,0 +1,195 @@
+"""Brute-force reference: every combination, one at a time, through the physics engine's own solvers.
+
+Independent of the ranking engine's code: it loops over candidates in Python, calls
+:func:`server.physics.drive.for_thrust` and :func:`server.physics.drive.full_throttle` (bracketed root
+finding) for each, applies the constraints in the documented order, sorts with Python tuples, refines with
+:func:`server.physics.endurance.constant_thrust`, and finds the Pareto set by comparing every pair.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from server.physics import drive, endurance
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status
+from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
+from server.physics.esc import EscParams
+from server.physics.motor import MotorParams
+from server.physics.propeller import PropellerTable
+from server.selection import MissionSpec, PartsLibrary
+
+G0 = STANDARD_GRAVITY_M_S2
+ESC_DEFAULTS = EscParams()
+
+
+@dataclass
+class Record:
+    key: tuple[int, int, int, int, int]  # pack, k, esc, motor, prop (library positions)
+    ids: tuple[object, object, object, object]
+    metrics: dict[str, float] = field(default_factory=dict)
+
+
+def _row(table: PropellerTable, i: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    x = np.asarray(table.axis_values[i])
+    keep = ~np.isnan(x)
+    return x[keep], np.asarray(table.thrust_coefficient[i])[keep], np.asarray(table.power_coefficient[i])[keep]
+
+
+def _or(value: float, default: float) -> float:
+    return default if math.isnan(value) else value
+
+
+def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int], list[Record]]:
+    """Rejection counts (first failing reason) and the feasible candidates with their metrics."""
+    pk, es, mo, pr = library.packs, library.escs, library.motors, library.propellers
+    counts: dict[str, int] = {}
+    feasible: list[Record] = []
+    n_r = mission.rotor_count
+    rho = mission.density_kg_m3
+    speed = mission.cruise_airspeed_m_s if mission.kind == "cruise" else 0.0
+    table = pr.forward if mission.kind == "cruise" else pr.static
+    for p, k, e, m, q in itertools.product(range(len(pk)), range(1, mission.max_packs_in_parallel + 1),
+                                           range(len(es)), range(len(mo)), range(len(pr))):
+        reason = None
+        x, ct, cp = _row(table, q) if table is not None else (np.empty(0),) * 3
+        cells = float(pk.cells_series[p])
+        missing = (any(math.isnan(float(v)) for v in (pk.cell_resistance_ohm[p], pk.capacity_ah[p], pk.mass_kg[p]))
+                   or math.isnan(float(mo.resistance_ohm[m])) or math.isnan(float(mo.no_load_current_a[m]))
+                   or math.isnan(float(es.continuous_current_a[e])) or math.isnan(float(pr.diameter_m[q]))
+                   or (mission.kind == "hover" and x.size == 0))
+        if missing:
+            reason = "missing_data"
+        elif float(pr.diameter_in[q]) > mission.max_prop_diameter_in:
+            reason = "prop_too_large"
+        elif x.size == 0:
+            reason = "no_forward_table"
+        elif not float(es.min_cells[e]) <= cells <= float(es.max_cells[e]):
+            reason = "esc_cell_range"
+        elif cells > float(mo.max_cells[m]):
+            reason = "motor_cell_limit"
+        if reason is not None:
+            counts[reason] = counts.get(reason, 0) + 1
+            continue
+        mass = (mission.frame_mass_kg + mission.payload_kg + k * float(pk.mass_kg[p])
+                + n_r * (float(es.mass_kg[e]) + float(mo.mass_kg[m]) + float(pr.mass_kg[q])))
+        thrust = mass * G0 * (1.0 if mission.kind == "hover" else 1.0 / mission.lift_to_drag) / n_r
+        motor = MotorParams(float(mo.kv_rpm_per_v[m]), float(mo.resistance_ohm[m]), float(mo.no_load_current_a[m]),
+                            inductance_h=_or(float(mo.inductance_h[m]), 30e-6),
+                            max_current_a=float(mo.max_current_a[m]))
+        esc = EscParams(on_path_resistance_ohm=_or(float(es.r_on_path_ohm[e]), 0.010),
+                        switching_frequency_hz=_or(float(es.switching_frequency_hz[e]), 24e3),
+                        transition_time_s=_or(float(es.switching_time_s[e]), 200e-9),
+                        dead_time_s=_or(float(es.dead_time_s[e]), 0.5e-6),
+                        body_diode_drop_v=_or(float(es.diode_drop_v[e]), 0.8),
+                        input_esr_ohm=_or(float(es.input_esr_ohm[e]), 0.020),
+                        pwm_loss_coefficient=_or(float(es.pwm_loss_coefficient[e]), 0.0),
+                        max_current_a=float(es.continuous_current_a[e]))
+        prop = PropellerTable.from_rows(float(pr.diameter_m[q]), [(x, ct, cp)],
+                                        "advance_ratio" if mission.kind == "cruise" else "rpm")
+
+        def voc(soc: float, p: int = p, cells: float = cells) -> float:
+            return cells * float(open_circuit_voltage_per_cell_v(soc, float(pk.full_voltage_per_cell_v[p])))
+
+        common = {"motor": motor, "esc": esc, "propeller": prop,
+                  "pack_resistance_ohm": cells * float(pk.cell_resistance_ohm[p]) / (float(pk.cells_parallel[p]) * k),
+                  "rotor_count": n_r, "density_kg_m3": rho, "airspeed_m_s": speed}
+        op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **common)
+        low = drive.full_throttle(open_circuit_voltage_v=voc(1.0 - mission.usable_fraction), **common)
+        full = drive.full_throttle(open_circuit_voltage_v=voc(1.0), **common)
+        tw = n_r * float(low.thrust_n[0]) / (mass * G0)
+        i_full = float(full.motor_current_a[0])
+        capacity = float(pk.capacity_ah[p]) * k
+        reachable = int(op.status[0]) in (Status.OK, Status.OVER_CURRENT)
+        duty = float(op.duty[0])
+        pack_current = float(op.pack_current_a[0])
+        screening_endurance = mission.usable_fraction * capacity * 60.0 / pack_current if reachable else math.nan
+        checks = [
+            ("over_mass", mission.max_all_up_mass_kg is not None and mass > mission.max_all_up_mass_kg),
+            ("cruise_unreachable", not reachable),
+            ("duty_out_of_band", not mission.duty_min <= duty <= mission.duty_max),
+            ("bus_collapse", not (float(low.bus_voltage_v[0]) >= 0.5 * voc(1.0 - mission.usable_fraction)
+                                  and float(full.bus_voltage_v[0]) >= 0.5 * voc(1.0))),
+            ("below_thrust_to_weight", not tw >= mission.min_thrust_to_weight),
+            ("motor_over_current", not i_full <= float(mo.max_current_a[m])),
+            ("esc_over_current", not float(es.continuous_current_a[e]) >= mission.esc_current_margin * i_full),
+            ("pack_over_current", not n_r * i_full <= mission.pack_current_fraction * float(
+                pk.max_continuous_c[p]) * capacity),
+            ("endurance_short", not screening_endurance >= mission.min_endurance_min),
+        ]
+        reason = next((name for name, bad in checks if bad), None)
+        if reason is not None:
+            counts[reason] = counts.get(reason, 0) + 1
+            continue
+        cost = k * float(pk.cost[p]) + n_r * (float(es.cost[e]) + float(mo.cost[m]) + float(pr.cost[q]))
+        feasible.append(Record((p, k, e, m, q), (pk.ids[p], es.ids[e], mo.ids[m], pr.ids[q]), {
+            "electrical_power_w": float(op.craft_electrical_power_w[0]), "endurance_min": screening_endurance,
+            "specific_thrust_g_per_w": float(op.specific_thrust_g_per_w[0]), "thrust_to_weight": tw,
+            "mass_kg": mass, "cost": cost, "duty": duty, "rpm": float(op.rpm[0]),
+            "bus_current_a": pack_current, "drive_efficiency": float(op.drive_efficiency[0]),
+            "thrust_n": float(op.thrust_n[0]), "full_motor_current_a": i_full,
+            "full_thrust_n": float(low.thrust_n[0]), "extra_loss_w": float(op.extra_loss_w[0]),
+            "cruise_thrust_n": thrust}))
+    return counts, feasible
+
+
+def refine(library: PartsLibrary, mission: MissionSpec, records: list[Record]) -> None:
+    """Constant-thrust discharge of every record (adds 'refined_endurance_min')."""
+    if not records:
+        return
+    pk, es, mo, pr = library.packs, library.escs, library.motors, library.propellers
+    p, k, e, m, q = (np.array([r.key[i] for r in records]) for i in range(5))
+    kf = k.astype(float)
+    table = pr.forward if mission.kind == "cruise" else pr.static
+    assert table is not None
+    result = endurance.constant_thrust(
+        np.array([r.metrics["cruise_thrust_n"] for r in records]),
+        pack=PackParams(pk.cells_series[p], pk.capacity_ah[p] * kf, pk.cell_resistance_ohm[p],
+                        cells_parallel=pk.cells_parallel[p] * kf, full_voltage_per_cell_v=pk.full_voltage_per_cell_v[p],
+                        usable_fraction=mission.usable_fraction, cutoff_voltage_per_cell_v=mission.cutoff_v_per_cell),
+        motor=MotorParams(mo.kv_rpm_per_v[m], mo.resistance_ohm[m], mo.no_load_current_a[m],
+                          inductance_h=np.where(np.isnan(mo.inductance_h[m]), 30e-6, mo.inductance_h[m]),
+                          max_current_a=mo.max_current_a[m]),
+        esc=es.params(e), propeller=table.take(q), rotor_count=float(mission.rotor_count),
+        density_kg_m3=mission.density_kg_m3, airspeed_m_s=mission.airspeed_m_s)
+    for r, t in zip(records, np.asarray(result.time_s) / 60.0, strict=True):
+        r.metrics["refined_endurance_min"] = float(t)
+
+
+_SENSE = {"cruise_power": ("electrical_power_w", 1), "endurance": ("endurance_min", -1),
+          "specific_thrust": ("specific_thrust_g_per_w", -1), "thrust_to_weight": ("thrust_to_weight", -1),
+          "mass": ("mass_kg", 1), "cost": ("cost", 1)}
+
+
+def sort_key(record: Record, objective: str, endurance_field: str = "endurance_min") -> tuple[object, ...]:
+    """Objective first, then power, endurance, g/W, thrust-to-weight, mass, cost, then part ids."""
+    order = [objective] + [name for name in _SENSE if name != objective]
+    values = []
+    for name in order:
+        metric, sense = _SENSE[name]
+        value = record.metrics[endurance_field if metric == "endurance_min" else metric]
+        values.append(sense * value)
+    p, k, e, m, q = record.key
+    return (*values, record.ids[0], k, record.ids[1], record.ids[2], record.ids[3])
+
+
+def pareto(records: list[Record]) -> set[tuple[int, int, int, int, int]]:
+    """Keys of the records no other record dominates (endurance max, T/W max, mass min, cost min)."""
+    def vec(r: Record) -> tuple[float, ...]:
+        return (-r.metrics["endurance_min"], -r.metrics["thrust_to_weight"], r.metrics["mass_kg"], r.metrics["cost"])
+
+    out = set()
+    for a in records:
+        va = vec(a)
+        dominated = False
+        for b in records:
+            vb = vec(b)
+            if all(x <= y for x, y in zip(vb, va, strict=True)) and any(x < y for x, y in zip(vb, va, strict=True)):
+                dominated = True
+                break
+        if not dominated:
+            out.add(a.key)
+    return out

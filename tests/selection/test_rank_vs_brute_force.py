@@ -1,0 +1,101 @@
+"""The vectorised ranking equals a brute-force, one-candidate-at-a-time evaluation with the physics engine."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from server.selection import REASONS, rank
+from server.selection.library import MissionSpec
+
+from . import brute, parts
+
+REL = 1e-6  # the issue's tolerance for "same metrics"
+
+MISSIONS = {
+    "hover": parts.hover_mission(),
+    # A fixed wing with a low launch floor and a wide band, so that several candidates are feasible.
+    "cruise": parts.cruise_mission(duty_max=0.99, min_thrust_to_weight=0.3),
+}
+
+
+@pytest.fixture(scope="module")
+def reference() -> dict[str, tuple[dict[str, int], list[brute.Record]]]:
+    lib = parts.library()
+    out = {}
+    for name, mission in MISSIONS.items():
+        counts, feasible = brute.evaluate(lib, mission)
+        brute.refine(lib, mission, feasible)
+        out[name] = (counts, feasible)
+    return out
+
+
+def _key(row: object) -> tuple[object, ...]:
+    return (row.battery_id, row.esc_id, row.motor_id, row.propeller_id, row.packs_in_parallel)  # type: ignore[attr-defined]
+
+
+def _brute_key(record: brute.Record) -> tuple[object, ...]:
+    return (*record.ids, record.key[1])
+
+
+@pytest.mark.parametrize("objective", ["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
+@pytest.mark.parametrize("kind", ["hover", "cruise"])
+def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objective: str) -> None:
+    mission: MissionSpec = MISSIONS[kind]
+    counts, feasible = reference[kind]
+    assert len(feasible) >= 5, "the hand-built library must leave several feasible candidates"
+    out = rank(parts.library(), mission, objective=objective, top_n=500)
+    expected = sorted(feasible, key=lambda r: brute.sort_key(r, objective, "refined_endurance_min"))
+    assert [_key(r) for r in out.top] == [_brute_key(r) for r in expected]
+    for row, ref in zip(out.top, expected, strict=True):
+        m = ref.metrics
+        assert row.cruise["electrical_power_w"] == pytest.approx(m["electrical_power_w"], rel=REL)
+        assert row.cruise["duty"] == pytest.approx(m["duty"], rel=REL)
+        assert row.cruise["rpm"] == pytest.approx(m["rpm"], rel=REL)
+        assert row.cruise["bus_current_a"] == pytest.approx(m["bus_current_a"], rel=REL)
+        assert row.cruise["specific_thrust_g_per_w"] == pytest.approx(m["specific_thrust_g_per_w"], rel=REL)
+        assert row.cruise["drive_efficiency"] == pytest.approx(m["drive_efficiency"], rel=REL)
+        assert row.cruise["thrust_n"] == pytest.approx(m["thrust_n"], rel=REL)
+        extra = sum(row.cruise["losses"][k] for k in ("pwm_ripple_w", "switching_w", "dead_time_w",
+                                                      "input_capacitor_w", "calibrated_pwm_w"))
+        assert extra == pytest.approx(m["extra_loss_w"], rel=REL)
+        assert row.full_throttle["thrust_to_weight"] == pytest.approx(m["thrust_to_weight"], rel=REL)
+        assert row.full_throttle["motor_current_a"] == pytest.approx(m["full_motor_current_a"], rel=REL)
+        assert row.full_throttle["thrust_n"] == pytest.approx(m["full_thrust_n"], rel=REL)
+        assert row.all_up_mass_g == pytest.approx(1000.0 * m["mass_kg"], rel=REL)
+        assert row.cost == pytest.approx(m["cost"], rel=REL)
+        assert row.screening_endurance_min == pytest.approx(m["endurance_min"], rel=REL)
+        assert row.endurance_min == pytest.approx(m["refined_endurance_min"], rel=REL)
+        assert row.endurance_refined
+    rejected = {k: v for k, v in out.rejected.items() if v}
+    assert rejected == counts
+    assert out.feasible == len(feasible)
+    assert out.feasible + sum(out.rejected.values()) == out.combinations
+    assert set(out.rejected) == set(REASONS)
+
+
+@pytest.mark.parametrize("kind", ["hover", "cruise"])
+def test_pareto_set_is_the_brute_force_non_dominated_set(reference: dict, kind: str) -> None:
+    _, feasible = reference[kind]
+    out = rank(parts.library(), MISSIONS[kind], top_n=0)
+    got = {_key(r) for r in out.pareto}
+    by_key = {r.key: _brute_key(r) for r in feasible}
+    assert got == {by_key[k] for k in brute.pareto(feasible)}
+    assert len(got) == len(out.pareto)
+    # Non-dominated among themselves, and every feasible candidate outside is dominated by a member.
+    vec = {_key(r): (-r.screening_endurance_min, -r.full_throttle["thrust_to_weight"], r.all_up_mass_g, r.cost)
+           for r in out.pareto}
+    for a in vec.values():
+        assert not any(all(x <= y for x, y in zip(b, a, strict=True)) and b != a for b in vec.values())
+
+
+def test_top_n_refines_the_best_screened_and_re_ranks_them(reference: dict) -> None:
+    """With top_n below the feasible count, the rows are the screening top N, re-ranked after refinement."""
+    counts, feasible = reference["hover"]
+    top_n = 4
+    out = rank(parts.library(), MISSIONS["hover"], objective="endurance", top_n=top_n)
+    screened = sorted(feasible, key=lambda r: brute.sort_key(r, "endurance"))[:top_n]
+    expected = sorted(screened, key=lambda r: brute.sort_key(r, "endurance", "refined_endurance_min"))
+    assert [_key(r) for r in out.top] == [_brute_key(r) for r in expected]
+    assert [r.rank for r in out.top] == list(range(1, top_n + 1))
+    assert np.all(np.diff([r.endurance_min for r in out.top]) <= 0)
