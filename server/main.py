@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import AsyncIterator
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import asynccontextmanager
 
 from fastapi import FastAPI
@@ -15,6 +16,7 @@ from server.config import REPO_ROOT, Settings, get_settings
 from server.db import make_engine, make_sessionmaker
 from server.pages import page_router
 from server.pages._render import make_templates
+from server.services import rankings
 
 WEB = REPO_ROOT / "web"
 
@@ -28,7 +30,11 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         engine = make_engine(settings.database_url)
         app.state.engine = engine
         app.state.sessionmaker = make_sessionmaker(engine)
+        # Ranking jobs run outside the request in worker threads (numpy releases the GIL while it computes).
+        app.state.jobs = ThreadPoolExecutor(max_workers=settings.ranking_workers, thread_name_prefix="ranking")
+        rankings.recover(app.state.sessionmaker, lambda job: app.state.jobs.submit(job))
         yield
+        app.state.jobs.shutdown(wait=True, cancel_futures=True)
         engine.dispose()
 
     app = FastAPI(

@@ -2,11 +2,12 @@
 
 from fastapi import APIRouter
 
-from server.api import missions, parts, predict, shortlists, team
+from server.api import missions, parts, predict, rankings, shortlists, team
 
 api_router = APIRouter(prefix="/api/v1")
 api_router.include_router(parts.router)
 api_router.include_router(missions.router)
 api_router.include_router(team.router)
 api_router.include_router(predict.router)
+api_router.include_router(rankings.router)
 api_router.include_router(shortlists.router)

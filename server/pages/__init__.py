@@ -2,7 +2,7 @@
 
 from fastapi import APIRouter
 
-from server.pages import auth, home, missions, parts, predict, shortlists, team
+from server.pages import auth, home, missions, parts, predict, rankings, shortlists, team
 
 page_router = APIRouter(include_in_schema=False)
 page_router.include_router(auth.router)
@@ -10,5 +10,6 @@ page_router.include_router(home.router)
 page_router.include_router(parts.router)
 page_router.include_router(missions.router)
 page_router.include_router(predict.router)
+page_router.include_router(rankings.router)
 page_router.include_router(shortlists.router)
 page_router.include_router(team.router)

@@ -62,14 +62,14 @@ def cautions(compare: dict[str, Any]) -> list[str]:
     notes = []
     for i, entry in enumerate(compare["entries"], start=1):
         m = entry["metrics"]["margins"]
-        if m["motor_current_fraction"] is not None and m["motor_current_fraction"] >= NEAR_LIMIT:
-            notes.append(f"Candidate {i}: full-throttle motor current is {m['motor_current_fraction']:.0%} of the "
+        if m["motor_current_ratio"] is not None and m["motor_current_ratio"] >= NEAR_LIMIT:
+            notes.append(f"Candidate {i}: full-throttle motor current is {m['motor_current_ratio']:.0%} of the "
                          "motor's rating.")
-        if m["esc_rating_over_current"] is not None and m["esc_rating_over_current"] < 1.2:
-            notes.append(f"Candidate {i}: the ESC's continuous rating is only {m['esc_rating_over_current']:.2f} × "
+        if m["esc_rating_ratio"] is not None and m["esc_rating_ratio"] < 1.2:
+            notes.append(f"Candidate {i}: the ESC's continuous rating is only {m['esc_rating_ratio']:.2f} × "
                          "the full-throttle motor current (common practice: ≥ 1.2).")
-        if m["pack_current_fraction"] is not None and m["pack_current_fraction"] >= NEAR_LIMIT:
-            notes.append(f"Candidate {i}: full-throttle pack current is {m['pack_current_fraction']:.0%} of what "
+        if m["pack_current_ratio"] is not None and m["pack_current_ratio"] >= NEAR_LIMIT:
+            notes.append(f"Candidate {i}: full-throttle pack current is {m['pack_current_ratio']:.0%} of what "
                          "the mission allows from the pack's C rating.")
     return notes
 

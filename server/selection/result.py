@@ -7,7 +7,9 @@ from typing import Any, Literal
 
 import numpy as np
 
-ENGINE_VERSION = "liftmatch-selection 1.0 (physics reference model v1)"
+from server.physics import ENGINE_VERSION as PHYSICS_ENGINE_VERSION
+
+ENGINE_VERSION = f"{PHYSICS_ENGINE_VERSION}/rank-1.0"
 """Stored with every ranking so that a stored result names the engine that produced it."""
 
 Objective = Literal["cruise_power", "endurance", "specific_thrust", "mass", "cost"]

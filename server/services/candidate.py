@@ -219,11 +219,11 @@ def evaluate(
         "cost": c.cost,
         "currency": c.battery.currency,
         "margins": {
-            "motor_current_fraction": None
+            "motor_current_ratio": None
             if not (motor_current and c.motor.max_current_a)
             else motor_current / c.motor.max_current_a,
-            "esc_rating_over_current": None if not motor_current else c.esc.continuous_current_a / motor_current,
-            "pack_current_fraction": None if not pack_current else pack_current / allowed_pack,
+            "esc_rating_ratio": None if not motor_current else c.esc.continuous_current_a / motor_current,
+            "pack_current_ratio": None if not pack_current else pack_current / allowed_pack,
         },
         "ratings": {
             "motor_max_current_a": c.motor.max_current_a,

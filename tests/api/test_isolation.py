@@ -88,6 +88,12 @@ def two_teams(app: FastAPI, client: TestClient) -> tuple[TeamFixture, TeamFixtur
     )
     assert entry.status_code == 201, entry.text
     ids["entry_id"] = entry.json()["id"]
+    ranking = client.post("/api/v1/rankings", json={"mission_id": ids["mission_id"], "top_n": 5}, headers=h)
+    assert ranking.status_code == 202, ranking.text
+    ids["ranking_id"] = ranking.json()["id"]
+    for _ in range(400):
+        if client.get(f"/api/v1/rankings/{ids['ranking_id']}", headers=h).json()["status"] != "queued":
+            break
     return alpha, beta, ids
 
 

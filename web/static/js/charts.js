@@ -81,7 +81,19 @@
       options: { scales: { x: { title: { display: true, text: "time [min]" } }, y: { title: { display: true, text: "bus voltage [V]" } } } } });
   }
 
-  function all() { predictCharts(); compareCharts(); }
+  function paretoChart() {
+    const node = document.getElementById("pareto-chart-data");
+    if (!node) return;
+    const points = JSON.parse(node.textContent || "[]");
+    const cells = [...new Set(points.map((p) => p.cells))].sort((a, b) => a - b);
+    draw("chart-pareto", { type: "scatter", data: { datasets: cells.map((c, i) => ({
+      label: c + "S packs", backgroundColor: PALETTE[i % PALETTE.length], pointRadius: 5,
+      data: points.filter((p) => p.cells === c).map((p) => ({ x: p.thrust_to_weight, y: p.endurance_min, label: p.label })) })) },
+      options: { plugins: { tooltip: { callbacks: { label: (ctx) => ctx.raw.label + ": T/W " + ctx.raw.x.toFixed(2) + ", " + ctx.raw.y.toFixed(1) + " min" } } },
+        scales: { x: { title: { display: true, text: "thrust-to-weight at full throttle" } }, y: { title: { display: true, text: "endurance [min]" } } } } });
+  }
+
+  function all() { predictCharts(); compareCharts(); paretoChart(); }
   document.addEventListener("DOMContentLoaded", all);
   document.addEventListener("htmx:afterSettle", all);
   window.liftmatchCharts = { draw: draw, palette: PALETTE, charts: charts };

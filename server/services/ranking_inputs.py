@@ -1,0 +1,202 @@
+"""Snapshot a mission and the team's parts (calibrations applied) as plain JSON, and turn it into engine inputs.
+
+A ranking always runs from its stored snapshot, so re-running a stored ranking reproduces it exactly.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from server.models import PART_MODELS, Mission
+from server.physics.propeller import PropellerTable
+from server.selection import EscLibrary, MissionSpec, MotorLibrary, PackLibrary, PartsLibrary, PropellerLibrary
+from server.services import power_system as ps
+
+INCH_M = 0.0254
+PART_FIELDS = {
+    "batteries": [
+        "name",
+        "mass_g",
+        "unit_cost",
+        "chemistry",
+        "cells_series",
+        "cells_parallel",
+        "capacity_mah",
+        "cell_resistance_mohm",
+        "max_continuous_c",
+    ],
+    "escs": ["name", "mass_g", "unit_cost", "continuous_current_a", "min_cells", "max_cells", *ps.ESC_DEFAULTS],
+    "motors": [
+        "name",
+        "mass_g",
+        "unit_cost",
+        "kv_rpm_per_v",
+        "winding_resistance_ohm",
+        "no_load_current_a",
+        "inductance_uh",
+        "max_current_a",
+        "max_cells",
+    ],
+    "propellers": [
+        "name",
+        "mass_g",
+        "unit_cost",
+        "diameter_in",
+        "pitch_in",
+        "ct",
+        "cp",
+        "static_table",
+        "forward_table",
+    ],
+}
+MISSION_FIELDS = [
+    "name",
+    "kind",
+    "payload_mass_g",
+    "altitude_m",
+    "temperature_offset_c",
+    "cruise_airspeed_m_s",
+    "lift_to_drag",
+    "min_thrust_to_weight",
+    "duty_min",
+    "duty_max",
+    "min_endurance_min",
+    "usable_fraction",
+    "cutoff_v_per_cell",
+    "esc_current_margin",
+    "pack_current_fraction",
+    "cruise_state_of_charge",
+    "max_all_up_mass_g",
+]
+AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel"]
+
+
+def snapshot(session: Session, *, team_id: int, mission: Mission) -> dict[str, Any]:
+    """The mission, its airframe and every active part (calibrated values replace entered ones)."""
+    parts: dict[str, list[dict[str, Any]]] = {}
+    for kind, model in PART_MODELS.items():
+        rows = session.scalars(
+            select(model).where(model.team_id == team_id, model.archived.is_(False)).order_by(model.id)
+        )
+        parts[kind] = []
+        for part in rows:
+            values, sources = ps.from_part(session, team_id, kind, part, PART_FIELDS[kind])
+            parts[kind].append(
+                {
+                    "id": part.id,
+                    **{f: values.get(f) for f in PART_FIELDS[kind]},
+                    "calibrated": sorted(k for k, s in sources.items() if s == "calibrated"),
+                }
+            )
+    return {
+        "mission": {"id": mission.id, **{f: getattr(mission, f) for f in MISSION_FIELDS}},
+        "airframe": {"id": mission.airframe.id, **{f: getattr(mission.airframe, f) for f in AIRFRAME_FIELDS}},
+        "parts": parts,
+    }
+
+
+def _num(value: Any, missing: float = np.nan) -> float:
+    return missing if value is None else float(value)
+
+
+def _column(rows: list[dict[str, Any]], name: str, scale: float = 1.0, missing: float = np.nan) -> np.ndarray:
+    return np.array([_num(r.get(name), missing) * (scale if r.get(name) is not None else 1.0) for r in rows])
+
+
+def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: str) -> PropellerTable | None:
+    if key == "forward_table" and not any(r.get(key) for r in rows):
+        return None
+    diameters = [_num(r.get("diameter_in")) * INCH_M for r in rows]
+    tables = []
+    for r in rows:
+        data = r.get(key)
+        if data:
+            tables.append(([d[axis_key] for d in data], [d["ct"] for d in data], [d["cp"] for d in data]))
+        elif key == "static_table" and r.get("ct") is not None and r.get("cp") is not None:
+            tables.append(([0.0], [r["ct"]], [r["cp"]]))
+        else:
+            tables.append(([np.nan], [np.nan], [np.nan]))
+    if not tables:
+        return PropellerTable(np.zeros(0), np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1)), axis)  # type: ignore[arg-type]
+    return PropellerTable.from_rows(diameters, tables, axis=axis)  # type: ignore[arg-type]
+
+
+def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
+    """Engine inputs (SI arrays) from a snapshot; unknown values become NaN, unstated limits infinity."""
+    p = snap["parts"]
+    b, e, m, pr = p["batteries"], p["escs"], p["motors"], p["propellers"]
+    inf = np.inf
+    packs = PackLibrary(
+        ids=np.array([r["id"] for r in b], dtype=np.int64),
+        cells_series=_column(b, "cells_series"),
+        cells_parallel=_column(b, "cells_parallel"),
+        capacity_ah=_column(b, "capacity_mah", 1e-3),
+        cell_resistance_ohm=_column(b, "cell_resistance_mohm", 1e-3),
+        full_voltage_per_cell_v=np.array([ps.FULL_VOLTAGE_PER_CELL_V[r["chemistry"]] for r in b]),
+        max_continuous_c=_column(b, "max_continuous_c"),
+        mass_kg=_column(b, "mass_g", 1e-3),
+        cost=_column(b, "unit_cost"),
+    )
+    escs = EscLibrary(
+        ids=np.array([r["id"] for r in e], dtype=np.int64),
+        continuous_current_a=_column(e, "continuous_current_a"),
+        min_cells=_column(e, "min_cells"),
+        max_cells=_column(e, "max_cells", missing=inf),
+        r_on_path_ohm=_column(e, "r_on_path_ohm"),
+        switching_frequency_hz=_column(e, "pwm_frequency_khz", 1e3),
+        switching_time_s=_column(e, "switching_time_ns", 1e-9),
+        dead_time_s=_column(e, "dead_time_ns", 1e-9),
+        diode_drop_v=_column(e, "diode_drop_v"),
+        input_esr_ohm=_column(e, "input_esr_ohm"),
+        pwm_loss_coefficient=_column(e, "k_pwm"),
+        mass_kg=_column(e, "mass_g", 1e-3),
+        cost=_column(e, "unit_cost"),
+    )
+    motors = MotorLibrary(
+        ids=np.array([r["id"] for r in m], dtype=np.int64),
+        kv_rpm_per_v=_column(m, "kv_rpm_per_v"),
+        resistance_ohm=_column(m, "winding_resistance_ohm"),
+        no_load_current_a=_column(m, "no_load_current_a"),
+        inductance_h=_column(m, "inductance_uh", 1e-6),
+        max_current_a=_column(m, "max_current_a", missing=inf),
+        max_cells=_column(m, "max_cells", missing=inf),
+        mass_kg=_column(m, "mass_g", 1e-3),
+        cost=_column(m, "unit_cost"),
+    )
+    propellers = PropellerLibrary(
+        ids=np.array([r["id"] for r in pr], dtype=np.int64),
+        diameter_m=_column(pr, "diameter_in", INCH_M),
+        diameter_in=_column(pr, "diameter_in"),
+        static=_table(pr, "static_table", "rpm", "rpm"),  # type: ignore[arg-type]
+        forward=_table(pr, "forward_table", "j", "advance_ratio"),
+        mass_kg=_column(pr, "mass_g", 1e-3),
+        cost=_column(pr, "unit_cost"),
+    )
+    ms, af = snap["mission"], snap["airframe"]
+    mission = MissionSpec(
+        rotor_count=int(af["rotor_count"]),
+        frame_mass_kg=af["frame_mass_g"] / 1000,
+        kind=ms["kind"],
+        payload_kg=ms["payload_mass_g"] / 1000,
+        max_prop_diameter_in=_num(af["max_prop_diameter_in"], inf),
+        max_packs_in_parallel=int(af["max_packs_in_parallel"]),
+        cruise_airspeed_m_s=_num(ms["cruise_airspeed_m_s"], 0.0),
+        lift_to_drag=_num(ms["lift_to_drag"]),
+        altitude_m=ms["altitude_m"],
+        temperature_offset_c=ms["temperature_offset_c"],
+        min_thrust_to_weight=ms["min_thrust_to_weight"],
+        duty_min=ms["duty_min"],
+        duty_max=ms["duty_max"],
+        min_endurance_min=ms["min_endurance_min"],
+        usable_fraction=ms["usable_fraction"],
+        cutoff_v_per_cell=ms["cutoff_v_per_cell"],
+        esc_current_margin=ms["esc_current_margin"],
+        pack_current_fraction=ms["pack_current_fraction"],
+        cruise_state_of_charge=ms["cruise_state_of_charge"],
+        max_all_up_mass_kg=None if ms["max_all_up_mass_g"] is None else ms["max_all_up_mass_g"] / 1000,
+    )
+    return PartsLibrary(packs, escs, motors, propellers), mission

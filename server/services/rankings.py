@@ -1,0 +1,294 @@
+"""Ranking jobs: start (snapshot + queue), run (engine, progress, cancel), read status, results and Pareto set."""
+
+from __future__ import annotations
+
+import logging
+import time
+from collections.abc import Callable
+from datetime import UTC, datetime
+from typing import Any
+
+from sqlalchemy import Select, func, select, update
+from sqlalchemy.orm import Session, sessionmaker
+
+from server.errors import Conflict, FieldError, InvalidInput, NotFound
+from server.models import Ranking, RankingResult
+from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, rank
+from server.services import missions as missions_service
+from server.services.ranking_inputs import engine_inputs, snapshot
+
+log = logging.getLogger("liftmatch.rankings")
+PROGRESS_INTERVAL_S = 0.25
+SORT_COLUMNS = {
+    "rank": RankingResult.rank,
+    "all_up_mass_g": RankingResult.all_up_mass_g,
+    "cruise_duty": RankingResult.cruise_duty,
+    "cruise_power_w": RankingResult.cruise_power_w,
+    "specific_thrust_g_per_w": RankingResult.specific_thrust_g_per_w,
+    "thrust_to_weight": RankingResult.thrust_to_weight,
+    "endurance_min": RankingResult.endurance_min,
+    "esc_current_a": RankingResult.esc_current_a,
+    "cost": RankingResult.cost,
+    "cells_series": RankingResult.cells_series,
+}
+Submit = Callable[[Callable[[], None]], object]
+
+
+def start(
+    session: Session, *, team_id: int, user_id: int | None, mission_id: int, objective: str, top_n: int
+) -> Ranking:
+    """Snapshot the inputs and store a queued ranking (the caller submits :func:`run` to a worker)."""
+    if objective not in OBJECTIVES:
+        raise InvalidInput("Unknown objective", [FieldError("objective", f"must be one of {', '.join(OBJECTIVES)}")])
+    try:
+        mission = missions_service.get_mission(session, team_id=team_id, mission_id=mission_id)
+    except NotFound:
+        raise InvalidInput("Unknown mission", [FieldError("mission_id", f"no mission with id {mission_id}")]) from None
+    inputs = snapshot(session, team_id=team_id, mission=mission) | {"objective": objective, "top_n": top_n}
+    row = Ranking(
+        team_id=team_id,
+        mission_id=mission.id,
+        mission_name=mission.name,
+        objective=objective,
+        top_n=top_n,
+        status="queued",
+        inputs=inputs,
+        engine_version=ENGINE_VERSION,
+        created_by_id=user_id,
+    )
+    session.add(row)
+    session.flush()
+    return row
+
+
+def _metric_columns(row: CandidateRow, escs: dict[int, float]) -> dict[str, Any]:
+    return {
+        "battery_id": int(row.battery_id),
+        "esc_id": int(row.esc_id),
+        "motor_id": int(row.motor_id),
+        "propeller_id": int(row.propeller_id),
+        "packs_in_parallel": row.packs_in_parallel,
+        "cells_series": row.cells_series,
+        "all_up_mass_g": row.all_up_mass_g,
+        "cruise_duty": row.cruise["duty"],
+        "cruise_power_w": row.cruise["electrical_power_w"],
+        "specific_thrust_g_per_w": row.cruise["specific_thrust_g_per_w"],
+        "thrust_to_weight": row.full_throttle["thrust_to_weight"],
+        "endurance_min": row.endurance_min,
+        "esc_current_a": escs[int(row.esc_id)],
+        "cost": row.cost,
+    }
+
+
+def run(factory: sessionmaker[Session], ranking_id: int) -> None:
+    """Run a queued ranking from its snapshot; progress, counts, results and timings go to the database."""
+    with factory() as session:
+        ranking = session.get(Ranking, ranking_id)
+        if ranking is None or ranking.status != "queued":
+            return
+        if ranking.cancel_requested:
+            ranking.status, ranking.finished_at = "cancelled", datetime.now(UTC)
+            session.commit()
+            return
+        ranking.status, ranking.started_at = "running", datetime.now(UTC)
+        session.commit()
+        inputs = ranking.inputs
+    last = [0.0, 0.0]  # time of the last progress write, of the last cancel check
+
+    def progress(fraction: float) -> None:
+        now = time.monotonic()
+        if now - last[0] >= PROGRESS_INTERVAL_S or fraction >= 1.0:
+            last[0] = now
+            with factory() as s:
+                s.execute(update(Ranking).where(Ranking.id == ranking_id).values(progress=min(fraction, 0.999)))
+                s.commit()
+
+    def should_cancel() -> bool:
+        now = time.monotonic()
+        if now - last[1] < PROGRESS_INTERVAL_S:
+            return False
+        last[1] = now
+        with factory() as s:
+            return bool(s.scalar(select(Ranking.cancel_requested).where(Ranking.id == ranking_id)))
+
+    started = time.monotonic()
+    try:
+        library, mission = engine_inputs(inputs)
+        outcome = rank(
+            library,
+            mission,
+            objective=inputs["objective"],
+            top_n=inputs["top_n"],
+            progress=progress,
+            should_cancel=should_cancel,
+        )
+    except Exception as exc:  # a failed job records why; it never takes the server down
+        log.exception("ranking %s failed", ranking_id)
+        with factory() as s, s.begin():
+            row = s.get(Ranking, ranking_id)
+            assert row is not None
+            row.status, row.error, row.finished_at = "failed", f"{type(exc).__name__}: {exc}", datetime.now(UTC)
+        return
+    escs = {int(i): float(c) for i, c in zip(library.escs.ids, library.escs.continuous_current_a, strict=True)}
+    with factory() as s, s.begin():
+        row = s.get(Ranking, ranking_id)
+        assert row is not None
+        row.combinations, row.evaluated, row.feasible = outcome.combinations, outcome.evaluated, outcome.feasible
+        row.rejected = dict(outcome.rejected)
+        row.timings = {**{k: float(v) for k, v in outcome.timings.items()}, "job_s": time.monotonic() - started}
+        row.finished_at = datetime.now(UTC)
+        if outcome.cancelled:
+            row.status = "cancelled"
+            return
+        stored: dict[tuple[Any, ...], RankingResult] = {}
+        for candidate in outcome.top:
+            key = (
+                candidate.battery_id,
+                candidate.esc_id,
+                candidate.motor_id,
+                candidate.propeller_id,
+                candidate.packs_in_parallel,
+            )
+            stored[key] = RankingResult(
+                ranking_id=ranking_id,
+                rank=candidate.rank,
+                pareto=False,
+                metrics=candidate.as_dict(),
+                **_metric_columns(candidate, escs),
+            )
+        for candidate in outcome.pareto:
+            key = (
+                candidate.battery_id,
+                candidate.esc_id,
+                candidate.motor_id,
+                candidate.propeller_id,
+                candidate.packs_in_parallel,
+            )
+            if key in stored:
+                stored[key].pareto = True
+            else:
+                metrics = candidate.as_dict() | {"rank": None}
+                stored[key] = RankingResult(
+                    ranking_id=ranking_id, rank=None, pareto=True, metrics=metrics, **_metric_columns(candidate, escs)
+                )
+        s.add_all(stored.values())
+        row.status, row.progress = "done", 1.0
+
+
+def get(session: Session, *, team_id: int, ranking_id: int) -> Ranking:
+    row = session.scalar(select(Ranking).where(Ranking.id == ranking_id, Ranking.team_id == team_id))
+    if row is None:
+        raise NotFound(f"No ranking with id {ranking_id}")
+    return row
+
+
+def list_all(session: Session, *, team_id: int, mission_id: int | None = None, limit: int = 100) -> list[Ranking]:
+    stmt = select(Ranking).where(Ranking.team_id == team_id)
+    if mission_id is not None:
+        stmt = stmt.where(Ranking.mission_id == mission_id)
+    return list(session.scalars(stmt.order_by(Ranking.id.desc()).limit(limit)))
+
+
+def cancel(session: Session, *, team_id: int, ranking_id: int) -> Ranking:
+    row = get(session, team_id=team_id, ranking_id=ranking_id)
+    if row.status in ("done", "failed", "cancelled"):
+        raise Conflict(f"This ranking is already {row.status}")
+    row.cancel_requested = True
+    if row.status == "queued":
+        row.status, row.finished_at = "cancelled", datetime.now(UTC)
+    session.flush()
+    return row
+
+
+def delete(session: Session, *, team_id: int, ranking_id: int) -> None:
+    row = get(session, team_id=team_id, ranking_id=ranking_id)
+    if row.status in ("queued", "running"):
+        raise Conflict("Cancel the ranking before deleting it")
+    session.delete(row)
+    session.flush()
+
+
+def status(row: Ranking) -> dict[str, Any]:
+    """The status document of the API (contract names) plus a few extras."""
+    return {
+        "id": row.id,
+        "status": row.status,
+        "progress": row.progress,
+        "mission_id": row.mission_id,
+        "mission_name": row.mission_name,
+        "objective": row.objective,
+        "top_n": row.top_n,
+        "combinations": row.combinations,
+        "evaluated": row.evaluated,
+        "feasible": row.feasible,
+        "rejected": {k: v for k, v in (row.rejected or {}).items() if v},
+        "engine_version": row.engine_version,
+        "elapsed_s": _elapsed(row),
+        "timings": row.timings or {},
+        "error": row.error or None,
+        "created_at": row.created_at,
+        "finished_at": row.finished_at,
+    }
+
+
+def _elapsed(row: Ranking) -> float | None:
+    if row.started_at is None:
+        return None
+    start = row.started_at if row.started_at.tzinfo else row.started_at.replace(tzinfo=UTC)
+    end = row.finished_at or datetime.now(UTC)
+    end = end if end.tzinfo else end.replace(tzinfo=UTC)
+    return max(0.0, (end - start).total_seconds())
+
+
+def _filtered(stmt: Select[Any], filters: dict[str, Any]) -> Select[Any]:
+    if filters.get("cells") is not None:
+        stmt = stmt.where(RankingResult.cells_series == filters["cells"])
+    if filters.get("packs") is not None:
+        stmt = stmt.where(RankingResult.packs_in_parallel == filters["packs"])
+    if filters.get("esc_max_a") is not None:
+        stmt = stmt.where(RankingResult.esc_current_a <= filters["esc_max_a"])
+    if filters.get("min_thrust_to_weight") is not None:
+        stmt = stmt.where(RankingResult.thrust_to_weight >= filters["min_thrust_to_weight"])
+    if filters.get("max_mass_g") is not None:
+        stmt = stmt.where(RankingResult.all_up_mass_g <= filters["max_mass_g"])
+    return stmt
+
+
+def results(
+    session: Session,
+    *,
+    team_id: int,
+    ranking_id: int,
+    sort: str = "rank",
+    page: int = 1,
+    page_size: int = 50,
+    filters: dict[str, Any] | None = None,
+    pareto: bool = False,
+) -> tuple[list[dict[str, Any]], int]:
+    """Stored ranked rows (or the Pareto set), sorted by any stored metric, filtered, paged."""
+    ranking = get(session, team_id=team_id, ranking_id=ranking_id)
+    column = SORT_COLUMNS.get(sort.lstrip("-"))
+    if column is None:
+        raise InvalidInput("Unknown sort", [FieldError("sort", f"must be one of {', '.join(SORT_COLUMNS)}")])
+    stmt = select(RankingResult).where(RankingResult.ranking_id == ranking.id)
+    stmt = stmt.where(RankingResult.pareto.is_(True)) if pareto else stmt.where(RankingResult.rank.is_not(None))
+    stmt = _filtered(stmt, filters or {})
+    total = session.scalar(select(func.count()).select_from(stmt.subquery())) or 0
+    order = column.desc() if sort.startswith("-") else column.asc()
+    rows = session.scalars(
+        stmt.order_by(order.nulls_last(), RankingResult.id).offset((page - 1) * page_size).limit(page_size)
+    )
+    return [r.metrics | {"rank": r.rank, "pareto": r.pareto, "result_id": r.id} for r in rows], int(total)
+
+
+def recover(factory: sessionmaker[Session], submit: Submit) -> None:
+    """At start-up: requeue jobs that never started; fail those a stopped process left running."""
+    with factory() as s, s.begin():
+        s.execute(
+            update(Ranking)
+            .where(Ranking.status == "running")
+            .values(status="failed", error="interrupted by a server restart", finished_at=datetime.now(UTC))
+        )
+        queued = list(s.scalars(select(Ranking.id).where(Ranking.status == "queued")))
+    for ranking_id in queued:
+        submit(lambda rid=ranking_id: run(factory, rid))
