@@ -36,7 +36,7 @@ def test_rank_then_shortlist_three_and_compare(live_server: str, page: Any) -> N
         form.locator("select").select_option(index=0)
         form.locator("button").click()
         page.wait_for_selector(f"#row-{rank} .ok")
-    page.locator(f"#row-3 .ok a").click()
+    page.locator("#row-3 .ok a").click()
     page.wait_for_selector("#compare-table")
     assert page.locator("#compare-table thead th.entry-head").count() == 3
     page.wait_for_function("() => window.liftmatchCharts && window.liftmatchCharts.charts['chart-gw']")
