@@ -101,7 +101,11 @@ def cmd_predict(args: argparse.Namespace, settings: Settings) -> int:
     from server.services._validation import field_errors
 
     try:
-        text = sys.stdin.read() if args.file == "-" else open(args.file, encoding="utf-8").read()
+        if args.file == "-":
+            text = sys.stdin.read()
+        else:
+            with open(args.file, encoding="utf-8") as fh:
+                text = fh.read()
     except OSError as exc:
         raise CliError(f"cannot read {args.file}: {exc.strerror}") from None
     try:
@@ -198,6 +202,61 @@ def _progress_bar(factory, ranking_id: int):  # type: ignore[no-untyped-def]
     return stop
 
 
+def cmd_import_bench(args: argparse.Namespace, settings: Settings) -> int:
+    """Upload a bench-run CSV for the team that owns the motor; calibrates at once."""
+    import json
+
+    from server.models import Motor
+    from server.schemas.bench import BenchRunMeta
+    from server.services import bench
+
+    try:
+        with open(args.file, "rb") as fh:
+            raw = fh.read(2 * 1024 * 1024 + 1)
+    except OSError as exc:
+        raise CliError(f"cannot read {args.file}: {exc.strerror}") from None
+    data = {"motor_id": args.motor, "propeller_id": args.propeller, "esc_id": args.esc, "pack_id": args.pack,
+            "supply_voltage_v": args.supply_v, "altitude_m": args.altitude, "air_temperature_c": args.temperature,
+            "notes": args.notes or "", "name": args.name or ""}
+    try:
+        meta = BenchRunMeta.model_validate({k: v for k, v in data.items() if v is not None})
+    except ValidationError as exc:
+        from server.services._validation import field_errors
+
+        raise CliError("; ".join(f"{e.field}: {e.message}" for e in field_errors(exc))) from None
+    with transaction(_sessionmaker(settings)) as session:
+        motor = session.get(Motor, args.motor)
+        if motor is None:
+            raise CliError(f"no motor with id {args.motor}")
+        run, calibration = bench.import_run(session, team_id=motor.team_id, user_id=None, meta=meta, raw=raw,
+                                            filename=args.file.rsplit("/", 1)[-1])
+        out = {"run": bench.run_summary(run), "calibration": calibration}
+    json.dump(out, sys.stdout, indent=2, default=str)
+    sys.stdout.write("\n")
+    return 0
+
+
+def cmd_calibrate(args: argparse.Namespace, settings: Settings) -> int:
+    """Re-fit a part from every bench run that shares its ESC pool."""
+    import json
+
+    from server.models import PART_MODELS
+    from server.services import bench
+
+    kind, _, ident = args.part.rpartition(":")
+    kind = kind or args.kind
+    if kind not in ("escs", "motors", "propellers") or not ident.isdigit():
+        raise CliError("give the part as KIND:ID (escs, motors or propellers), e.g. motors:12, or use --kind")
+    with transaction(_sessionmaker(settings)) as session:
+        part = session.get(PART_MODELS[kind], int(ident))
+        if part is None:
+            raise CliError(f"no {kind[:-1]} with id {ident}")
+        result = bench.calibrate_part(session, team_id=part.team_id, kind=kind, part_id=part.id)
+    json.dump(result, sys.stdout, indent=2, default=str)
+    sys.stdout.write("\n")
+    return 0
+
+
 def _serve(settings: Settings, host: str, port: int, reload: bool = False) -> int:
     import uvicorn
 
@@ -278,6 +337,21 @@ def build_parser() -> argparse.ArgumentParser:
                    choices=["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
     p.add_argument("--top", type=int, default=50, help="candidates to refine and list (1-500)")
     p.add_argument("--json", action="store_true", help="print the status and results as JSON")
+    p = add("import-bench", cmd_import_bench, "import a bench-run CSV and calibrate its parts")
+    p.add_argument("file")
+    p.add_argument("--motor", type=int, required=True)
+    p.add_argument("--propeller", type=int, required=True)
+    p.add_argument("--esc", type=int, required=True)
+    supply = p.add_mutually_exclusive_group(required=True)
+    supply.add_argument("--pack", type=int, help="battery pack id")
+    supply.add_argument("--supply-v", type=float, help="bench supply voltage [V]")
+    p.add_argument("--altitude", type=float, help="site altitude [m]")
+    p.add_argument("--temperature", type=float, help="air temperature [°C]")
+    p.add_argument("--name")
+    p.add_argument("--notes")
+    p = add("calibrate", cmd_calibrate, "re-fit a part (KIND:ID, e.g. motors:12) from the team's bench runs")
+    p.add_argument("part")
+    p.add_argument("--kind", choices=["escs", "motors", "propellers"], default="")
     add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
     return parser
 

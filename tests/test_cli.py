@@ -106,3 +106,25 @@ def test_serve_refuses_placeholder_secret(tmp_path: Path) -> None:
     assert result.returncode == 1
     assert "LIFTMATCH_SECRET_KEY is still the placeholder" in result.stderr
     assert len(result.stderr.strip().splitlines()) == 1
+
+
+def test_import_bench_and_calibrate(cli_env: str, capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    import json
+
+    from tests.api.test_bench_runs import csv_of
+
+    assert main(["load-demo"]) == 0
+    capsys.readouterr()
+    sweep = tmp_path / "sweep.csv"
+    sweep.write_text(csv_of("m_a_p_1_v7p4"))
+    assert main(["import-bench", str(sweep), "--motor", "1", "--propeller", "1", "--esc", "1",
+                 "--supply-v", "7.4"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["run"]["sample_count"] > 5 and out["calibration"]["calibrations"]
+    assert main(["calibrate", "motors:1"]) == 0
+    assert json.loads(capsys.readouterr().out)["calibration"]["part_kind"] == "motors"
+    bad = tmp_path / "bad.csv"
+    bad.write_text("throttle,bus_voltage_v\n0.5,11\n")
+    assert main(["import-bench", str(bad), "--motor", "1", "--propeller", "1", "--esc", "1", "--supply-v", "7"]) == 1
+    assert "thrust_n" in capsys.readouterr().err
+    assert main(["calibrate", "12"]) == 1

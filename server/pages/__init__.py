@@ -2,13 +2,14 @@
 
 from fastapi import APIRouter
 
-from server.pages import auth, home, missions, parts, predict, rankings, shortlists, team
+from server.pages import auth, bench_runs, home, missions, parts, predict, rankings, shortlists, team
 
 page_router = APIRouter(include_in_schema=False)
 page_router.include_router(auth.router)
 page_router.include_router(home.router)
 page_router.include_router(parts.router)
 page_router.include_router(missions.router)
+page_router.include_router(bench_runs.router)
 page_router.include_router(predict.router)
 page_router.include_router(rankings.router)
 page_router.include_router(shortlists.router)

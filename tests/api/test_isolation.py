@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import re
 from typing import Any
 
@@ -10,6 +11,7 @@ from fastapi import FastAPI
 from fastapi.routing import APIRoute
 from fastapi.testclient import TestClient
 
+from tests.api.test_bench_runs import csv_of
 from tests.factories import TeamFixture, make_team, part_payload
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
@@ -88,6 +90,13 @@ def two_teams(app: FastAPI, client: TestClient) -> tuple[TeamFixture, TeamFixtur
     )
     assert entry.status_code == 201, entry.text
     ids["entry_id"] = entry.json()["id"]
+    meta = {"motor_id": ids["part_id:motors"], "propeller_id": ids["part_id:propellers"],
+            "esc_id": ids["part_id:escs"], "supply_voltage_v": 7.4, "notes": SECRET_NAME}
+    run = client.post("/api/v1/bench-runs", headers=h, data={"metadata": json.dumps(meta)},
+                      files={"file": ("s.csv", csv_of("m_a_p_1_v7p4"), "text/csv")})
+    assert run.status_code == 201, run.text
+    ids["run_id"] = run.json()["id"]
+    ids["calibration_id"] = run.json()["calibration"]["calibrations"][0]["id"]
     ranking = client.post("/api/v1/rankings", json={"mission_id": ids["mission_id"], "top_n": 5}, headers=h)
     assert ranking.status_code == 202, ranking.text
     ids["ranking_id"] = ranking.json()["id"]
@@ -109,6 +118,8 @@ def _body(method: str, path: str, ids: dict[str, int]) -> dict[str, Any]:
     """A body that passes validation, so the only thing left to fail is the ownership check."""
     if path.endswith("/shortlists/{shortlist_id}") and method == "PATCH":
         return {"name": "x"}
+    if path.startswith("/api/v1/calibrations/"):
+        return {"active": True}
     if path.endswith("/reorder"):
         return {"entry_ids": [ids["entry_id"]]}
     if path.endswith("/shortlists/{shortlist_id}/entries") and method == "POST":

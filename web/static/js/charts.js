@@ -93,7 +93,37 @@
         scales: { x: { title: { display: true, text: "thrust-to-weight at full throttle" } }, y: { title: { display: true, text: "endurance [min]" } } } } });
   }
 
-  function all() { predictCharts(); compareCharts(); paretoChart(); }
+  function benchCharts() {
+    const node = document.getElementById("bench-chart-data");
+    if (!node) return;
+    const samples = JSON.parse(node.textContent || "{}").samples || [];
+    const used = samples.filter((s) => !s.flagged), flagged = samples.filter((s) => s.flagged);
+    const byThrust = used.filter((s) => s.model_electrical_power_w !== null).sort((a, b) => a.thrust_n - b.thrust_n);
+    function measuredVsModel(id, key, modelKey, yLabel) {
+      const sets = [
+        { label: "measured", data: used.map((s) => ({ x: s.thrust_n, y: s[key] })), backgroundColor: PALETTE[0], pointRadius: 4 },
+        { label: "flagged", data: flagged.map((s) => ({ x: s.thrust_n, y: s[key] })), borderColor: PALETTE[1], backgroundColor: "transparent", pointRadius: 5 },
+      ];
+      if (modelKey) sets.push({ label: "model", data: byThrust.map((s) => ({ x: s.thrust_n, y: s[modelKey] })), showLine: true, pointRadius: 0, borderColor: PALETTE[2] });
+      draw(id, { type: "scatter", data: { datasets: sets }, options: { scales: {
+        x: { title: { display: true, text: "thrust [N]" } }, y: { title: { display: true, text: yLabel } } } } });
+    }
+    measuredVsModel("bench-current", "bus_current_a", "model_bus_current_a", "bus current [A]");
+    measuredVsModel("bench-power", "electrical_power_w", "model_electrical_power_w", "electrical power [W]");
+    measuredVsModel("bench-gw", "specific_thrust_g_per_w", null, "specific thrust [g/W]");
+    const withEff = used.filter((s) => s.drive_efficiency !== null);
+    if (withEff.length) {
+      draw("bench-eff", { type: "scatter", data: { datasets: [{ label: "drive efficiency", data: withEff.map((s) => ({ x: s.throttle, y: s.drive_efficiency })), backgroundColor: PALETTE[3] }] },
+        options: { scales: { x: { title: { display: true, text: "throttle" } }, y: { title: { display: true, text: "drive efficiency" } } } } });
+    } else {
+      draw("bench-eff", { type: "scatter", data: { datasets: [{ label: "CT", data: used.map((s) => ({ x: s.rpm, y: s.thrust_coefficient })), backgroundColor: PALETTE[3] }] },
+        options: { scales: { x: { title: { display: true, text: "rpm" } }, y: { title: { display: true, text: "thrust coefficient CT" } } } } });
+    }
+    draw("bench-residual", { type: "scatter", data: { datasets: [{ label: "residual", data: byThrust.map((s) => ({ x: s.thrust_n, y: 100 * s.residual_power })), backgroundColor: PALETTE[4] }] },
+      options: { scales: { x: { title: { display: true, text: "thrust [N]" } }, y: { title: { display: true, text: "residual [%]" } } } } });
+  }
+
+  function all() { predictCharts(); compareCharts(); paretoChart(); benchCharts(); }
   document.addEventListener("DOMContentLoaded", all);
   document.addEventListener("htmx:afterSettle", all);
   window.liftmatchCharts = { draw: draw, palette: PALETTE, charts: charts };

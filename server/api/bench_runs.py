@@ -1,0 +1,104 @@
+"""JSON routes for bench runs (multipart upload), calibrations, and calibrating a part on demand."""
+
+from __future__ import annotations
+
+import json
+from typing import Annotated, Any
+
+from fastapi import APIRouter, File, Form, Query, UploadFile
+from fastapi.responses import Response
+from pydantic import ValidationError
+
+from server.deps import CallerDep, IdPath, SessionDep, WriterDep
+from server.errors import FieldError, InvalidInput
+from server.schemas.bench import BenchRunMeta, CalibrationSwitch
+from server.services import bench as bench_service
+from server.services._validation import field_errors
+
+router = APIRouter(tags=["bench runs"])
+MAX_UPLOAD = 2 * 1024 * 1024
+
+
+def parse_meta(text: str) -> BenchRunMeta:
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise InvalidInput("Bad metadata", [FieldError("metadata", f"not JSON: {exc.msg}")]) from None
+    try:
+        return BenchRunMeta.model_validate(data)
+    except ValidationError as exc:
+        raise InvalidInput("Invalid metadata", [FieldError(f"metadata.{e.field}", e.message)
+                                                for e in field_errors(exc)]) from None
+
+
+@router.post("/bench-runs", status_code=201)
+def upload(
+    caller: WriterDep, session: SessionDep,
+    file: Annotated[UploadFile, File(description="Bench-run CSV (unit-suffixed headers)")],
+    metadata: Annotated[str, Form(max_length=20_000, description="JSON: motor_id, propeller_id, esc_id, "
+                                                                 "pack_id | supply_voltage_v, altitude_m, ...")],
+) -> dict[str, Any]:
+    """Upload a measured sweep: validated (all or nothing), flagged, stored, and calibrated at once."""
+    meta = parse_meta(metadata)
+    raw = file.file.read(MAX_UPLOAD + 1)
+    run, calibration = bench_service.import_run(session, team_id=caller.team_id, user_id=caller.user_id, meta=meta,
+                                                raw=raw, filename=file.filename or "")
+    session.commit()
+    flags: dict[str, int] = {}
+    for sample in run.samples:
+        for reason in (sample.flag or "").split(","):
+            if reason:
+                flags[reason] = flags.get(reason, 0) + 1
+    return {**bench_service.run_summary(run), "flags": flags, "calibration": calibration}
+
+
+@router.get("/bench-runs")
+def list_runs(caller: CallerDep, session: SessionDep,
+              part_kind: Annotated[str | None, Query(pattern="^(batteries|escs|motors|propellers)$")] = None,
+              part_id: Annotated[int | None, Query(ge=1, le=2**63 - 1)] = None) -> list[dict[str, Any]]:
+    """The team's bench runs (newest first), optionally those using one part."""
+    return [bench_service.run_summary(r) for r in bench_service.list_runs(session, team_id=caller.team_id,
+                                                                           part_kind=part_kind, part_id=part_id)]
+
+
+@router.get("/bench-runs/{run_id}")
+def read_run(caller: CallerDep, session: SessionDep, run_id: IdPath) -> dict[str, Any]:
+    """A run with every sample, its derived quantities, flag, the model's prediction there, and calibrations."""
+    return bench_service.run_detail(session, team_id=caller.team_id, run_id=run_id)
+
+
+@router.delete("/bench-runs/{run_id}", status_code=204)
+def delete_run(caller: WriterDep, session: SessionDep, run_id: IdPath) -> Response:
+    """Delete a run and its samples (calibrations already stored stay until you recalibrate)."""
+    bench_service.delete_run(session, team_id=caller.team_id, run_id=run_id)
+    session.commit()
+    return Response(status_code=204)
+
+
+def _add_calibrate_routes(kind: str) -> None:
+    @router.post(f"/parts/{kind}/{{part_id}}/calibrate", summary=f"Calibrate from bench runs ({kind})")
+    def calibrate(caller: WriterDep, session: SessionDep, part_id: IdPath) -> dict[str, Any]:
+        result = bench_service.calibrate_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
+        session.commit()
+        return result
+
+    @router.get(f"/parts/{kind}/{{part_id}}/calibrations", summary=f"Calibrations of a part ({kind})")
+    def calibrations(caller: CallerDep, session: SessionDep, part_id: IdPath) -> list[dict[str, Any]]:
+        from server.services import parts as parts_service
+
+        parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
+        return [bench_service.calibration_dict(c)
+                for c in bench_service.list_calibrations(session, team_id=caller.team_id, kind=kind, part_id=part_id)]
+
+
+for _kind in ("escs", "motors", "propellers"):
+    _add_calibrate_routes(_kind)
+
+
+@router.patch("/calibrations/{calibration_id}")
+def switch_calibration(caller: WriterDep, session: SessionDep, calibration_id: IdPath,
+                       data: CalibrationSwitch) -> dict[str, Any]:
+    """Use (or stop using) a calibration for its part; at most one is active per part."""
+    row = bench_service.set_active(session, team_id=caller.team_id, calibration_id=calibration_id, active=data.active)
+    session.commit()
+    return bench_service.calibration_dict(row)

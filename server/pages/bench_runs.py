@@ -1,0 +1,118 @@
+"""Bench-run pages: list, upload with a preview, detail with the fit (± standard error), curves and flags."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import APIRouter, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from pydantic import ValidationError
+
+from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
+from server.errors import DomainError
+from server.pages._render import form_values, render
+from server.schemas.bench import BenchRunMeta
+from server.services import bench as bench_service
+from server.services import parts as parts_service
+from server.services._validation import field_errors
+
+router = APIRouter(prefix="/bench-runs")
+META_FIELDS = list(BenchRunMeta.model_fields)
+MAX_UPLOAD_BYTES = 2 * 1024 * 1024
+
+
+def _options(session: Any, caller: Caller) -> dict[str, Any]:
+    return {kind: parts_service.list_parts(session, team_id=caller.team_id, kind=kind, page_size=500)[0]
+            for kind in ("batteries", "escs", "motors", "propellers")}
+
+
+def _meta(values: dict[str, str]) -> BenchRunMeta:
+    return BenchRunMeta.model_validate({k: v for k, v in values.items() if k in META_FIELDS and v != ""})
+
+
+def _errors(exc: Exception) -> list[str]:
+    if isinstance(exc, ValidationError):
+        return [f"{e.field}: {e.message}" for e in field_errors(exc)]
+    if isinstance(exc, DomainError):
+        return [(f"row {e.row}, " if e.row else "") + f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
+    raise exc
+
+
+def _list(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
+    names = {kind: {p.id: p.name for p in parts} for kind, parts in _options(session, caller).items()}
+    ctx: dict[str, Any] = {"caller": caller, "nav": "bench", "options": _options(session, caller), "names": names,
+                           "runs": [bench_service.run_summary(r)
+                                    for r in bench_service.list_runs(session, team_id=caller.team_id)],
+                           "errors": [], "values": {}, "preview": None}
+    ctx.update(extra)
+    return render(request, "pages/bench_runs.html", ctx, block="preview", status_code=status_code)
+
+
+@router.get("", response_class=HTMLResponse)
+def bench_runs_page(request: Request, caller: PageCaller, session: SessionDep) -> HTMLResponse:
+    return _list(request, session, caller)
+
+
+async def _read_form(request: Request) -> tuple[dict[str, str], bytes, str]:
+    async with request.form() as form:  # closes the uploaded temporary file
+        upload = form.get("file")
+        raw = b""
+        filename = ""
+        if upload is not None and not isinstance(upload, str):
+            raw = await upload.read(MAX_UPLOAD_BYTES + 1)
+            filename = upload.filename or ""
+        return form_values(form), raw, filename
+
+
+@router.post("/preview", response_class=HTMLResponse)
+async def preview(request: Request, caller: PageWriter, session: SessionDep) -> HTMLResponse:
+    values, raw, _ = await _read_form(request)
+    try:
+        result = bench_service.preview(session, team_id=caller.team_id, meta=_meta(values), raw=raw)
+    except (ValidationError, DomainError) as exc:
+        return _list(request, session, caller, errors=_errors(exc), values=values)
+    return _list(request, session, caller, preview=result, values=values)
+
+
+@router.post("", response_class=HTMLResponse)
+async def upload(request: Request, caller: PageWriter, session: SessionDep) -> Response:
+    values, raw, filename = await _read_form(request)
+    try:
+        run, _ = bench_service.import_run(session, team_id=caller.team_id, user_id=caller.user_id,
+                                          meta=_meta(values), raw=raw, filename=filename)
+        session.commit()
+    except (ValidationError, DomainError) as exc:
+        session.rollback()
+        return _list(request, session, caller, 422, errors=_errors(exc), values=values)
+    return RedirectResponse(f"/bench-runs/{run.id}", status_code=303)
+
+
+@router.get("/{run_id}", response_class=HTMLResponse)
+def run_page(request: Request, caller: PageCaller, session: SessionDep, run_id: IdPath) -> HTMLResponse:
+    detail = bench_service.run_detail(session, team_id=caller.team_id, run_id=run_id)
+    run = detail["run"]
+    names = {kind: parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=run[f"{attr}_id"]).name
+             for kind, attr in (("motors", "motor"), ("propellers", "propeller"), ("escs", "esc"))}
+    chart = {"samples": [{k: s[k] for k in ("throttle", "thrust_n", "bus_current_a", "electrical_power_w",
+                                            "specific_thrust_g_per_w", "drive_efficiency", "rpm", "thrust_coefficient",
+                                            "model_electrical_power_w", "model_bus_current_a", "residual_power")}
+                         | {"flagged": s["flag"] is not None} for s in detail["samples"]]}
+    return render(request, "pages/bench_run.html", {"caller": caller, "nav": "bench", "detail": detail,
+                                                    "names": names, "chart": chart})
+
+
+@router.post("/{run_id}/calibrations/{calibration_id}", response_class=HTMLResponse)
+async def switch(request: Request, caller: PageWriter, session: SessionDep, run_id: IdPath,
+                 calibration_id: IdPath) -> Response:
+    values = form_values(await request.form())
+    bench_service.set_active(session, team_id=caller.team_id, calibration_id=calibration_id,
+                             active=values.get("active") == "1")
+    session.commit()
+    return RedirectResponse(f"/bench-runs/{run_id}", status_code=303)
+
+
+@router.post("/{run_id}/delete", response_class=HTMLResponse)
+def delete(caller: PageWriter, session: SessionDep, run_id: IdPath) -> Response:
+    bench_service.delete_run(session, team_id=caller.team_id, run_id=run_id)
+    session.commit()
+    return RedirectResponse("/bench-runs", status_code=303)

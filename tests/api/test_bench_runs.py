@@ -1,0 +1,206 @@
+"""Bench-run API: upload (multipart) → stored, flagged, calibrated; predict then uses the calibration.
+
+Sweeps are the published 5-inch bench data in tests/data/reference/bench-5in (StrawsonDesign/
+motor_propeller_testing, P. Cao and J. Strawson, 2018, MIT licence; see PROVENANCE.md), written out in our CSV format.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+
+from server.db import transaction
+from server.models import BenchRun, BenchSample, Calibration
+from tests.bench.reference import load_tests
+from tests.factories import TeamFixture, make_team, part_payload
+
+
+def csv_of(test_id: str) -> str:
+    test = load_tests()[test_id]
+    lines = ["throttle,bus_voltage_v,bus_current_a,rpm,thrust_n"]
+    for i in range(len(test.throttle)):
+        rpm = 0.0 if test.rpm[i] != test.rpm[i] else test.rpm[i]  # the bench's empty rpm means 0
+        lines.append(f"{test.throttle[i]},{test.bus_voltage_v[i]},{test.current_a[i]},{rpm},{max(test.thrust_n[i], 0)}")
+    return "\n".join(lines) + "\n"
+
+
+@pytest.fixture
+def stand(app: FastAPI, client: TestClient) -> tuple[TeamFixture, dict[str, int]]:
+    team = make_team(app)
+    h = team.headers()
+    ids = {
+        "motor": client.post(
+            "/api/v1/parts/motors",
+            headers=h,
+            json=part_payload(
+                "motors",
+                name="2205 2600",
+                kv_rpm_per_v=2600,
+                winding_resistance_ohm=None,
+                no_load_current_a=None,
+                max_cells=4,
+                mass_g=30,
+            ),
+        ).json()["id"],
+        "prop": client.post(
+            "/api/v1/parts/propellers",
+            headers=h,
+            json=part_payload(
+                "propellers",
+                name="5x4x3",
+                diameter_in=5,
+                pitch_in=4,
+                blades=3,
+                ct=None,
+                cp=None,
+                static_table=None,
+                mass_g=4,
+            ),
+        ).json()["id"],
+        "prop2": client.post(
+            "/api/v1/parts/propellers",
+            headers=h,
+            json=part_payload(
+                "propellers",
+                name="5x4.5x3",
+                diameter_in=5,
+                pitch_in=4.5,
+                blades=3,
+                ct=None,
+                cp=None,
+                static_table=None,
+                mass_g=4,
+            ),
+        ).json()["id"],
+        "esc": client.post("/api/v1/parts/escs", headers=h, json=part_payload("escs")).json()["id"],
+    }
+    return team, ids
+
+
+def upload(client: TestClient, team: TeamFixture, ids: dict[str, int], content: str, **meta: object):  # type: ignore[no-untyped-def]
+    body = {"motor_id": ids["motor"], "propeller_id": ids["prop"], "esc_id": ids["esc"], **meta}
+    return client.post(
+        "/api/v1/bench-runs",
+        headers=team.headers(),
+        data={"metadata": json.dumps(body)},
+        files={"file": ("sweep.csv", content, "text/csv")},
+    )
+
+
+def test_unknown_motor_data_needs_a_bench_run_then_predict_uses_the_calibration(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]]
+) -> None:
+    team, ids = stand
+    h = team.headers()
+    request = {
+        "battery": {"supply_voltage_v": 11.1},
+        "esc": {"id": ids["esc"]},
+        "motor": {"id": ids["motor"]},
+        "propeller": {"id": ids["prop"]},
+        "points": [{"thrust_n": 3.0}],
+    }
+    missing = client.post("/api/v1/predict", json=request, headers=h)
+    assert missing.status_code == 422
+    assert {"motor.winding_resistance_ohm", "motor.no_load_current_a"} <= {e["field"] for e in missing.json()["errors"]}
+    first = upload(client, team, ids, csv_of("m_a_p_1_v7p4"), supply_voltage_v=7.4)
+    assert first.status_code == 201, first.text
+    # One motor, one propeller, one voltage cannot separate motor losses from ESC losses: nothing is claimed.
+    alone = {c["part_kind"]: c for c in first.json()["calibration"]["calibrations"]}
+    assert alone["motors"]["parameters"]["winding_resistance_ohm"]["status"] == "fixed"
+    assert "do not determine it" in alone["motors"]["notes"]
+    for test_id, prop in (("m_a_p_1_v11p1", "prop"), ("m_a_p_2_v7p4", "prop2"), ("m_a_p_2_v11p1", "prop2")):
+        response = upload(
+            client, team, ids | {"prop": ids[prop]}, csv_of(test_id), supply_voltage_v=7.4 if "7p4" in test_id else 11.1
+        )
+        assert response.status_code == 201, response.text
+    body = response.json()
+    assert body["calibration"]["error"] is None
+    kinds = {c["part_kind"]: c for c in body["calibration"]["calibrations"]}
+    assert set(kinds) == {"escs", "motors", "propellers"}
+    motor = kinds["motors"]["parameters"]
+    assert motor["kv_rpm_per_v"]["status"] == "identified" and motor["kv_rpm_per_v"]["stderr"] > 0
+    assert 1800 < motor["kv_rpm_per_v"]["value"] < 3000
+    assert kinds["escs"]["parameters"]["k_pwm"]["status"] == "identified"
+    predicted = client.post("/api/v1/predict", json=request, headers=h)
+    assert predicted.status_code == 200, predicted.text
+    sources = predicted.json()["parameters"]
+    assert sources["motor"]["winding_resistance_ohm"]["source"] == "calibrated"
+    assert sources["esc"]["k_pwm"]["source"] == "calibrated"
+    assert sources["propeller"]["static_table"]["source"] == "calibrated"
+    detail = client.get(f"/api/v1/bench-runs/{body['id']}", headers=h).json()
+    powered = [s for s in detail["samples"] if s["flag"] is None and s["thrust_n"] > 0.5]
+    residuals = sorted(abs(s["residual_power"]) for s in powered if s["residual_power"] is not None)
+    assert residuals and residuals[len(residuals) // 2] < 0.10  # the fit describes its own data
+    # The "use this calibration" switch: turning it off brings back the entered (here: unknown) values.
+    motor_cal = kinds["motors"]["id"]
+    assert (
+        client.patch(f"/api/v1/calibrations/{motor_cal}", json={"active": False}, headers=h).json()["active"] is False
+    )
+    assert client.post("/api/v1/predict", json=request, headers=h).status_code == 422
+
+
+def test_flagged_rows_are_kept_but_not_fitted(client: TestClient, stand: tuple[TeamFixture, dict[str, int]]) -> None:
+    team, ids = stand
+    limited = next(t for t in load_tests().values() if t.supply_limited.any() and t.motor_id == "m_a")
+    response = upload(client, team, ids, csv_of(limited.test_id), supply_voltage_v=11.1)
+    assert response.status_code == 201
+    assert response.json()["flags"].get("supply_collapsed", 0) >= 1
+    assert response.json()["flagged_count"] >= int(limited.supply_limited.sum()) - 1
+
+
+@pytest.mark.parametrize(
+    ("content", "field", "row"),
+    [
+        ("", "file", None),
+        ("throttle,bus_voltage_v,bus_current_a,rpm\n0.5,11,3,5000\n", "thrust_n", 1),
+        ("throttle,bus_voltage_v,bus_current_a,rpm,thrust_n\n0.5,11,3,5000,abc\n", "thrust_n", 2),
+        ("throttle,bus_voltage_v,bus_current_a,rpm,thrust_n\n0.5,11,-3,5000,2\n", "bus_current_a", 2),
+        ("throttle,bus_voltage_v,bus_current_a,rpm,thrust_n\n1.5,11,3,5000,2\n", "throttle", 2),
+        ("throttle,bus_voltage_v,bus_current_a,rpm,thrust_n\n0.5,nan,3,5000,2\n", "bus_voltage_v", 2),
+        ("throttle,throttle,bus_voltage_v,bus_current_a,rpm,thrust_n\n0.5,0.5,11,3,5000,2\n", "throttle", 1),
+        ("throttle,bus_voltage_v,bus_current_a,rpm,thrust_n,thrust_g\n0.5,11,3,5000,2,200\n", "thrust_g", 1),
+    ],
+)
+def test_malformed_csv_is_422_with_row_and_column_and_nothing_saved(
+    client: TestClient,
+    stand: tuple[TeamFixture, dict[str, int]],
+    app: FastAPI,
+    content: str,
+    field: str,
+    row: int | None,
+) -> None:
+    team, ids = stand
+    response = upload(client, team, ids, content, supply_voltage_v=11.1)
+    assert response.status_code == 422, response.text
+    errors = response.json()["errors"]
+    assert any(e["field"] == field and e.get("row") == row for e in errors), errors
+    with transaction(app.state.sessionmaker) as session:
+        assert session.query(BenchRun).count() == 0 and session.query(BenchSample).count() == 0
+        assert session.query(Calibration).count() == 0
+
+
+def test_too_many_rows_and_bad_metadata(client: TestClient, stand: tuple[TeamFixture, dict[str, int]]) -> None:
+    team, ids = stand
+    big = "throttle,bus_voltage_v,bus_current_a,rpm,thrust_n\n" + "0.5,11,3,5000,2\n" * 10_001
+    assert upload(client, team, ids, big, supply_voltage_v=11.1).status_code == 422
+    both = upload(client, team, ids, csv_of("m_a_p_1_v7p4"), supply_voltage_v=7.4, pack_id=1)
+    assert both.status_code == 422 and both.json()["errors"][0]["field"].startswith("metadata")
+    foreign = upload(client, team, ids | {"motor": 99999}, csv_of("m_a_p_1_v7p4"), supply_voltage_v=7.4)
+    assert foreign.status_code == 422 and foreign.json()["errors"][0]["field"] == "motor_id"
+
+
+def test_calibrate_on_demand_and_list(client: TestClient, stand: tuple[TeamFixture, dict[str, int]]) -> None:
+    team, ids = stand
+    h = team.headers()
+    assert client.post(f"/api/v1/parts/motors/{ids['motor']}/calibrate", headers=h).status_code == 422  # no runs
+    upload(client, team, ids, csv_of("m_a_p_1_v7p4"), supply_voltage_v=7.4)
+    again = client.post(f"/api/v1/parts/motors/{ids['motor']}/calibrate", headers=h)
+    assert again.status_code == 200 and again.json()["calibration"]["part_id"] == ids["motor"]
+    history = client.get(f"/api/v1/parts/motors/{ids['motor']}/calibrations", headers=h).json()
+    assert len(history) == 2 and [c["active"] for c in history] == [True, False]
+    assert client.get("/api/v1/bench-runs", headers=h).json()[0]["sample_count"] > 5
+    other = make_team(client.app, "Other")  # type: ignore[arg-type]
+    assert client.get("/api/v1/bench-runs", headers=other.headers()).json() == []
