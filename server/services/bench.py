@@ -156,6 +156,7 @@ def _store(session: Session, *, team_id: int, kind: str, part_id: int, parameter
            fit: Any, run_ids: list[int], notes: str) -> Calibration:
     session.execute(update(Calibration).where(Calibration.team_id == team_id, Calibration.part_kind == kind,
                                               Calibration.part_id == part_id).values(active=False))
+    notes = "; ".join(dict.fromkeys(n.strip() for n in notes.split(";") if n.strip()))  # each note once
     row = Calibration(team_id=team_id, part_kind=kind, part_id=part_id, parameters=parameters,
                       residual_rms=_clean(fit.residual_rms), residual_unit="relative", sample_count=fit.samples_used,
                       run_ids=run_ids, notes=notes, engine_version=ENGINE_VERSION, active=True)

@@ -11,10 +11,11 @@ from sqlalchemy.orm import Session
 
 from server.config import REPO_ROOT, Settings
 from server.errors import Conflict
-from server.models import Team
+from server.models import PART_MODELS, Team
+from server.schemas.bench import BenchRunMeta
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.schemas.parts import CREATE_SCHEMAS
-from server.services import accounts, missions, parts
+from server.services import accounts, bench, missions, parts
 from server.services._validation import validate
 
 DEMO_FILE = REPO_ROOT / "seed_data" / "northfold.json"
@@ -61,8 +62,26 @@ def load_demo(session: Session, *, settings: Settings, if_missing: bool = False,
     for row in data["missions"]:
         fields = {k: v for k, v in row.items() if k != "airframe"} | {"airframe_id": airframe_ids[row["airframe"]]}
         missions.create_mission(session, team_id=team.id, data=validate(MissionCreate, fields, what="demo mission"))
+    runs = data.get("bench_runs", [])
+    if runs:
+        by_number = {
+            kind: {p.part_number: p.id for p in session.scalars(select(model).where(model.team_id == team.id))}
+            for kind, model in PART_MODELS.items()
+        }
+        for row in runs:
+            meta = BenchRunMeta(
+                name=row["name"],
+                motor_id=by_number["motors"][row["motor"]],
+                propeller_id=by_number["propellers"][row["propeller"]],
+                esc_id=by_number["escs"][row["esc"]],
+                supply_voltage_v=row["supply_voltage_v"],
+                altitude_m=row.get("altitude_m", 0.0),
+                notes=row.get("notes", ""),
+            )
+            raw = (path.parent / row["file"]).read_bytes()
+            bench.import_run(session, team_id=team.id, user_id=None, meta=meta, raw=raw, filename=row["file"])
     listed = ", ".join(f"{n} {k}" for k, n in counts.items())
     return (
         f"loaded demo team {team_name!r}: {listed}, {len(data['airframes'])} airframes, "
-        f"{len(data['missions'])} missions (invented data)"
+        f"{len(data['missions'])} missions, {len(runs)} synthetic bench runs (invented data)"
     )

@@ -7,7 +7,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import select
 
 from server.db import transaction
-from server.models import Battery, Motor, Propeller
+from server.models import Battery, BenchRun, Calibration, Motor, Propeller
 from server.services import seed
 
 
@@ -24,6 +24,12 @@ def test_demo_scenario_loads_and_covers_the_brief(app: FastAPI, client: TestClie
     assert len(motors) >= 12 and all(100 <= m.kv_rpm_per_v <= 1400 for m in motors)
     assert len(props) >= 12 and min(p.diameter_in for p in props) >= 5 and max(p.diameter_in for p in props) <= 30
     assert any(p.forward_table for p in props)
+    with app.state.sessionmaker() as session:
+        runs = list(session.scalars(select(BenchRun)))
+        calibrations = list(session.scalars(select(Calibration)))
+    assert len(runs) == len(seed.read_demo()["bench_runs"]) >= 2 and all(r.sample_count > 5 for r in runs)
+    assert {c.part_kind for c in calibrations} == {"escs", "motors", "propellers"}
+    assert all("synthetic" in r.name for r in runs)
     demo = seed.read_demo()
     assert "invented" in demo["_note"].lower()
     assert len(demo["airframes"]) == 3
