@@ -267,11 +267,19 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
     entries = []
     for entry in shortlist.entries:
         metrics = candidate.evaluate(session, team_id=team_id, mission=mission, ids=_ids(entry), with_curves=True)
+        added_by = session.get(User, entry.added_by_id) if entry.added_by_id else None
         entries.append(
             {
                 "entry_id": entry.id,
                 "position": entry.position,
                 "note": entry.note,
+                "added_by": added_by.email if added_by else None,
+                "added_at": entry.added_at,
+                "from_ranking": entry.ranking_id,
+                "calibrated": {
+                    kind: sorted(k for k, v in sources.items() if v == "calibrated")
+                    for kind, sources in metrics["sources"].items()
+                },
                 "parts": {
                     kind: _part_summary(session, team_id, kind, getattr(entry, f"{attr}_id"))
                     for kind, attr in (

@@ -29,6 +29,8 @@ def test_create_shortlist_and_add_entries_in_the_browser(app: FastAPI, client: T
     assert page.select_one("#shortlist-name").text == "Finalists"
     heads = page.select("#compare-table thead th.entry-head")
     assert len(heads) == 2
+    assert "added by owner@alpha.example" in heads[0].select_one(".added").text
+    assert "none (entered and default values)" in page.select_one('tr[data-key="calibrated"]').text
     compare = client.get(f"/api/v1{url}/compare.json").json()
     for row in compare["rows"]:
         cells = page.select(f'#compare-table tr[data-key="{row["key"]}"] td')
