@@ -257,6 +257,42 @@ def cmd_calibrate(args: argparse.Namespace, settings: Settings) -> int:
     return 0
 
 
+def cmd_export(args: argparse.Namespace, settings: Settings) -> int:
+    """Write the team's library (JSON) to a file or stdout."""
+    import json
+
+    from server.services import accounts, exchange
+
+    with _sessionmaker(settings)() as session:
+        team = accounts.get_team_by_name(session, name=args.team)
+        doc = exchange.export(session, team_id=team.id, team_name=team.name)
+    text = json.dumps(doc, indent=1, default=str)
+    if args.file == "-":
+        sys.stdout.write(text + "\n")
+    else:
+        with open(args.file, "w", encoding="utf-8") as fh:
+            fh.write(text + "\n")
+    return 0
+
+
+def cmd_import(args: argparse.Namespace, settings: Settings) -> int:
+    """Add a library file to a team (all or nothing)."""
+    import json
+
+    from server.services import accounts, exchange
+
+    try:
+        with open(args.file, encoding="utf-8") as fh:
+            data = json.load(fh)
+    except (OSError, json.JSONDecodeError) as exc:
+        raise CliError(f"cannot read {args.file}: {exc}") from None
+    with transaction(_sessionmaker(settings)) as session:
+        team = accounts.get_team_by_name(session, name=args.team)
+        counts = exchange.import_library(session, team_id=team.id, user_id=None, data=data)
+    print(json.dumps(counts))
+    return 0
+
+
 def _serve(settings: Settings, host: str, port: int, reload: bool = False) -> int:
     import uvicorn
 
@@ -352,6 +388,12 @@ def build_parser() -> argparse.ArgumentParser:
     p = add("calibrate", cmd_calibrate, "re-fit a part (KIND:ID, e.g. motors:12) from the team's bench runs")
     p.add_argument("part")
     p.add_argument("--kind", choices=["escs", "motors", "propellers"], default="")
+    p = add("export", cmd_export, "write a team's whole library as JSON")
+    p.add_argument("--team", required=True)
+    p.add_argument("file", nargs="?", default="-", help="output file, or - for stdout (default)")
+    p = add("import", cmd_import, "add a library JSON file to a team (all or nothing)")
+    p.add_argument("file")
+    p.add_argument("--team", required=True)
     add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
     return parser
 

@@ -128,3 +128,18 @@ def test_import_bench_and_calibrate(cli_env: str, capsys: pytest.CaptureFixture[
     assert main(["import-bench", str(bad), "--motor", "1", "--propeller", "1", "--esc", "1", "--supply-v", "7"]) == 1
     assert "thrust_n" in capsys.readouterr().err
     assert main(["calibrate", "12"]) == 1
+
+
+def test_export_then_import_into_another_team(cli_env: str, capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    import json
+
+    assert main(["load-demo"]) == 0
+    target = tmp_path / "library.json"
+    assert main(["export", "--team", "Northfold Survey", str(target)]) == 0
+    main(["create-team", "Second site"])
+    capsys.readouterr()
+    assert main(["import", str(target), "--team", "Second site"]) == 0
+    counts = json.loads(capsys.readouterr().out)
+    assert counts["motors"] == len(json.loads(target.read_text())["parts"]["motors"]) >= 12
+    (tmp_path / "broken.json").write_text("{")
+    assert main(["import", str(tmp_path / "broken.json"), "--team", "Second site"]) == 1

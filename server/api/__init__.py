@@ -2,12 +2,13 @@
 
 from fastapi import APIRouter
 
-from server.api import bench_runs, missions, parts, predict, rankings, shortlists, team
+from server.api import bench_runs, exchange, missions, parts, predict, rankings, shortlists, team
 
 api_router = APIRouter(prefix="/api/v1")
 api_router.include_router(parts.router)
 api_router.include_router(missions.router)
 api_router.include_router(team.router)
+api_router.include_router(exchange.router)
 api_router.include_router(bench_runs.router)
 api_router.include_router(predict.router)
 api_router.include_router(rankings.router)

@@ -1,0 +1,60 @@
+"""Library export/import: a lossless round trip into another team; a bad file imports nothing."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+
+from server.db import transaction
+from server.services import accounts, seed
+from tests.factories import make_team
+
+VOLATILE = {"exported_at", "team"}
+
+
+def strip_refs(doc: dict[str, Any]) -> dict[str, Any]:
+    """The file without its local refs (they are ids, which differ between teams)."""
+    out = {k: v for k, v in doc.items() if k not in VOLATILE}
+    out["parts"] = {k: [{f: v for f, v in p.items() if f != "ref"} for p in rows] for k, rows in doc["parts"].items()}
+    out["airframes"] = [{f: v for f, v in a.items() if f != "ref"} for a in doc["airframes"]]
+    out["missions"] = [{f: v for f, v in m.items() if f not in ("ref", "airframe_id")} for m in doc["missions"]]
+    out["bench_runs"] = [{f: v for f, v in r.items() if not f.endswith("ref")} for r in doc["bench_runs"]]
+    out["calibrations"] = [{f: v for f, v in c.items() if not f.endswith("ref") and f != "run_refs"}
+                           for c in doc["calibrations"]]
+    return out
+
+
+def test_round_trip_into_another_team_is_lossless(app: FastAPI, client: TestClient) -> None:
+    with transaction(app.state.sessionmaker) as session:
+        seed.load_demo(session, settings=app.state.settings)
+        team = accounts.get_team_by_name(session, name="Northfold Survey")
+        _, key = accounts.create_api_key(session, team_id=team.id, scope="read")
+    exported = client.get("/api/v1/export", headers={"Authorization": f"Bearer {key}"}).json()
+    assert exported["format"] == "liftmatch-library" and exported["bench_runs"] and exported["calibrations"]
+    other = make_team(app, "Copy")
+    created = client.post("/api/v1/import", json=exported, headers=other.headers())
+    assert created.status_code == 201, created.text
+    assert created.json()["motors"] == len(exported["parts"]["motors"])
+    again = client.get("/api/v1/export", headers=other.headers()).json()
+    assert strip_refs(again) == strip_refs(exported)
+    # The copy works: a mission of the copy ranks with the copied, calibrated parts.
+    mission = client.get("/api/v1/missions", headers=other.headers()).json()[0]["id"]
+    assert client.post("/api/v1/rankings", json={"mission_id": mission}, headers=other.headers()).status_code == 202
+
+
+def test_a_bad_file_imports_nothing(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    h = team.headers()
+    assert client.post("/api/v1/import", json={"format": "other"}, headers=h).status_code == 422
+    bad = {"format": "liftmatch-library", "version": 1, "parts": {
+        "motors": [{"ref": 1, "name": "ok", "mass_g": 50, "kv_rpm_per_v": 900},
+                   {"ref": 2, "name": "bad", "mass_g": 50, "kv_rpm_per_v": 5}]},
+        "missions": [{"ref": 1, "name": "m", "airframe_id": 77, "kind": "hover"}]}
+    response = client.post("/api/v1/import", json=bad, headers=h)
+    assert response.status_code == 422
+    fields = {e["field"] for e in response.json()["errors"]}
+    assert "parts.motors.1.kv_rpm_per_v" in fields and "missions.0.airframe_id" in fields
+    assert client.get("/api/v1/parts/motors", headers=h).json()["total"] == 0
+    assert client.post("/api/v1/import", json=bad, headers=team.headers("read")).status_code == 403
