@@ -141,8 +141,14 @@ def cmd_rank(args: argparse.Namespace, settings: Settings) -> int:
         mission = session.get(Mission, args.mission)
         if mission is None:
             raise CliError(f"no mission with id {args.mission}")
-        row = rankings.start(session, team_id=mission.team_id, user_id=None, mission_id=mission.id,
-                             objective=args.objective, top_n=args.top)
+        row = rankings.start(
+            session,
+            team_id=mission.team_id,
+            user_id=None,
+            mission_id=mission.id,
+            objective=args.objective,
+            top_n=args.top,
+        )
         ranking_id, team_id = row.id, mission.team_id
     bar = sys.stderr.isatty() and not args.json
     stop = _progress_bar(factory, ranking_id) if bar else None
@@ -160,17 +166,23 @@ def cmd_rank(args: argparse.Namespace, settings: Settings) -> int:
         json.dump({"ranking": status, "items": items}, sys.stdout, indent=2, default=str)
         sys.stdout.write("\n")
         return 0
-    print(f"ranking {ranking_id}: {status['combinations']} combinations, {status['feasible']} feasible, "
-          f"{status['elapsed_s']:.2f} s (engine {status['engine_version']})")
+    print(
+        f"ranking {ranking_id}: {status['combinations']} combinations, {status['feasible']} feasible, "
+        f"{status['elapsed_s']:.2f} s (engine {status['engine_version']})"
+    )
     for reason, count in sorted(status["rejected"].items(), key=lambda kv: -kv[1]):
         print(f"  rejected {count:>8}  {reason.replace('_', ' ')}")
-    print(f"{'rank':>4} {'pack':>5} {'ESC':>5} {'motor':>5} {'prop':>5} {'k':>2} {'mass g':>8} {'duty':>5} "
-          f"{'cruise W':>9} {'g/W':>6} {'T/W':>5} {'min':>6}")
+    print(
+        f"{'rank':>4} {'pack':>5} {'ESC':>5} {'motor':>5} {'prop':>5} {'k':>2} {'mass g':>8} {'duty':>5} "
+        f"{'cruise W':>9} {'g/W':>6} {'T/W':>5} {'min':>6}"
+    )
     for r in items:
-        print(f"{r['rank']:>4} {r['battery_id']:>5} {r['esc_id']:>5} {r['motor_id']:>5} {r['propeller_id']:>5} "
-              f"{r['packs_in_parallel']:>2} {r['all_up_mass_g']:>8.0f} {r['cruise']['duty']:>5.2f} "
-              f"{r['cruise']['electrical_power_w']:>9.1f} {r['cruise']['specific_thrust_g_per_w']:>6.2f} "
-              f"{r['full_throttle']['thrust_to_weight']:>5.2f} {r['endurance_min']:>6.1f}")
+        print(
+            f"{r['rank']:>4} {r['battery_id']:>5} {r['esc_id']:>5} {r['motor_id']:>5} {r['propeller_id']:>5} "
+            f"{r['packs_in_parallel']:>2} {r['all_up_mass_g']:>8.0f} {r['cruise']['duty']:>5.2f} "
+            f"{r['cruise']['electrical_power_w']:>9.1f} {r['cruise']['specific_thrust_g_per_w']:>6.2f} "
+            f"{r['full_throttle']['thrust_to_weight']:>5.2f} {r['endurance_min']:>6.1f}"
+        )
     return 0
 
 
@@ -215,9 +227,17 @@ def cmd_import_bench(args: argparse.Namespace, settings: Settings) -> int:
             raw = fh.read(2 * 1024 * 1024 + 1)
     except OSError as exc:
         raise CliError(f"cannot read {args.file}: {exc.strerror}") from None
-    data = {"motor_id": args.motor, "propeller_id": args.propeller, "esc_id": args.esc, "pack_id": args.pack,
-            "supply_voltage_v": args.supply_v, "altitude_m": args.altitude, "air_temperature_c": args.temperature,
-            "notes": args.notes or "", "name": args.name or ""}
+    data = {
+        "motor_id": args.motor,
+        "propeller_id": args.propeller,
+        "esc_id": args.esc,
+        "pack_id": args.pack,
+        "supply_voltage_v": args.supply_v,
+        "altitude_m": args.altitude,
+        "air_temperature_c": args.temperature,
+        "notes": args.notes or "",
+        "name": args.name or "",
+    }
     try:
         meta = BenchRunMeta.model_validate({k: v for k, v in data.items() if v is not None})
     except ValidationError as exc:
@@ -228,8 +248,9 @@ def cmd_import_bench(args: argparse.Namespace, settings: Settings) -> int:
         motor = session.get(Motor, args.motor)
         if motor is None:
             raise CliError(f"no motor with id {args.motor}")
-        run, calibration = bench.import_run(session, team_id=motor.team_id, user_id=None, meta=meta, raw=raw,
-                                            filename=args.file.rsplit("/", 1)[-1])
+        run, calibration = bench.import_run(
+            session, team_id=motor.team_id, user_id=None, meta=meta, raw=raw, filename=args.file.rsplit("/", 1)[-1]
+        )
         out = {"run": bench.run_summary(run), "calibration": calibration}
     json.dump(out, sys.stdout, indent=2, default=str)
     sys.stdout.write("\n")
@@ -290,6 +311,76 @@ def cmd_import(args: argparse.Namespace, settings: Settings) -> int:
         team = accounts.get_team_by_name(session, name=args.team)
         counts = exchange.import_library(session, team_id=team.id, user_id=None, data=data)
     print(json.dumps(counts))
+    return 0
+
+
+def cmd_fleet_plan(args: argparse.Namespace, settings: Settings) -> int:
+    """Plan the parts a fleet stocks for several missions, in this process."""
+    import json
+
+    from server.models import Mission
+    from server.schemas.fleet import FleetPlanCreate
+    from server.services import fleet
+
+    try:
+        mission_ids = [int(x) for x in args.missions.split(",") if x.strip()]
+        weights = [float(x) for x in args.weights.split(",")] if args.weights else [1.0] * len(mission_ids)
+    except ValueError:
+        raise CliError("--missions and --weights take comma-separated numbers") from None
+    if len(weights) != len(mission_ids):
+        raise CliError("give one weight per mission")
+    limits = {kind: getattr(args, f"max_{kind}") for kind in ("batteries", "escs", "motors", "propellers")}
+    try:
+        data = FleetPlanCreate(
+            name=args.name,
+            metric=args.metric,
+            one_battery=args.one_battery,
+            stocking_cost=args.stocking_cost,
+            candidates_per_mission=args.candidates,
+            max_part_numbers=limits,  # type: ignore[arg-type]
+            missions=[
+                {"mission_id": m, "weight": w}  # type: ignore[misc]
+                for m, w in zip(mission_ids, weights, strict=True)
+            ],
+        )
+    except ValidationError as exc:
+        from server.services._validation import field_errors
+
+        raise CliError("; ".join(f"{e.field}: {e.message}" for e in field_errors(exc))) from None
+    factory = _sessionmaker(settings)
+    with transaction(factory) as session:
+        first = session.get(Mission, mission_ids[0]) if mission_ids else None
+        if first is None:
+            raise CliError(f"no mission with id {mission_ids[0] if mission_ids else '?'}")
+        team_id = first.team_id
+        plan_id = fleet.start(session, team_id=team_id, user_id=None, data=data).id
+    fleet.run(factory, plan_id)
+    with factory() as session:
+        doc = fleet.status(fleet.get(session, team_id=team_id, plan_id=plan_id))
+    if args.json:
+        json.dump(doc, sys.stdout, indent=2, default=str)
+        sys.stdout.write("\n")
+        return 0 if doc["status"] == "done" else 1
+    if doc["status"] != "done":
+        raise CliError(f"fleet plan {plan_id} {doc['status']}: {doc['error'] or ''}")
+    result = doc["result"]
+    if result["status"] == "infeasible":
+        print(f"fleet plan {plan_id}: no shared plan exists. {result['infeasibility']['message']}")
+        return 0
+    names = result.get("mission_names", {})
+    print(
+        f"fleet plan {plan_id}: objective {result['objective']:.6g} ({doc['metric']}), "
+        f"{result['part_numbers']} part numbers stocked, status {result['status']}"
+    )
+    for a in result["assignments"]:
+        print(
+            f"  {names.get(str(a['mission_id']), a['mission_id'])}: pack {a['battery_id']} x{a['packs_in_parallel']}, "
+            f"ESC {a['esc_id']}, motor {a['motor_id']}, prop {a['propeller_id']}: {a['metric_value']:.4g} "
+            f"(+{a['loss_vs_own_best']:.3g} vs its own best)"
+        )
+    for kind, ids in result["stocked"].items():
+        print(f"  stock {kind}: {', '.join(str(i) for i in ids)}")
+    print("  trade-off: " + ", ".join(f"{p['part_numbers']} parts -> {p['objective']:.4g}" for p in doc["tradeoff"]))
     return 0
 
 
@@ -369,8 +460,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--team", help="team whose saved parts ids refer to")
     p = add("rank", cmd_rank, "rank every power system of the team's library for a mission")
     p.add_argument("--mission", type=int, required=True, help="mission id")
-    p.add_argument("--objective", default="cruise_power",
-                   choices=["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
+    p.add_argument(
+        "--objective", default="cruise_power", choices=["cruise_power", "endurance", "specific_thrust", "mass", "cost"]
+    )
     p.add_argument("--top", type=int, default=50, help="candidates to refine and list (1-500)")
     p.add_argument("--json", action="store_true", help="print the status and results as JSON")
     p = add("import-bench", cmd_import_bench, "import a bench-run CSV and calibrate its parts")
@@ -394,6 +486,17 @@ def build_parser() -> argparse.ArgumentParser:
     p = add("import", cmd_import, "add a library JSON file to a team (all or nothing)")
     p.add_argument("file")
     p.add_argument("--team", required=True)
+    p = add("fleet-plan", cmd_fleet_plan, "choose the parts a fleet stocks so every mission still flies well")
+    p.add_argument("--missions", required=True, help="comma-separated mission ids")
+    p.add_argument("--weights", help="comma-separated weights (e.g. airframes x flight hours), one per mission")
+    p.add_argument("--one-battery", action="store_true", help="the whole fleet uses one battery part number")
+    p.add_argument("--metric", default="cruise_energy", choices=["cruise_energy", "endurance_margin"])
+    p.add_argument("--stocking-cost", type=float, default=0.0, help="per stocked part number, in the metric's units")
+    p.add_argument("--candidates", type=int, default=300, help="top K candidates of each mission")
+    for kind in ("batteries", "escs", "motors", "propellers"):
+        p.add_argument(f"--max-{kind}", type=int, default=None, help=f"at most this many {kind} part numbers")
+    p.add_argument("--name", default="Fleet plan")
+    p.add_argument("--json", action="store_true")
     add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
     return parser
 

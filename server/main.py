@@ -16,7 +16,7 @@ from server.config import REPO_ROOT, Settings, get_settings
 from server.db import make_engine, make_sessionmaker
 from server.pages import page_router
 from server.pages._render import make_templates
-from server.services import rankings
+from server.services import fleet, rankings
 
 WEB = REPO_ROOT / "web"
 
@@ -33,6 +33,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         # Ranking jobs run outside the request in worker threads (numpy releases the GIL while it computes).
         app.state.jobs = ThreadPoolExecutor(max_workers=settings.ranking_workers, thread_name_prefix="ranking")
         rankings.recover(app.state.sessionmaker, lambda job: app.state.jobs.submit(job))
+        fleet.recover(app.state.sessionmaker, lambda job: app.state.jobs.submit(job))
         yield
         app.state.jobs.shutdown(wait=True, cancel_futures=True)
         engine.dispose()

@@ -2,7 +2,7 @@
 
 from fastapi import APIRouter
 
-from server.api import bench_runs, exchange, missions, parts, predict, rankings, shortlists, team
+from server.api import bench_runs, exchange, fleet, missions, parts, predict, rankings, shortlists, team
 
 api_router = APIRouter(prefix="/api/v1")
 api_router.include_router(parts.router)
@@ -13,3 +13,4 @@ api_router.include_router(bench_runs.router)
 api_router.include_router(predict.router)
 api_router.include_router(rankings.router)
 api_router.include_router(shortlists.router)
+api_router.include_router(fleet.router)

@@ -2,7 +2,7 @@
 
 from fastapi import APIRouter
 
-from server.pages import auth, bench_runs, home, missions, parts, predict, rankings, shortlists, team
+from server.pages import auth, bench_runs, fleet, home, missions, parts, predict, rankings, shortlists, team
 
 page_router = APIRouter(include_in_schema=False)
 page_router.include_router(auth.router)
@@ -13,4 +13,5 @@ page_router.include_router(bench_runs.router)
 page_router.include_router(predict.router)
 page_router.include_router(rankings.router)
 page_router.include_router(shortlists.router)
+page_router.include_router(fleet.router)
 page_router.include_router(team.router)

@@ -103,6 +103,10 @@ def two_teams(app: FastAPI, client: TestClient) -> tuple[TeamFixture, TeamFixtur
     for _ in range(400):
         if client.get(f"/api/v1/rankings/{ids['ranking_id']}", headers=h).json()["status"] != "queued":
             break
+    plan = client.post("/api/v1/fleet-plans", json={"name": SECRET_NAME, "missions": [
+        {"mission_id": ids["mission_id"]}], "candidates_per_mission": 5}, headers=h)
+    assert plan.status_code == 202, plan.text
+    ids["plan_id"] = plan.json()["id"]
     return alpha, beta, ids
 
 

@@ -123,7 +123,23 @@
       options: { scales: { x: { title: { display: true, text: "thrust [N]" } }, y: { title: { display: true, text: "residual [%]" } } } } });
   }
 
-  function all() { predictCharts(); compareCharts(); paretoChart(); benchCharts(); }
+  function tradeoffChart() {
+    const node = document.getElementById("tradeoff-chart-data");
+    if (!node) return;
+    const points = JSON.parse(node.textContent || "[]");
+    draw("chart-tradeoff", { type: "scatter", data: { datasets: [{ label: "best plan", showLine: true, stepped: false,
+      data: points.map((p) => ({ x: p.part_numbers, y: p.objective })), borderColor: PALETTE[0], backgroundColor: PALETTE[0], pointRadius: 6 }] },
+      options: { onClick: (event, elements) => {
+          if (!elements.length) return;
+          const n = points[elements[0].index].part_numbers;
+          const target = document.getElementById("tradeoff-" + n);
+          if (target) { target.open = true; target.scrollIntoView({ behavior: "smooth", block: "center" }); }
+        },
+        scales: { x: { title: { display: true, text: "part numbers stocked" }, ticks: { stepSize: 1 } },
+                  y: { title: { display: true, text: "fleet objective" } } } } });
+  }
+
+  function all() { predictCharts(); compareCharts(); paretoChart(); benchCharts(); tradeoffChart(); }
   document.addEventListener("DOMContentLoaded", all);
   document.addEventListener("htmx:afterSettle", all);
   window.liftmatchCharts = { draw: draw, palette: PALETTE, charts: charts };

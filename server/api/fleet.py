@@ -1,0 +1,48 @@
+"""JSON routes for fleet plans: start (202), status with result and trade-off curve, bill of materials."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import APIRouter, Request, Response
+
+from server.deps import CallerDep, IdPath, SessionDep, WriterDep
+from server.schemas.fleet import FleetPlanCreate
+from server.services import fleet as fleet_service
+
+router = APIRouter(prefix="/fleet-plans", tags=["fleet plans"])
+
+
+@router.post("", status_code=202)
+def start_plan(
+    caller: WriterDep, session: SessionDep, request: Request, data: FleetPlanCreate, response: Response
+) -> dict[str, Any]:
+    """Start a fleet plan over several missions; poll the returned id."""
+    row = fleet_service.start(session, team_id=caller.team_id, user_id=caller.user_id, data=data)
+    session.commit()
+    request.app.state.jobs.submit(fleet_service.run, request.app.state.sessionmaker, row.id)
+    response.headers["Location"] = f"/api/v1/fleet-plans/{row.id}"
+    return {"id": row.id, "status": row.status}
+
+
+@router.get("")
+def list_plans(caller: CallerDep, session: SessionDep) -> list[dict[str, Any]]:
+    """The team's fleet plans (newest first)."""
+    return [fleet_service.status(p) for p in fleet_service.list_all(session, team_id=caller.team_id)]
+
+
+@router.get("/{plan_id}")
+def read_plan(caller: CallerDep, session: SessionDep, plan_id: IdPath) -> dict[str, Any]:
+    """Status, the optimal plan (objective, assignments, stocked part ids) and the trade-off curve."""
+    return fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))
+
+
+@router.get("/{plan_id}/bom.csv", response_class=Response, responses={200: {"content": {"text/csv": {}}}})
+def plan_bom(caller: CallerDep, session: SessionDep, plan_id: IdPath) -> Response:
+    """Every part number the fleet needs, with quantities over each mission's airframes and costs."""
+    text = fleet_service.bom_csv(session, team_id=caller.team_id, plan_id=plan_id)
+    return Response(
+        text,
+        media_type="text/csv; charset=utf-8",
+        headers={"Content-Disposition": f'attachment; filename="fleet-plan-{plan_id}-bom.csv"'},
+    )

@@ -1,0 +1,102 @@
+"""Fleet plan pages: choose missions and weights, run with progress, assignments, stocked parts, trade-off."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import APIRouter, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from pydantic import ValidationError
+
+from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
+from server.errors import DomainError
+from server.pages._render import form_values, render
+from server.schemas.fleet import FleetPlanCreate
+from server.schemas.shortlists import EntryCreate
+from server.services import fleet as fleet_service
+from server.services import missions as missions_service
+from server.services import shortlists as shortlists_service
+from server.services._validation import field_errors
+
+router = APIRouter(prefix="/fleet-plans")
+KINDS = ("batteries", "escs", "motors", "propellers")
+
+
+def _index(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
+    ctx: dict[str, Any] = {"caller": caller, "nav": "fleet", "kinds": KINDS,
+                           "missions": missions_service.list_missions(session, team_id=caller.team_id),
+                           "plans": [fleet_service.status(p) for p in fleet_service.list_all(session,
+                                                                                             team_id=caller.team_id)],
+                           "errors": [], "values": {}}
+    ctx.update(extra)
+    return render(request, "pages/fleet_plans.html", ctx, status_code=status_code)
+
+
+@router.get("", response_class=HTMLResponse)
+def fleet_page(request: Request, caller: PageCaller, session: SessionDep) -> HTMLResponse:
+    return _index(request, session, caller)
+
+
+def build_request(values: dict[str, str]) -> dict[str, Any]:
+    """Form fields → a FleetPlanCreate body (missions are the ticked ``use_<id>`` boxes)."""
+    missions = []
+    for key in values:
+        if key.startswith("use_"):
+            mid = key.removeprefix("use_")
+            missions.append({"mission_id": mid, "weight": values.get(f"weight_{mid}") or 1,
+                             "airframes": values.get(f"airframes_{mid}") or 1})
+    return {"name": values.get("name") or "Fleet plan", "missions": missions,
+            "one_battery": values.get("one_battery") == "1", "metric": values.get("metric", "cruise_energy"),
+            "stocking_cost": values.get("stocking_cost") or 0,
+            "candidates_per_mission": values.get("candidates_per_mission") or 300,
+            "max_part_numbers": {k: values.get(f"max_{k}") or None for k in KINDS}}
+
+
+@router.post("", response_class=HTMLResponse)
+async def start(request: Request, caller: PageWriter, session: SessionDep) -> Response:
+    values = form_values(await request.form())
+    try:
+        data = FleetPlanCreate.model_validate(build_request(values))
+        row = fleet_service.start(session, team_id=caller.team_id, user_id=caller.user_id, data=data)
+        session.commit()
+    except (ValidationError, DomainError) as exc:
+        session.rollback()
+        errors = ([f"{e.field}: {e.message}" for e in field_errors(exc)] if isinstance(exc, ValidationError)
+                  else [f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail])
+        return _index(request, session, caller, 422, errors=errors, values=values)
+    request.app.state.jobs.submit(fleet_service.run, request.app.state.sessionmaker, row.id)
+    return RedirectResponse(f"/fleet-plans/{row.id}", status_code=303)
+
+
+def _names(session: Any, caller: Caller, plan: dict[str, Any]) -> dict[str, dict[int, Any]]:
+    from server.services.fleet import _parts_by_id
+
+    return _parts_by_id(session, caller.team_id)
+
+
+@router.get("/{plan_id}", response_class=HTMLResponse)
+def plan_page(request: Request, caller: PageCaller, session: SessionDep, plan_id: IdPath) -> HTMLResponse:
+    doc = fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))
+    ctx = {"caller": caller, "nav": "fleet", "plan": doc, "kinds": KINDS,
+           "parts": _names(session, caller, doc) if doc["status"] == "done" else {},
+           "mission_names": {m["mission_id"]: m["name"] for m in doc["missions"]},
+           "chart": [{"part_numbers": p["part_numbers"], "objective": p["objective"]} for p in (doc["tradeoff"] or [])]}
+    return render(request, "pages/fleet_plan.html", ctx, block="job")
+
+
+@router.post("/{plan_id}/shortlist", response_class=HTMLResponse)
+def to_shortlists(caller: PageWriter, session: SessionDep, plan_id: IdPath) -> Response:
+    """One shortlist per mission holding the configuration the plan assigns to it."""
+    doc = fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))
+    result = doc["result"] or {}
+    for a in result.get("assignments", []):
+        name = f"{doc['name']}: {next(m['name'] for m in doc['missions'] if m['mission_id'] == a['mission_id'])}"
+        shortlist = shortlists_service.create(session, team_id=caller.team_id, user_id=caller.user_id,
+                                              name=name[:120], mission_id=a["mission_id"])
+        shortlists_service.add_entry(session, team_id=caller.team_id, user_id=caller.user_id,
+                                     shortlist_id=shortlist.id, data=EntryCreate(
+                                         battery_id=a["battery_id"], esc_id=a["esc_id"], motor_id=a["motor_id"],
+                                         propeller_id=a["propeller_id"], packs_in_parallel=a["packs_in_parallel"],
+                                         note=f"from fleet plan {plan_id}"))
+    session.commit()
+    return RedirectResponse("/shortlists", status_code=303)

@@ -1,0 +1,264 @@
+"""Fleet plans: rank each mission, then choose the fewest shared parts that still fly every mission well."""
+
+from __future__ import annotations
+
+import csv
+import io
+import logging
+import math
+import time
+from datetime import UTC, datetime
+from typing import Any
+
+from sqlalchemy import select, update
+from sqlalchemy.orm import Session, sessionmaker
+
+from server.errors import FieldError, InvalidInput, NotFound
+from server.models import PART_MODELS, FleetPlan
+from server.schemas.fleet import FleetPlanCreate
+from server.selection import ENGINE_VERSION, rank
+from server.selection.fleet import FleetOptions, MissionCandidates, optimise, tradeoff
+from server.services import missions as missions_service
+from server.services.ranking_inputs import engine_inputs, snapshot
+
+log = logging.getLogger("liftmatch.fleet")
+SOLVE_TIME_LIMIT_S = 20.0  # per MILP; a point that hits it says so (status "limit_reached" and its gap)
+OBJECTIVE_FOR_METRIC = {"cruise_energy": "cruise_power", "endurance_margin": "endurance"}
+KIND_SINGULAR = {"batteries": "battery", "escs": "esc", "motors": "motor", "propellers": "propeller"}
+
+
+def start(session: Session, *, team_id: int, user_id: int | None, data: FleetPlanCreate) -> FleetPlan:
+    """Snapshot every mission (and the team's parts) and store a queued plan."""
+    errors = []
+    snaps = []
+    for i, m in enumerate(data.missions):
+        try:
+            mission = missions_service.get_mission(session, team_id=team_id, mission_id=m.mission_id)
+        except NotFound:
+            errors.append(FieldError(f"missions.{i}.mission_id", f"no mission with id {m.mission_id}"))
+            continue
+        snaps.append(snapshot(session, team_id=team_id, mission=mission) | m.model_dump())
+    if errors:
+        raise InvalidInput("Unknown missions", errors)
+    inputs = {"missions": snaps, **data.model_dump(exclude={"missions", "name"})}
+    row = FleetPlan(
+        team_id=team_id,
+        name=data.name,
+        status="queued",
+        inputs=inputs,
+        engine_version=ENGINE_VERSION,
+        created_by_id=user_id,
+    )
+    session.add(row)
+    session.flush()
+    return row
+
+
+def _set(factory: sessionmaker[Session], plan_id: int, **values: Any) -> None:
+    with factory() as s:
+        s.execute(update(FleetPlan).where(FleetPlan.id == plan_id).values(**values))
+        s.commit()
+
+
+def run(factory: sessionmaker[Session], plan_id: int) -> None:
+    """Rank every mission from its snapshot, then optimise the plan and its trade-off curve."""
+    with factory() as session:
+        plan = session.get(FleetPlan, plan_id)
+        if plan is None or plan.status != "queued":
+            return
+        inputs = plan.inputs
+    _set(factory, plan_id, status="running", started_at=datetime.now(UTC))
+    started = time.monotonic()
+    try:
+        candidates, names, timings = [], {}, {}
+        count = len(inputs["missions"])
+        for i, snap in enumerate(inputs["missions"]):
+            library, mission = engine_inputs(snap)
+            outcome = rank(
+                library,
+                mission,
+                objective=OBJECTIVE_FOR_METRIC[inputs["metric"]],
+                top_n=inputs["candidates_per_mission"],
+            )
+            names[snap["mission"]["id"]] = snap["mission"]["name"]
+            if not outcome.top:
+                _set(
+                    factory,
+                    plan_id,
+                    status="done",
+                    progress=1.0,
+                    finished_at=datetime.now(UTC),
+                    result={
+                        "status": "infeasible",
+                        "objective": None,
+                        "assignments": [],
+                        "stocked": {},
+                        "infeasibility": {
+                            "message": f"mission {snap['mission']['name']!r} has no feasible power "
+                            "system in the library; see its ranking for the reasons",
+                            "conflicting_missions": [snap["mission"]["id"]],
+                            "binding": ["mission"],
+                        },
+                    },
+                    tradeoff=[],
+                )
+                return
+            candidates.append(
+                MissionCandidates.from_rows(
+                    snap["mission"]["id"],
+                    snap["weight"],
+                    [r.as_dict() for r in outcome.top],
+                    min_endurance_min=snap["mission"]["min_endurance_min"],
+                )
+            )
+            _set(factory, plan_id, progress=0.7 * (i + 1) / count)
+        timings["rank_s"] = time.monotonic() - started
+        options = FleetOptions(
+            metric=inputs["metric"],
+            one_battery=inputs["one_battery"],
+            max_part_numbers={k: v for k, v in inputs["max_part_numbers"].items() if v},
+            stocking_cost=inputs["stocking_cost"],
+            time_limit_s=SOLVE_TIME_LIMIT_S,
+        )
+        t = time.monotonic()
+        result = optimise(candidates, options).as_dict()
+        timings["optimise_s"] = time.monotonic() - t
+        _set(factory, plan_id, progress=0.8)
+        t = time.monotonic()
+        curve = [p.as_dict() for p in tradeoff(candidates, options)] if result["status"] != "infeasible" else []
+        timings["tradeoff_s"] = time.monotonic() - t
+        timings["job_s"] = time.monotonic() - started
+        result["mission_names"] = {str(k): v for k, v in names.items()}
+        _set(
+            factory,
+            plan_id,
+            status="done",
+            progress=1.0,
+            result=_json(result),
+            tradeoff=_json(curve),
+            timings=timings,
+            finished_at=datetime.now(UTC),
+        )
+    except Exception as exc:  # a failed job records why; it never takes the server down
+        log.exception("fleet plan %s failed", plan_id)
+        _set(factory, plan_id, status="failed", error=f"{type(exc).__name__}: {exc}", finished_at=datetime.now(UTC))
+
+
+def _json(value: Any) -> Any:
+    """Plain JSON (NaN/inf become null; numpy scalars become numbers; keys become strings)."""
+    if isinstance(value, dict):
+        return {str(k): _json(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_json(v) for v in value]
+    if hasattr(value, "item"):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def get(session: Session, *, team_id: int, plan_id: int) -> FleetPlan:
+    row = session.scalar(select(FleetPlan).where(FleetPlan.id == plan_id, FleetPlan.team_id == team_id))
+    if row is None:
+        raise NotFound(f"No fleet plan with id {plan_id}")
+    return row
+
+
+def list_all(session: Session, *, team_id: int) -> list[FleetPlan]:
+    return list(
+        session.scalars(select(FleetPlan).where(FleetPlan.team_id == team_id).order_by(FleetPlan.id.desc()).limit(100))
+    )
+
+
+def status(row: FleetPlan) -> dict[str, Any]:
+    """The API document: status, result {objective, assignments, stocked}, trade-off [{part_numbers, objective}]."""
+    return {
+        "id": row.id,
+        "name": row.name,
+        "status": row.status,
+        "progress": row.progress,
+        "metric": row.inputs["metric"],
+        "engine_version": row.engine_version,
+        "result": row.result,
+        "tradeoff": row.tradeoff,
+        "timings": row.timings or {},
+        "error": row.error or None,
+        "missions": [
+            {
+                "mission_id": m["mission"]["id"],
+                "name": m["mission"]["name"],
+                "weight": m["weight"],
+                "airframes": m["airframes"],
+            }
+            for m in row.inputs["missions"]
+        ],
+        "created_at": row.created_at,
+        "finished_at": row.finished_at,
+    }
+
+
+def _parts_by_id(session: Session, team_id: int) -> dict[str, dict[int, Any]]:
+    return {
+        kind: {p.id: p for p in session.scalars(select(model).where(model.team_id == team_id))}
+        for kind, model in PART_MODELS.items()
+    }
+
+
+def bom_csv(session: Session, *, team_id: int, plan_id: int) -> str:
+    """The whole fleet's parts: per part number, quantity over every mission's airframes, unit and total cost."""
+    plan = get(session, team_id=team_id, plan_id=plan_id)
+    if plan.status != "done" or not plan.result or not plan.result.get("assignments"):
+        raise InvalidInput("No plan yet", [FieldError("status", f"the plan is {plan.status} without an assignment")])
+    parts = _parts_by_id(session, team_id)
+    snaps = {m["mission"]["id"]: m for m in plan.inputs["missions"]}
+    totals: dict[tuple[str, int], dict[str, Any]] = {}
+    for a in plan.result["assignments"]:
+        snap = snaps[a["mission_id"]]
+        per_airframe = {
+            "batteries": a["packs_in_parallel"],
+            "escs": snap["airframe"]["rotor_count"],
+            "motors": snap["airframe"]["rotor_count"],
+            "propellers": snap["airframe"]["rotor_count"],
+        }
+        for kind, count in per_airframe.items():
+            part_id = a[f"{KIND_SINGULAR[kind]}_id"]
+            entry = totals.setdefault((kind, part_id), {"quantity": 0, "missions": []})
+            entry["quantity"] += count * snap["airframes"]
+            entry["missions"].append(snap["mission"]["name"])
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow(
+        ["kind", "name", "maker", "part_number", "quantity", "unit_cost", "currency", "total_cost", "missions"]
+    )
+    for (kind, part_id), entry in sorted(totals.items(), key=lambda kv: (list(PART_MODELS).index(kv[0][0]), kv[0][1])):
+        part = parts[kind].get(part_id)
+        if part is None:
+            continue
+        total = "" if part.unit_cost is None else round(part.unit_cost * entry["quantity"], 2)
+        writer.writerow(
+            [
+                kind,
+                part.name,
+                part.maker,
+                part.part_number,
+                entry["quantity"],
+                "" if part.unit_cost is None else part.unit_cost,
+                part.currency,
+                total,
+                "; ".join(dict.fromkeys(entry["missions"])),
+            ]
+        )
+    return out.getvalue()
+
+
+def recover(factory: sessionmaker[Session], submit: Any) -> None:
+    """At start-up: requeue plans that never started; fail those a stopped process left running."""
+    with factory() as s, s.begin():
+        s.execute(
+            update(FleetPlan)
+            .where(FleetPlan.status == "running")
+            .values(status="failed", error="interrupted by a server restart", finished_at=datetime.now(UTC))
+        )
+        queued = list(s.scalars(select(FleetPlan.id).where(FleetPlan.status == "queued")))
+    for plan_id in queued:
+        submit(lambda pid=plan_id: run(factory, pid))

@@ -1,0 +1,104 @@
+"""Fleet plans API on the demo library: a plan over three airframes, its trade-off curve, BOM, bad input."""
+
+from __future__ import annotations
+
+import csv
+import io
+import time
+from typing import Any
+
+import pytest
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+from sqlalchemy import select
+
+from server.db import transaction
+from server.models import Mission, Team
+from server.services import accounts, seed
+from tests.factories import make_team
+
+Headers = dict[str, str]
+
+
+@pytest.fixture
+def demo(app: FastAPI, client: TestClient) -> tuple[Headers, dict[str, int]]:
+    with transaction(app.state.sessionmaker) as session:
+        seed.load_demo(session, settings=app.state.settings)
+        team = session.scalar(select(Team).where(Team.name == "Northfold Survey"))
+        assert team is not None
+        _, key = accounts.create_api_key(session, team_id=team.id, scope="write")
+        missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}
+    return {"Authorization": f"Bearer {key}"}, missions
+
+
+def wait(client: TestClient, headers: Headers, plan_id: int) -> dict[str, Any]:
+    deadline = time.monotonic() + 120
+    while True:
+        doc: dict[str, Any] = client.get(f"/api/v1/fleet-plans/{plan_id}", headers=headers).json()
+        if doc["status"] not in ("queued", "running"):
+            return doc
+        assert time.monotonic() < deadline
+        time.sleep(0.05)
+
+
+def body(missions: dict[str, int], **over: Any) -> dict[str, Any]:
+    return {"name": "Demo fleet", "missions": [
+        {"mission_id": missions["Q4 mapping survey"], "weight": 300, "airframes": 3},
+        {"mission_id": missions["H6 structure inspection"], "weight": 120, "airframes": 2},
+        {"mission_id": missions["V1 corridor cruise"], "weight": 200, "airframes": 1}],
+        "candidates_per_mission": 60, **over}
+
+
+def test_demo_fleet_plan_tradeoff_and_bom(client: TestClient, demo: Any) -> None:
+    headers, missions = demo
+    started = client.post("/api/v1/fleet-plans", json=body(missions), headers=headers)
+    assert started.status_code == 202 and set(started.json()) >= {"id", "status"}
+    doc = wait(client, headers, started.json()["id"])
+    assert doc["status"] == "done", doc
+    result = doc["result"]
+    assert result["status"] == "optimal" and len(result["assignments"]) == 3
+    for a in result["assignments"]:
+        assert set(a) >= {"mission_id", "battery_id", "esc_id", "motor_id", "propeller_id", "packs_in_parallel",
+                          "metric_value", "loss_vs_own_best"}
+        assert a["loss_vs_own_best"] >= 0
+    assert set(result["stocked"]) == {"batteries", "escs", "motors", "propellers"}
+    # contract: objective = Σ weight × cruise power (+ stocking cost, 0 here)
+    weights = {m["mission_id"]: m["weight"] for m in doc["missions"]}
+    expected = sum(weights[a["mission_id"]] * a["cruise_power_w"] for a in result["assignments"])
+    assert result["objective"] == pytest.approx(expected, rel=1e-9)
+    curve = doc["tradeoff"]
+    assert curve and all(set(p) >= {"part_numbers", "objective"} for p in curve)
+    objectives = [p["objective"] for p in curve]
+    assert objectives == sorted(objectives, reverse=True)  # more part numbers never cost more power
+    assert curve[-1]["objective"] == pytest.approx(result["fleet_metric"], rel=1e-9)
+    bom = list(csv.DictReader(io.StringIO(client.get(f"/api/v1/fleet-plans/{started.json()['id']}/bom.csv",
+                                                     headers=headers).text)))
+    motors = [r for r in bom if r["kind"] == "motors"]
+    # by hand: quad 4 rotors × 3 airframes + hexa 6 × 2 + cruiser 1 × 1 motors in all
+    assert sum(int(r["quantity"]) for r in motors) == 4 * 3 + 6 * 2 + 1 * 1
+
+
+def test_one_battery_for_quad_hexa_and_cruiser_explains_the_conflict(client: TestClient, demo: Any) -> None:
+    headers, missions = demo
+    doc = wait(client, headers, client.post("/api/v1/fleet-plans", json=body(missions, one_battery=True),
+                                            headers=headers).json()["id"])
+    result = doc["result"]
+    if result["status"] == "infeasible":
+        explanation = result["infeasibility"]
+        assert "one_battery" in explanation["binding"] and len(explanation["conflicting_missions"]) >= 2
+    else:  # a common pack exists: the plan must then stock exactly one battery
+        assert len(result["stocked"]["batteries"]) == 1
+
+
+def test_bad_input(client: TestClient, demo: Any, app: FastAPI) -> None:
+    headers, missions = demo
+    assert client.post("/api/v1/fleet-plans", json={"missions": []}, headers=headers).status_code == 422
+    assert client.post("/api/v1/fleet-plans", json={"missions": [{"mission_id": 99999}]},
+                       headers=headers).status_code == 422
+    zero_k = client.post("/api/v1/fleet-plans", json=body(missions, candidates_per_mission=0), headers=headers)
+    assert zero_k.status_code == 422 and zero_k.json()["errors"][0]["field"] == "candidates_per_mission"
+    other = make_team(app, "Elsewhere")
+    foreign = client.post("/api/v1/fleet-plans", json=body(missions), headers=other.headers())
+    assert foreign.status_code == 422 and foreign.json()["errors"][0]["field"] == "missions.0.mission_id"
+    twice = {"missions": [{"mission_id": missions["Q4 mapping survey"]}] * 2}
+    assert client.post("/api/v1/fleet-plans", json=twice, headers=headers).status_code == 422
