@@ -33,7 +33,7 @@ import numpy as np
 
 from server.physics._types import STANDARD_GRAVITY_M_S2
 
-from .evaluate import Batch, Cruise, FullThrottle, cruise_point, full_throttle
+from .evaluate import Batch, Cruise, FullThrottle, cruise_point, full_throttle_points
 from .library import MissionSpec
 from .propmodel import PropModel
 
@@ -79,8 +79,7 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
     """
     n_r = float(mission.rotor_count)
     cruise = cruise_point(batch, model, mission)
-    low = full_throttle(batch, model, mission, batch.voc_low_v)
-    full = full_throttle(batch, model, mission, batch.voc_full_v)
+    low, full = full_throttle_points(batch, model, mission, (batch.voc_low_v, batch.voc_full_v))
     shape = np.broadcast_shapes(batch.shape, cruise.duty.shape)
     mass = np.broadcast_to(batch.mass_kg, shape)
     with np.errstate(invalid="ignore", divide="ignore"):

@@ -10,6 +10,8 @@ the same equations and no root bracketing:
   physics.md §5 (``P_extra = P_rip + P_sw + P_dt + P_cap + P_pwm`` at ``d = V_m / V``). Newton's method from the
   high root of the quadratic without the duty-dependent terms converges in a few steps.
 - **Full throttle** (d = 1, no P_extra): ``V_oc - E - (R + R_on + N R_pack) I = 0`` on the propeller segment.
+  :func:`full_throttle_points` solves the low and full states of charge in one call and, on a cube, each distinct
+  ESC R_on once (ESCs without loss data share the default).
 
 Every array argument broadcasts, so a block of candidates laid out as (pack configuration, ESC, motor,
 propeller) axes computes what depends on fewer axes once. Elementwise arithmetic only: the result of a
@@ -18,7 +20,7 @@ candidate does not depend on which other candidates share its chunk.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 
 import numpy as np
 
@@ -117,6 +119,31 @@ def full_throttle(batch: Batch, model: PropModel, mission: MissionSpec, open_cir
                         motor_current_a=current, bus_voltage_v=open_circuit_v - sag * current)
 
 
+def full_throttle_points(batch: Batch, model: PropModel, mission: MissionSpec,
+                         open_circuit_v: tuple[np.ndarray, ...]) -> list[FullThrottle]:
+    """Full-throttle points at several open-circuit voltages (e.g. low and full state of charge), solved together.
+
+    The full-throttle point depends on the ESC only through R_on, so on a cube whose ESC axis (axis 1) holds
+    repeated R_on values (every ESC without loss data has the default) each distinct R_on is solved once and the
+    results are gathered back along that axis: the arithmetic of every candidate is unchanged.
+    """
+    r_on = np.asarray(batch.r_on_ohm)
+    inverse = None
+    if r_on.ndim == 4 and r_on.shape[1] > 1 and r_on.size == r_on.shape[1]:
+        distinct, inv = np.unique(r_on.ravel(), return_inverse=True)
+        if distinct.size < r_on.shape[1]:
+            batch = replace(batch, r_on_ohm=distinct.reshape(1, -1, 1, 1))
+            inverse = inv.ravel()
+    ft = full_throttle(batch, model, mission, np.stack(np.broadcast_arrays(*open_circuit_v)))
+    values = {}
+    for f in fields(ft):
+        value = np.asarray(getattr(ft, f.name))
+        if inverse is not None:
+            value = np.take(value, inverse, axis=value.ndim - 3)
+        values[f.name] = value
+    return [FullThrottle(**{name: value[i] for name, value in values.items()}) for i in range(len(open_circuit_v))]
+
+
 def _extra_loss(bus_v: np.ndarray, motor_v: np.ndarray, coefs: tuple[np.ndarray, ...]) -> np.ndarray:
     """P_extra at bus voltage V for a motor voltage V_m (duty ``V_m / V < 1``). [W]"""
     c_rip, c_sw, c_dt, c_cap, c_pwm = coefs
@@ -156,16 +183,36 @@ def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise
         b = voc - load * c_sw
         c = load * (motor_v * current + c_dt)
         bus = 0.5 * (b + np.sqrt(b * b - 4.0 * c))
-        for _ in range(BUS_MAX_ITER):
-            u = 1.0 - motor_v / bus
-            extra = (c_rip * u + c_cap * (1.0 - u) + c_pwm) * u + c_sw * bus + c_dt
-            h = bus * (bus - voc) + load * (motor_v * current + extra)
-            dextra = c_sw + (2.0 * c_rip * u + c_cap * (1.0 - 2.0 * u) + c_pwm) * (motor_v / (bus * bus))
-            step = h / (2.0 * bus - voc + load * dextra)
-            bus = bus - step
-            worst = np.nanmax(np.abs(step) / bus, initial=0.0) if bus.size else 0.0
-            if not worst > BUS_RTOL:
-                break
+        # h(V) = V (V - b) + c + N R_pack (A u^2 + B u), u = 1 - V_m / V, with A = c_rip - c_cap and
+        # B = c_cap + c_pwm (the same P_extra as _extra_loss), so h'(V) = 2 V - b + N R_pack (2 A u + B) V_m / V^2.
+        la, lb = load * (c_rip - c_cap), load * (c_cap + c_pwm)
+        bus = np.array(np.broadcast_to(bus, np.broadcast_shapes(np.shape(bus), np.shape(la), np.shape(motor_v))))
+        if bus.size:
+            ratio, u, t, h, dh = (np.empty_like(bus) for _ in range(5))
+            for _ in range(BUS_MAX_ITER):
+                np.divide(motor_v, bus, out=ratio)
+                np.subtract(1.0, ratio, out=u)
+                np.multiply(la, u, out=t)
+                t += lb  # A' u + B'
+                np.subtract(bus, b, out=h)
+                h *= bus
+                h += c
+                np.multiply(u, t, out=dh)
+                h += dh  # h(V)
+                np.multiply(la, u, out=dh)
+                dh += t  # 2 A' u + B'
+                dh *= ratio
+                dh /= bus
+                dh += bus
+                dh += bus
+                dh -= b  # h'(V)
+                h /= dh  # Newton step
+                bus -= h
+                np.abs(h, out=h)
+                h /= bus
+                worst = np.nanmax(h, initial=0.0)
+                if not worst > BUS_RTOL:
+                    break
         rounding = FULL_THROTTLE_SLACK_RTOL * voc
         feasible = np.isfinite(slack) & (slack >= -rounding)
         at_full = feasible & (slack <= rounding)
@@ -188,10 +235,17 @@ def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise
 def _saturate(cruise: Cruise, jump: np.ndarray, batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise:
     """Replace the candidates in the loss-step band just below d = 1 by their full-throttle point."""
     shape = np.broadcast_shapes(jump.shape, cruise.duty.shape)
-    jump = np.broadcast_to(jump, shape)
-    sub = batch.take(jump)
+    where = np.nonzero(np.broadcast_to(jump, shape))
+    sub = Batch(**{f.name: np.broadcast_to(getattr(batch, f.name), shape)[where] for f in fields(batch)})
     ft = full_throttle(sub, model, mission, sub.voc_cruise_v)
-    values = {f.name: np.array(np.broadcast_to(getattr(cruise, f.name), shape)) for f in fields(cruise)}
+    values = {}
+    for f in fields(cruise):
+        value = getattr(cruise, f.name)
+        # The cruise arrays are fresh results of cruise_point: overwrite them in place where they are full-size.
+        if not (isinstance(value, np.ndarray) and value.shape == shape and value.flags.writeable
+                and value.flags.owndata):
+            value = np.array(np.broadcast_to(value, shape))
+        values[f.name] = value
     torque = (ft.motor_current_a - sub.no_load_current_a) / sub.kv_si
     motor_v = ft.bus_voltage_v
     for name, value in (("thrust_n", ft.thrust_n), ("speed", ft.speed), ("omega_rad_s", ft.omega_rad_s),
@@ -199,5 +253,5 @@ def _saturate(cruise: Cruise, jump: np.ndarray, batch: Batch, model: PropModel, 
                         ("bus_voltage_v", ft.bus_voltage_v), ("duty", np.ones_like(motor_v)),
                         ("extra_loss_w", np.zeros_like(motor_v)), ("bus_current_a", ft.motor_current_a),
                         ("reachable", np.isfinite(ft.bus_voltage_v))):
-        values[name][jump] = value
+        values[name][where] = value
     return Cruise(**values)

@@ -61,8 +61,9 @@ def _strongest_first(x: np.ndarray) -> np.ndarray:
         return x
     lo = np.min(np.where(np.isfinite(x), x, np.inf), axis=0)
     hi = np.max(np.where(np.isfinite(x), x, -np.inf), axis=0)
-    span = np.where(hi > lo, hi - lo, 1.0)
-    z = np.where(np.isfinite(x), (x - lo) / span, 2.0)
+    with np.errstate(invalid="ignore"):  # a column without any finite value (e.g. every cost unknown): inf - inf
+        span = np.where(hi > lo, hi - lo, 1.0)
+        z = np.where(np.isfinite(x), (x - lo) / span, 2.0)
     return x[np.argsort(z.sum(axis=1), kind="stable")]
 
 
@@ -72,8 +73,8 @@ def _elites(x: np.ndarray) -> np.ndarray:
     with np.errstate(invalid="ignore"):
         lo = np.nanmin(finite, axis=0, initial=np.inf, where=~np.isnan(finite))
         hi = np.nanmax(finite, axis=0, initial=-np.inf, where=~np.isnan(finite))
-    span = np.where(hi > lo, hi - lo, 1.0)
-    z = np.where(np.isfinite(x), (x - lo) / span, 2.0)
+        span = np.where(hi > lo, hi - lo, 1.0)
+        z = np.where(np.isfinite(x), (x - lo) / span, 2.0)  # a column without any finite value: inf - inf
     return np.unique(np.argmin(z @ _WEIGHTS.T, axis=0))
 
 

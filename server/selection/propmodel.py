@@ -9,7 +9,8 @@ lines ``a + b x``, so within a segment:
 - the full-throttle torque balance is a cubic in rpm (Newton) or a quadratic in n (closed form).
 
 The segment is found without a search per element: the thrust (or the torque-balance residual) at every knot
-is compared with the request, one vectorised comparison per knot, and the comparisons are counted. Every
+is compared with the request, one vectorised comparison per knot, and the comparisons are counted (in a uint8
+counter: adding booleans into an intp array costs more than the comparison itself). Every
 function takes a propeller index array ``q`` that broadcasts with the other arguments, so a block of
 candidates that shares one propeller axis evaluates its per-propeller constants once.
 
@@ -211,9 +212,7 @@ class PropModel:
             else:
                 d = self.diameter_m[q]
                 tau = self.density_kg_m3 * self.airspeed_m_s**2 * d * d / thrust_n  # = J^2 / CT
-        seg = np.zeros(np.shape(tau), dtype=np.intp)
-        for j in range(self.width):
-            seg += tau >= self.thrust_knots[:, j][q]
+        seg = _count_below(tau, self.thrust_knots[q])
         idx = self._flat(q, seg)
         a, b = np.take(self.ct_a, idx), np.take(self.ct_b, idx)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -224,7 +223,8 @@ class PropModel:
                 r_lo, r_hi = np.take(self.seg_root_thrust_lo, idx), np.take(self.seg_root_thrust_hi, idx)
                 guess = lo + (hi - lo) * (np.sqrt(tau) - r_lo) / (r_hi - r_lo)
                 y = np.where(b == 0.0, np.sqrt(tau / a), guess)
-                y = _newton(lambda v: ((a + b * v) * v * v - tau, 2.0 * a * v + 3.0 * b * v * v), y, lo, hi)
+                a2, b3 = 2.0 * a, 3.0 * b
+                y = _newton(lambda v: ((b * v + a) * (v * v) - tau, (b3 * v + a2) * v), y, lo, hi)
             else:
                 # a + b J = J^2 / tau  ->  J^2 - tau b J - tau a = 0, the positive root without cancellation.
                 root = np.sqrt(tau * tau * b * b + 4.0 * tau * a)
@@ -245,22 +245,24 @@ class PropModel:
         beta = self.emf_per_y(kv_si)
         gamma = (resistance_ohm * kv_si) * self.kq[q]
         with np.errstate(invalid="ignore"):
+            # Knot j lies below the root when the torque balance there is still positive:
+            # drive - beta y_j > gamma Q_j  (rpm: residual decreasing in speed; J tables: decreasing in J).
+            shape = np.broadcast_shapes(np.shape(drive), np.shape(gamma))
+            knots = ((drive - beta * self.speed_knots[q, j], gamma * self.torque_knots[q, j])
+                     for j in range(self.width))
             if self.axis == "rpm":
-                seg = np.zeros(np.broadcast_shapes(np.shape(drive), np.shape(gamma)), dtype=np.intp)
-                for j in range(self.width):
-                    seg += (drive - beta * self.speed_knots[:, j][q]) > gamma * self.torque_knots[:, j][q]
+                seg = _count_true((left > right for left, right in knots), shape, self.width)
             else:
-                seg = np.zeros(np.broadcast_shapes(np.shape(drive), np.shape(gamma)), dtype=np.intp)
-                for j in range(self.width):
-                    seg += (drive - beta * self.speed_knots[:, j][q]) <= gamma * self.torque_knots[:, j][q]
+                seg = _count_true((left <= right for left, right in knots), shape, self.width)
         idx = self._flat(q, seg)
         c, d = np.take(self.cp_a, idx), np.take(self.cp_b, idx)
         with np.errstate(invalid="ignore", divide="ignore"):
             if self.axis == "rpm":
                 mid = np.take(self.cp_mid, idx)
                 y = 2.0 * drive / (beta + np.sqrt(beta * beta + 4.0 * gamma * mid * drive))
-                y = _newton(lambda v: (beta * v + gamma * (c + d * v) * v * v - drive,
-                                       beta + gamma * (2.0 * c * v + 3.0 * d * v * v)), y,
+                gc, gd = gamma * c, gamma * d
+                gc2, gd3 = 2.0 * gc, 3.0 * gd
+                y = _newton(lambda v: (((gd * v + gc) * v + beta) * v - drive, (gd3 * v + gc2) * v + beta), y,
                             np.take(self.seg_lo, idx), np.take(self.seg_hi, idx))
             else:
                 # Q ~ c n^2 + d (V/D) n: gamma c n^2 + (beta + gamma d V/D) n - A = 0.
@@ -270,16 +272,42 @@ class PropModel:
         return y, seg
 
 
+def _count_true(tests, shape: tuple[int, ...], n: int) -> np.ndarray:  # type: ignore[no-untyped-def]
+    """Number of true tests (at most ``n``) per element; a uint8 counter is far cheaper than adding booleans
+    to an intp array."""
+    count = np.zeros(shape, dtype=np.uint8 if n < 256 else np.intp)
+    for t in tests:
+        count += t.view(np.uint8) if count.dtype == np.uint8 and t.shape == shape else np.broadcast_to(t, shape)
+    return count
+
+
+def _count_below(value: np.ndarray, knots: np.ndarray) -> np.ndarray:
+    """Per element, how many of its propeller's knots are <= ``value`` (``knots``: batch shape + (K,))."""
+    shape = np.broadcast_shapes(np.shape(value), knots.shape[:-1])
+    with np.errstate(invalid="ignore"):
+        return _count_true((value >= knots[..., j] for j in range(knots.shape[-1])), shape, knots.shape[-1])
+
+
 def _newton(fun, y0: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:  # type: ignore[no-untyped-def]
     """Vectorised Newton on a function smooth and monotone on ``[lo, hi]`` (one table segment), iterates kept
     inside the segment, until every relative step is below :data:`NEWTON_RTOL`."""
-    y = y0
+    y = np.array(y0, dtype=np.float64)
+    if not y.size:
+        return y
+    new = np.empty_like(y)
+    diff = np.empty_like(y)
     for _ in range(NEWTON_MAX_ITER):
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             f, df = fun(y)
-            new = np.clip(y - f / df, lo, hi)
-            worst = np.nanmax(np.abs(new - y) / np.abs(new), initial=0.0) if y.size else 0.0
-        y = new
+            np.divide(f, df, out=new)
+            np.subtract(y, new, out=new)
+            np.maximum(new, lo, out=new)
+            np.minimum(new, hi, out=new)
+            np.subtract(new, y, out=diff)
+            np.abs(diff, out=diff)
+            np.divide(diff, np.abs(new), out=diff)
+            worst = np.nanmax(diff, initial=0.0)
+        y, new = new, y
         if not worst > NEWTON_RTOL:
             break
     return y

@@ -56,25 +56,53 @@ def _tasks(all_chunks: list[Chunk], the_plan: Plan, count: int) -> list[list[Chu
     return [[all_chunks[i] for i in g] for g in groups if g.size]
 
 
-def _screen_parallel(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, all_chunks: list[Chunk],
-                     partial: Partial, workers: int, progress: _Progress,
+def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropModel, the_plan: Plan,
+                     all_chunks: list[Chunk], partial: Partial, workers: int, progress: _Progress,
                      should_cancel: Callable[[], bool] | None) -> bool:
-    """Screen with a process pool; returns True when cancelled."""
+    """Screen with ``workers - 1`` forked processes plus this one; returns True when cancelled.
+
+    The chunks are cut into ``4 workers`` contiguous tasks. All but the first go to the pool; this process
+    screens the first itself, then takes back (cancels and runs) tasks the pool has not started yet, last first,
+    so that no core idles while work is queued. Partials merge in any order with the same result.
+    """
     method = "fork" if "fork" in get_all_start_methods() else "spawn"
     tasks = _tasks(all_chunks, the_plan, workers * 4)
     total = max(the_plan.evaluated, 1)
-    with ProcessPoolExecutor(max_workers=workers, mp_context=get_context(method)) as pool:
-        pending: set[Future[Partial]] = {
-            pool.submit(run_chunks, library, mission, the_plan, task, partial.objective, partial.pool_size,
-                        partial.id_ranks) for task in tasks}
-        while pending:
-            done, pending = wait(pending, timeout=0.2, return_when=FIRST_COMPLETED)
+    if not tasks:
+        return False
+    with ProcessPoolExecutor(max_workers=workers - 1, mp_context=get_context(method)) as pool:
+        futures = [pool.submit(run_chunks, library, mission, the_plan, task, partial.objective, partial.pool_size,
+                               partial.id_ranks) for task in tasks[1:]]
+        pending: set[Future[Partial]] = set(futures)
+        own: list[list[Chunk]] = [tasks[0]]
+        stealable = list(zip(futures, tasks[1:], strict=True))
+
+        def collect(timeout: float | None) -> None:
+            nonlocal pending
+            if not pending:
+                return
+            done, pending = wait(pending, timeout=timeout, return_when=FIRST_COMPLETED)
             for future in done:
                 partial.merge(future.result())
+
+        while own or pending:
+            if own:
+                for chunk in own.pop():
+                    if should_cancel is not None and should_cancel():
+                        pool.shutdown(wait=True, cancel_futures=True)
+                        return True
+                    screen_chunk(partial, library, mission, model, the_plan, chunk)
+                    collect(0.0)
+                    progress(SCREEN_SHARE * partial.evaluated / total)
+                while stealable and not own:
+                    future, task = stealable.pop()
+                    if future.cancel():
+                        pending.discard(future)
+                        own.append(task)
+                continue
+            collect(0.2)
             progress(SCREEN_SHARE * partial.evaluated / total)
             if should_cancel is not None and should_cancel():
-                for future in pending:
-                    future.cancel()
                 pool.shutdown(wait=True, cancel_futures=True)
                 return True
     return False
@@ -125,7 +153,8 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     total = max(the_plan.evaluated, 1)
     cancelled = False
     if workers > 1 and len(all_chunks) > 1:
-        cancelled = _screen_parallel(library, mission, the_plan, all_chunks, partial, workers, report, should_cancel)
+        cancelled = _screen_parallel(library, mission, model, the_plan, all_chunks, partial, workers, report,
+                                     should_cancel)
     else:
         for chunk in all_chunks:
             if should_cancel is not None and should_cancel():

@@ -1,0 +1,203 @@
+"""Operating points of many candidates at once: the cruise (hover) point and the full-throttle points.
+
+This is the physics of :mod:`server.physics.drive` (reference model v1) rewritten for screening speed, with
+the same equations and no root bracketing:
+
+- **Cruise point** at ``cruise_state_of_charge``: the speed for the required thrust comes from the
+  propeller's segment polynomial (:mod:`.propmodel`), then torque, motor current ``I = I0 + Kv Q``, motor
+  voltage ``V_m = E + I (R + R_on)``; the shared bus satisfies
+  ``h(V) = V^2 - V_oc V + N R_pack (V_m I + P_extra(V)) = 0`` with every partial-throttle ESC loss of
+  physics.md §5 (``P_extra = P_rip + P_sw + P_dt + P_cap + P_pwm`` at ``d = V_m / V``). Newton's method from the
+  high root of the quadratic without the duty-dependent terms converges in a few steps.
+- **Full throttle** (d = 1, no P_extra): ``V_oc - E - (R + R_on + N R_pack) I = 0`` on the propeller segment.
+
+Every array argument broadcasts, so a block of candidates laid out as (pack configuration, ESC, motor,
+propeller) axes computes what depends on fewer axes once. Elementwise arithmetic only: the result of a
+candidate does not depend on which other candidates share its chunk.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from server.physics._types import STANDARD_GRAVITY_M_S2
+from server.selection.library import MissionSpec
+
+from .propmodel import PropModel
+
+BUS_RTOL = 1e-14
+"""Relative Newton step on the bus voltage at which the cruise solve stops."""
+BUS_MAX_ITER = 60
+FULL_THROTTLE_SLACK_RTOL = 1e-12
+"""Bus slack (relative to V_oc) treated as exactly full throttle, as :func:`server.physics.drive.for_thrust` does."""
+
+
+@dataclass(frozen=True)
+class Batch:
+    """Parameters of a batch of candidates; every field broadcasts to the batch shape.
+
+    Pack configuration (pack x k in parallel): open-circuit voltages at the cruise, low and full states of
+    charge [V], pack resistance ``S r / (P k)`` [Ω], total capacity [Ah], allowed continuous pack current
+    [A]. ESC: conduction resistance [Ω], switching ``0.5 f t`` [1/1], dead-time ``2 V_SD t_dt f`` [V],
+    ``1 / (12 f^2)`` [s^2], ESR [Ω], k_pwm [-], continuous rating [A]. Motor: Kv [(rad/s)/V], R [Ω], I0 [A],
+    L [H], rating [A]. ``q``: propeller index into the :class:`PropModel`. ``mass_kg``: all-up mass [kg].
+    """
+
+    voc_cruise_v: np.ndarray
+    voc_low_v: np.ndarray
+    voc_full_v: np.ndarray
+    pack_resistance_ohm: np.ndarray
+    capacity_ah: np.ndarray
+    pack_limit_a: np.ndarray
+    r_on_ohm: np.ndarray
+    switching_coef: np.ndarray
+    dead_time_coef_v: np.ndarray
+    ripple_coef_s2: np.ndarray
+    esr_ohm: np.ndarray
+    k_pwm: np.ndarray
+    esc_rating_a: np.ndarray
+    kv_si: np.ndarray
+    motor_resistance_ohm: np.ndarray
+    no_load_current_a: np.ndarray
+    inductance_h: np.ndarray
+    motor_rating_a: np.ndarray
+    q: np.ndarray
+    mass_kg: np.ndarray
+
+    @property
+    def shape(self) -> tuple[int, ...]:
+        return np.broadcast_shapes(*(np.shape(getattr(self, f.name)) for f in fields(self)))
+
+    def take(self, mask: np.ndarray) -> Batch:
+        """The candidates where ``mask`` (batch shape) is true, as a flat batch."""
+        shape = self.shape
+        return Batch(**{f.name: np.broadcast_to(getattr(self, f.name), shape)[mask] for f in fields(self)})
+
+
+@dataclass(frozen=True)
+class FullThrottle:
+    """Full-throttle point per rotor (d = 1) at one pack state of charge."""
+
+    speed: np.ndarray
+    omega_rad_s: np.ndarray
+    thrust_n: np.ndarray
+    motor_current_a: np.ndarray
+    bus_voltage_v: np.ndarray
+
+
+@dataclass(frozen=True)
+class Cruise:
+    """Cruise (hover) point per rotor; ``reachable`` false where the thrust needs d > 1 or has no solution."""
+
+    thrust_n: np.ndarray
+    speed: np.ndarray
+    omega_rad_s: np.ndarray
+    torque_nm: np.ndarray
+    motor_current_a: np.ndarray
+    motor_voltage_v: np.ndarray
+    bus_voltage_v: np.ndarray
+    duty: np.ndarray
+    extra_loss_w: np.ndarray
+    bus_current_a: np.ndarray
+    reachable: np.ndarray
+
+
+def full_throttle(batch: Batch, model: PropModel, mission: MissionSpec, open_circuit_v: np.ndarray) -> FullThrottle:
+    """Full-throttle point (d = 1, sag from all rotors) at pack open-circuit voltage ``open_circuit_v``."""
+    n_r = float(mission.rotor_count)
+    sag = n_r * batch.pack_resistance_ohm
+    loop = (batch.motor_resistance_ohm + batch.r_on_ohm) + sag
+    y, seg = model.full_throttle(open_circuit_v, loop, batch.kv_si, batch.no_load_current_a, batch.q)
+    ct, cp = model.coefficients(batch.q, seg, y)
+    y2 = y * y
+    current = batch.no_load_current_a + batch.kv_si * (model.kq[batch.q] * cp * y2)
+    return FullThrottle(speed=y, omega_rad_s=model.omega_rad_s(y), thrust_n=model.kt[batch.q] * ct * y2,
+                        motor_current_a=current, bus_voltage_v=open_circuit_v - sag * current)
+
+
+def _extra_loss(bus_v: np.ndarray, motor_v: np.ndarray, coefs: tuple[np.ndarray, ...]) -> np.ndarray:
+    """P_extra at bus voltage V for a motor voltage V_m (duty ``V_m / V < 1``). [W]"""
+    c_rip, c_sw, c_dt, c_cap, c_pwm = coefs
+    u = 1.0 - motor_v / bus_v  # 1 - d
+    return (c_rip * u + c_cap * (1.0 - u) + c_pwm) * u + c_sw * bus_v + c_dt
+
+
+def loss_coefficients(batch: Batch, current: np.ndarray,
+                      motor_v: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Coefficients of ``P_extra = c_rip u^2 + c_sw V + c_dt + c_cap u (1 - u) + c_pwm u`` with ``u = 1 - d``.
+
+    From physics.md §5: ripple ``ΔI = V_m u / (L f)`` so ``P_rip = (R + R_on) V_m^2 u^2 / (12 L^2 f^2)``;
+    ``P_sw = 0.5 V I f t``; ``P_dt = 2 V_SD t_dt f I``; ``P_cap = ESR I^2 d u``; ``P_pwm = k_pwm I V_m u``.
+    """
+    series = batch.motor_resistance_ohm + batch.r_on_ohm
+    ripple = series * (batch.ripple_coef_s2 / (batch.inductance_h * batch.inductance_h))
+    return (ripple * (motor_v * motor_v), batch.switching_coef * current, batch.dead_time_coef_v * current,
+            batch.esr_ohm * (current * current), batch.k_pwm * (current * motor_v))
+
+
+def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise:
+    """Cruise (hover) point: duty for the required thrust on the sagged bus, with every ESC loss."""
+    n_r = float(mission.rotor_count)
+    thrust = batch.mass_kg * (STANDARD_GRAVITY_M_S2 * mission.thrust_per_weight / n_r)
+    y, seg = model.speed_for_thrust(thrust, batch.q)
+    _, cp = model.coefficients(batch.q, seg, y)
+    torque = (model.kq[batch.q] * cp) * (y * y)
+    current = batch.no_load_current_a + batch.kv_si * torque
+    motor_v = y * model.emf_per_y(batch.kv_si) + current * (batch.motor_resistance_ohm + batch.r_on_ohm)
+    voc = batch.voc_cruise_v
+    load = n_r * batch.pack_resistance_ohm
+    coefs = loss_coefficients(batch, current, motor_v)
+    c_rip, c_sw, c_dt, c_cap, c_pwm = coefs
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        slack = voc - motor_v - load * current
+        # High root of V^2 - (V_oc - NR c_sw) V + NR (V_m I + c_dt) = 0 (the loss terms in u = 1 - d left out).
+        b = voc - load * c_sw
+        c = load * (motor_v * current + c_dt)
+        bus = 0.5 * (b + np.sqrt(b * b - 4.0 * c))
+        for _ in range(BUS_MAX_ITER):
+            u = 1.0 - motor_v / bus
+            extra = (c_rip * u + c_cap * (1.0 - u) + c_pwm) * u + c_sw * bus + c_dt
+            h = bus * (bus - voc) + load * (motor_v * current + extra)
+            dextra = c_sw + (2.0 * c_rip * u + c_cap * (1.0 - 2.0 * u) + c_pwm) * (motor_v / (bus * bus))
+            step = h / (2.0 * bus - voc + load * dextra)
+            bus = bus - step
+            worst = np.nanmax(np.abs(step) / bus, initial=0.0) if bus.size else 0.0
+            if not worst > BUS_RTOL:
+                break
+        rounding = FULL_THROTTLE_SLACK_RTOL * voc
+        feasible = np.isfinite(slack) & (slack >= -rounding)
+        at_full = feasible & (slack <= rounding)
+        # Just below full throttle the step of P_sw + P_dt at d = 1 can leave no balanced duty below 1:
+        # the physics engine then reports the full-throttle point (thrust slightly above the request).
+        jump = feasible & ~at_full & (load * (c_sw * motor_v + c_dt) >= motor_v * slack) & (load > 0)
+        bus = np.where(at_full, motor_v, bus)
+        duty = motor_v / bus
+        solved = feasible & ~jump & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
+        extra = np.where(at_full, 0.0, _extra_loss(bus, motor_v, coefs))
+        bus_current = duty * current + extra / bus
+    cruise = Cruise(thrust_n=thrust, speed=y, omega_rad_s=model.omega_rad_s(y), torque_nm=torque,
+                    motor_current_a=current, motor_voltage_v=motor_v, bus_voltage_v=bus, duty=duty,
+                    extra_loss_w=extra, bus_current_a=bus_current, reachable=solved | jump)
+    if np.any(jump):
+        cruise = _saturate(cruise, jump, batch, model, mission)
+    return cruise
+
+
+def _saturate(cruise: Cruise, jump: np.ndarray, batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise:
+    """Replace the candidates in the loss-step band just below d = 1 by their full-throttle point."""
+    shape = np.broadcast_shapes(jump.shape, cruise.duty.shape)
+    jump = np.broadcast_to(jump, shape)
+    sub = batch.take(jump)
+    ft = full_throttle(sub, model, mission, sub.voc_cruise_v)
+    values = {f.name: np.array(np.broadcast_to(getattr(cruise, f.name), shape)) for f in fields(cruise)}
+    torque = (ft.motor_current_a - sub.no_load_current_a) / sub.kv_si
+    motor_v = ft.bus_voltage_v
+    for name, value in (("thrust_n", ft.thrust_n), ("speed", ft.speed), ("omega_rad_s", ft.omega_rad_s),
+                        ("torque_nm", torque), ("motor_current_a", ft.motor_current_a), ("motor_voltage_v", motor_v),
+                        ("bus_voltage_v", ft.bus_voltage_v), ("duty", np.ones_like(motor_v)),
+                        ("extra_loss_w", np.zeros_like(motor_v)), ("bus_current_a", ft.motor_current_a),
+                        ("reachable", np.isfinite(ft.bus_voltage_v))):
+        values[name][jump] = value
+    return Cruise(**values)
