@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
 from server.models import Battery, Esc, Mission, Motor, Propeller
-from server.physics import atmosphere, drive, endurance
+from server.physics import atmosphere, drive, endurance, fast
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
 from server.physics.operating_point import OperatingPoint
@@ -173,7 +173,7 @@ def evaluate(
     cruise = drive.for_thrust(c.thrust_required_n, **c.point_at_soc(mission.cruise_state_of_charge))
     low = drive.full_throttle(**c.point_at_soc(1 - mission.usable_fraction))
     peak = drive.full_throttle(**c.point_at_soc(1.0))
-    discharge = endurance.constant_thrust(c.thrust_required_n, pack=c.pack, **c.kwargs)
+    discharge = _discharge(c)
     weight_n = c.all_up_mass_g / 1000 * G0
     motor_current = _f(peak.motor_current_a)
     pack_current = _f(peak.pack_current_a)
@@ -235,6 +235,18 @@ def evaluate(
     if with_curves:
         metrics["curves"] = curves(c)
     return metrics
+
+
+def _discharge(c: Candidate) -> endurance.EnduranceResult:
+    """The constant-thrust discharge of :func:`physics.endurance.constant_thrust`, its SOC nodes solved at once."""
+    nodes = fast.constant_thrust_nodes(1.0, c.pack, ())
+    op = drive.for_thrust(np.full(nodes.shape, c.thrust_required_n),
+                          **{**c.kwargs, "open_circuit_voltage_v": c.pack.open_circuit_voltage_v(nodes),
+                             "pack_resistance_ohm": float(c.pack.resistance_ohm)})
+    reachable = ~np.isin(op.status, [Status.INFEASIBLE_THRUST, Status.NO_SOLUTION, Status.POWER_LIMIT])
+    invalid = op.status == Status.NON_FINITE
+    return fast.march_constant_thrust(nodes, op.pack_current_a, op.bus_voltage_v, op.duty, reachable, invalid,
+                                      pack=c.pack)
 
 
 def curves(c: Candidate, steps: int = 40) -> dict[str, Any]:
