@@ -1,20 +1,17 @@
-"""The faster engine gives the results of the engine before the speed work (:mod:`tests.selection.legacy`).
+"""The fast paths of the engine (repeated ESC defaults, segment tables, two workers, the vectorised discharge
+refinement) against independent references:
 
-- the screening kernel, chunk by chunk on random libraries: identical reason codes and violation counts,
-  metrics equal to 1e-9 relative;
-- the whole ranking (counts, top rows, Pareto rows) with the legacy kernel and the root-finding refinement
-  patched in, against the default engine;
-- the fast refinement against :func:`server.physics.endurance.constant_thrust` for every stop reason.
+- the whole ranking on small random libraries against the one-candidate-at-a-time physics engine (tests/selection/
+  brute.py): same order, metrics to 1e-6;
+- two workers against one;
+- the fast refinement against :func:`server.physics.endurance.constant_thrust` for every stop reason (1e-9).
 """
 
 from __future__ import annotations
 
 import importlib
 import math
-from collections.abc import Iterator
-from contextlib import contextmanager
-from dataclasses import fields, replace
-from functools import partial
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -34,9 +31,7 @@ from server.selection.enumerate import batch_for, chunk_indices, chunks, plan
 from server.selection.propmodel import PropModel
 from server.selection.result import CandidateSet
 
-from . import parts
-from .legacy import constraints as legacy_constraints
-from .legacy import propmodel as legacy_propmodel
+from . import brute, parts
 
 rank_module = importlib.import_module("server.selection.rank")
 refine_module = importlib.import_module("server.selection.refine")
@@ -123,75 +118,51 @@ def _close(new: np.ndarray, old: np.ndarray, rel: float = REL) -> None:
     np.testing.assert_allclose(new[finite], old[finite], rtol=rel, atol=0.0)
 
 
-@pytest.mark.parametrize("case", range(len(CASES)))
-def test_screening_kernel_equals_the_legacy_kernel(case: int) -> None:
-    library, mission = CASES[case]
-    model = PropModel.build(library.propellers, mission)
-    legacy_model = legacy_propmodel.PropModel.build(library.propellers, mission)
-    the_plan = plan(library, mission, model)
-    evaluated = feasible = 0
-    for chunk in chunks(the_plan, 700):
-        batch = batch_for(library, mission, *chunk_indices(the_plan.blocks[chunk.block], chunk))
-        new = screen(batch, model, mission)
-        old = legacy_constraints.screen(batch, legacy_model, mission)
-        np.testing.assert_array_equal(new.code, old.code)
-        np.testing.assert_array_equal(new.violations, old.violations)
-        for name in METRICS:
-            _close(getattr(new, name), getattr(old, name))
-        for point in ("cruise", "low", "full"):
-            for f in fields(getattr(old, point)):
-                _close(getattr(getattr(new, point), f.name), getattr(getattr(old, point), f.name))
-        evaluated += new.code.size
-        feasible += int(np.count_nonzero(new.code == 0))
-    assert evaluated > 0 and feasible > 0
+SMALL = [(random_library(s, n_packs=3, n_escs=3, n_motors=3, n_props=4), random_mission(s)) for s in (11, 12)]
 
 
-@contextmanager
-def legacy_engine(library: PartsLibrary) -> Iterator[None]:
-    """The engine with the legacy kernel (and its own propeller model) and the root-finding refinement."""
-    def legacy_screen(batch, model, mission, **kwargs):  # type: ignore[no-untyped-def]
-        legacy_model = legacy_propmodel.PropModel.build(library.propellers, mission)
-        return legacy_constraints.screen(batch, legacy_model, mission, **kwargs)
-
-    with pytest.MonkeyPatch.context() as patch:
-        patch.setattr(stream_module, "screen", legacy_screen)
-        patch.setattr(rows_module, "screen", legacy_screen)
-        patch.setattr(rank_module, "refine", partial(refine_module.refine, method="reference"))
-        yield
-
-
-def _row_values(row: object) -> list[float]:
-    out: list[float] = []
-
-    def walk(value: object) -> None:
-        if isinstance(value, dict):
-            for key in sorted(value):
-                walk(value[key])
-        elif isinstance(value, bool | str) or value is None:
-            return
-        elif isinstance(value, int | float):
-            out.append(float(value))
-
-    walk(row.as_dict())  # type: ignore[attr-defined]
+@pytest.fixture(scope="module")
+def brute_small() -> list[tuple[dict[str, int], list[brute.Record]]]:
+    out = []
+    for library, mission in SMALL:
+        counts, feasible = brute.evaluate(library, mission)
+        brute.refine(library, mission, feasible)
+        out.append((counts, feasible))
     return out
 
 
 @pytest.mark.parametrize("objective", ["cruise_power", "endurance", "cost"])
-@pytest.mark.parametrize("case", range(len(CASES)))
-def test_ranking_equals_the_legacy_path(case: int, objective: str) -> None:
-    library, mission = CASES[case]
-    with legacy_engine(library):
-        old = rank(library, mission, objective=objective, top_n=40, chunk_size=900)
-    new = rank(library, mission, objective=objective, top_n=40, chunk_size=900)
-    assert (new.combinations, new.evaluated, new.feasible) == (old.combinations, old.evaluated, old.feasible)
-    assert new.rejected == old.rejected and new.violations == old.violations
-    assert len(new.top) == len(old.top) > 0
-    for rows_new, rows_old in ((new.top, old.top), (new.pareto, old.pareto)):
-        assert [(r.battery_id, r.esc_id, r.motor_id, r.propeller_id, r.packs_in_parallel) for r in rows_new] == [
-            (r.battery_id, r.esc_id, r.motor_id, r.propeller_id, r.packs_in_parallel) for r in rows_old]
-        assert [r.endurance_stop_reason for r in rows_new] == [r.endurance_stop_reason for r in rows_old]
-        for a, b in zip(rows_new, rows_old, strict=True):
-            np.testing.assert_allclose(_row_values(a), _row_values(b), rtol=REL, atol=1e-12)
+@pytest.mark.parametrize("case", range(len(SMALL)))
+def test_random_libraries_equal_brute_force(brute_small: list, case: int, objective: str) -> None:
+    """The fast paths (repeated ESC defaults, tables of 1-16 points, the vectorised refinement) against the
+    one-candidate-at-a-time physics engine, on random libraries."""
+    library, mission = SMALL[case]
+    _, screened = brute_small[case]
+    # The engine's documented data rules, applied to the oracle's list: a propeller whose table makes thrust
+    # fall with rpm somewhere (random knots a few rpm apart can) is missing data, and a candidate whose refined
+    # (discharge-simulated) endurance falls short is rejected after refinement.
+    usable = PropModel.build(library.propellers, mission).valid
+    good_props = {int(i) for i, ok in zip(library.propellers.ids, usable, strict=True) if ok}
+    feasible = [r for r in screened if int(r.ids[3]) in good_props
+                and r.metrics["refined_endurance_min"] >= mission.min_endurance_min]
+    assert feasible, "the random library must leave feasible candidates"
+    out = rank(library, mission, objective=objective, top_n=500, chunk_size=97)
+    assert out.feasible == len(feasible)
+    if not usable.all():
+        assert out.rejected["missing_data"] > 0
+
+    def key(record: brute.Record) -> tuple[object, ...]:  # an unknown (NaN) cost sorts last, as documented
+        return tuple(math.inf if isinstance(v, float) and math.isnan(v) else v
+                     for v in brute.sort_key(record, objective, "refined_endurance_min"))
+
+    expected = sorted(feasible, key=key)
+    assert [(r.battery_id, r.esc_id, r.motor_id, r.propeller_id, r.packs_in_parallel) for r in out.top] == [
+        (*r.ids, r.key[1]) for r in expected]
+    for row, ref in zip(out.top, expected, strict=True):
+        assert row.cruise["electrical_power_w"] == pytest.approx(ref.metrics["electrical_power_w"], rel=1e-6)
+        assert row.full_throttle["thrust_to_weight"] == pytest.approx(ref.metrics["thrust_to_weight"], rel=1e-6)
+        assert row.endurance_min == pytest.approx(ref.metrics["refined_endurance_min"], rel=1e-6)
+    assert out.feasible + sum(out.rejected.values()) == out.combinations
 
 
 def test_two_workers_give_the_same_ranking() -> None:
