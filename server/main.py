@@ -14,9 +14,10 @@ from server import __version__, http_errors
 from server.api import api_router
 from server.config import REPO_ROOT, Settings, get_settings
 from server.db import make_engine, make_sessionmaker
+from server.models import FleetPlan, Ranking
 from server.pages import page_router
 from server.pages._render import make_templates
-from server.services import fleet, rankings
+from server.services import fleet, jobs, rankings
 
 WEB = REPO_ROOT / "web"
 
@@ -32,8 +33,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.state.sessionmaker = make_sessionmaker(engine)
         # Ranking jobs run outside the request in worker threads (numpy releases the GIL while it computes).
         app.state.jobs = ThreadPoolExecutor(max_workers=settings.ranking_workers, thread_name_prefix="ranking")
-        rankings.recover(app.state.sessionmaker, lambda job: app.state.jobs.submit(job))
-        fleet.recover(app.state.sessionmaker, lambda job: app.state.jobs.submit(job))
+        for model, run in ((Ranking, rankings.run), (FleetPlan, fleet.run)):
+            jobs.recover(app.state.sessionmaker, model, run, lambda job: app.state.jobs.submit(job))
         yield
         app.state.jobs.shutdown(wait=True, cancel_futures=True)
         engine.dispose()

@@ -117,3 +117,18 @@ def make_library(client: TestClient, team: TeamFixture, rotors: int = 4) -> dict
         "name": "Test hover", "airframe_id": ids["airframe"], "kind": "hover", "payload_mass_g": 200,
         "altitude_m": 500}).json()["id"]
     return ids
+
+
+def load_demo(app: FastAPI) -> tuple[dict[str, str], dict[str, int]]:
+    """Load the invented demo scenario; returns a write key's headers and the demo missions' ids by name."""
+    from sqlalchemy import select
+
+    from server.models import Mission
+    from server.services import seed
+
+    with transaction(app.state.sessionmaker) as session:
+        seed.load_demo(session, settings=app.state.settings)
+        team = accounts.get_team_by_name(session, name="Northfold Survey")
+        _, key = accounts.create_api_key(session, team_id=team.id, scope="write")
+        missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}
+    return {"Authorization": f"Bearer {key}"}, missions

@@ -249,16 +249,3 @@ def bom_csv(session: Session, *, team_id: int, plan_id: int) -> str:
             ]
         )
     return out.getvalue()
-
-
-def recover(factory: sessionmaker[Session], submit: Any) -> None:
-    """At start-up: requeue plans that never started; fail those a stopped process left running."""
-    with factory() as s, s.begin():
-        s.execute(
-            update(FleetPlan)
-            .where(FleetPlan.status == "running")
-            .values(status="failed", error="interrupted by a server restart", finished_at=datetime.now(UTC))
-        )
-        queued = list(s.scalars(select(FleetPlan.id).where(FleetPlan.status == "queued")))
-    for plan_id in queued:
-        submit(lambda pid=plan_id: run(factory, pid))

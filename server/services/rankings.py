@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import logging
 import time
-from collections.abc import Callable
 from datetime import UTC, datetime
 from typing import Any
 
@@ -31,7 +30,6 @@ SORT_COLUMNS = {
     "cost": RankingResult.cost,
     "cells_series": RankingResult.cells_series,
 }
-Submit = Callable[[Callable[[], None]], object]
 
 
 def start(
@@ -279,16 +277,3 @@ def results(
         stmt.order_by(order.nulls_last(), RankingResult.id).offset((page - 1) * page_size).limit(page_size)
     )
     return [r.metrics | {"rank": r.rank, "pareto": r.pareto, "result_id": r.id} for r in rows], int(total)
-
-
-def recover(factory: sessionmaker[Session], submit: Submit) -> None:
-    """At start-up: requeue jobs that never started; fail those a stopped process left running."""
-    with factory() as s, s.begin():
-        s.execute(
-            update(Ranking)
-            .where(Ranking.status == "running")
-            .values(status="failed", error="interrupted by a server restart", finished_at=datetime.now(UTC))
-        )
-        queued = list(s.scalars(select(Ranking.id).where(Ranking.status == "queued")))
-    for ranking_id in queued:
-        submit(lambda rid=ranking_id: run(factory, rid))

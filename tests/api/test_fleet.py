@@ -10,25 +10,15 @@ from typing import Any
 import pytest
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
-from sqlalchemy import select
 
-from server.db import transaction
-from server.models import Mission, Team
-from server.services import accounts, seed
-from tests.factories import make_team
+from tests.factories import load_demo, make_team
 
 Headers = dict[str, str]
 
 
 @pytest.fixture
 def demo(app: FastAPI, client: TestClient) -> tuple[Headers, dict[str, int]]:
-    with transaction(app.state.sessionmaker) as session:
-        seed.load_demo(session, settings=app.state.settings)
-        team = session.scalar(select(Team).where(Team.name == "Northfold Survey"))
-        assert team is not None
-        _, key = accounts.create_api_key(session, team_id=team.id, scope="write")
-        missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}
-    return {"Authorization": f"Bearer {key}"}, missions
+    return load_demo(app)
 
 
 def wait(client: TestClient, headers: Headers, plan_id: int) -> dict[str, Any]:

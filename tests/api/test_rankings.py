@@ -8,29 +8,18 @@ from typing import Any
 import pytest
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
-from sqlalchemy import select
 
-from server.db import transaction
-from server.models import Mission, Ranking, Team
+from server.models import Ranking
 from server.selection import ENGINE_VERSION, rank
-from server.services import seed
 from server.services.ranking_inputs import engine_inputs
-from tests.factories import make_team
+from tests.factories import load_demo, make_team
 
 Headers = dict[str, str]
 
 
 @pytest.fixture
 def demo(app: FastAPI, client: TestClient) -> tuple[Headers, dict[str, int]]:
-    with transaction(app.state.sessionmaker) as session:
-        seed.load_demo(session, settings=app.state.settings)
-        from server.services import accounts
-
-        team = session.scalar(select(Team).where(Team.name == "Northfold Survey"))
-        assert team is not None
-        _, key = accounts.create_api_key(session, team_id=team.id, scope="write")
-        missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}
-    return {"Authorization": f"Bearer {key}"}, missions
+    return load_demo(app)
 
 
 def wait_done(client: TestClient, headers: Headers, ranking_id: int, timeout_s: float = 60) -> dict[str, Any]:
