@@ -1,10 +1,11 @@
 """The JSON API under /api/v1 (thin routers: parse → service → schema)."""
 
-from fastapi import APIRouter
+from fastapi import APIRouter, Depends
 
 from server.api import bench_runs, exchange, fleet, missions, parts, predict, rankings, shortlists, team
+from server.uploads import close_form  # noqa: E402
 
-api_router = APIRouter(prefix="/api/v1")
+api_router = APIRouter(prefix="/api/v1", dependencies=[Depends(close_form)])
 api_router.include_router(parts.router)
 api_router.include_router(missions.router)
 api_router.include_router(team.router)

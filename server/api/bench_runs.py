@@ -14,6 +14,7 @@ from server.errors import FieldError, InvalidInput
 from server.schemas.bench import BenchRunMeta, CalibrationSwitch
 from server.services import bench as bench_service
 from server.services._validation import field_errors
+from server.uploads import read_upload
 
 router = APIRouter(tags=["bench runs"])
 MAX_UPLOAD = 2 * 1024 * 1024
@@ -40,7 +41,7 @@ def upload(
 ) -> dict[str, Any]:
     """Upload a measured sweep: validated (all or nothing), flagged, stored, and calibrated at once."""
     meta = parse_meta(metadata)
-    raw = file.file.read(MAX_UPLOAD + 1)
+    raw = read_upload(file, MAX_UPLOAD)
     run, calibration = bench_service.import_run(session, team_id=caller.team_id, user_id=caller.user_id, meta=meta,
                                                 raw=raw, filename=file.filename or "")
     session.commit()

@@ -12,6 +12,7 @@ from server.api._http import parse_if_match, set_etag
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS, UPDATE_SCHEMAS
 from server.services import parts as parts_service
+from server.uploads import read_upload
 
 router = APIRouter(prefix="/parts", tags=["parts"])
 
@@ -94,7 +95,7 @@ def _add_kind_routes(kind: str) -> None:
     def import_kind(
         caller: WriterDep, session: SessionDep, file: Annotated[UploadFile, File(description="CSV file")]
     ) -> dict[str, Any]:
-        raw = file.file.read(parts_service.MAX_IMPORT_BYTES + 1)
+        raw = read_upload(file, parts_service.MAX_IMPORT_BYTES)
         created = parts_service.import_csv(session, team_id=caller.team_id, user_id=caller.user_id, kind=kind, raw=raw)
         session.commit()
         return {"created": len(created), "ids": [p.id for p in created]}

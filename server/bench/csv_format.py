@@ -213,8 +213,11 @@ def parse_bench_csv(data: bytes | str) -> BenchSamples:
     text, issues = _decode(data)
     if text is None:
         raise BenchCsvError(issues)
-    rows = [(n, r) for n, r in enumerate(csv.reader(io.StringIO(text, newline="")), start=1)
-            if any(cell.strip() for cell in r)]
+    reader = csv.reader(io.StringIO(text, newline=""))
+    try:
+        rows = [(n, r) for n, r in enumerate(reader, start=1) if any(cell.strip() for cell in r)]
+    except csv.Error as exc:  # a field longer than the csv module allows, or a broken quote
+        raise BenchCsvError([CsvIssue(reader.line_num, None, f"unreadable CSV: {exc}")]) from None
     if not rows:
         raise BenchCsvError([CsvIssue(None, None, "the file is empty")])
     header_line, header = rows[0]

@@ -1,10 +1,11 @@
 """HTML pages (thin: service → template or htmx block)."""
 
-from fastapi import APIRouter
+from fastapi import APIRouter, Depends
 
 from server.pages import auth, bench_runs, fleet, home, missions, parts, predict, rankings, shortlists, team
+from server.uploads import close_form  # noqa: E402
 
-page_router = APIRouter(include_in_schema=False)
+page_router = APIRouter(include_in_schema=False, dependencies=[Depends(close_form)])
 page_router.include_router(auth.router)
 page_router.include_router(home.router)
 page_router.include_router(parts.router)

@@ -16,6 +16,7 @@ from server.pages._render import form_values, render
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS
 from server.services import parts as parts_service
 from server.services._validation import field_errors
+from server.uploads import read_upload
 
 router = APIRouter(prefix="/parts")
 KindPath = Annotated[str, "kind"]
@@ -262,7 +263,7 @@ def import_csv(
     file: Annotated[UploadFile, File()],
 ) -> Response:
     kind = _kind(kind)
-    raw = file.file.read(parts_service.MAX_IMPORT_BYTES + 1)
+    raw = read_upload(file, parts_service.MAX_IMPORT_BYTES)
     try:
         created = parts_service.import_csv(session, team_id=caller.team_id, user_id=caller.user_id, kind=kind, raw=raw)
         session.commit()

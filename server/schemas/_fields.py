@@ -35,7 +35,9 @@ def ranged(tp: type, lo: float, hi: float, unit: str, *, description: str = "", 
 
 
 def text(max_length: int, *, description: str = "", min_length: int = 0) -> Any:
-    def strip(value: str) -> str:
+    def strip(value: str | None) -> str | None:
+        if value is None:  # only reachable through the partial (update) schemas, where None = unchanged
+            return value
         value = value.strip()
         if len(value) < min_length:
             raise ValueError("must not be empty" if min_length == 1 else f"needs at least {min_length} characters")

@@ -9,7 +9,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from server.errors import Conflict, FieldError, InvalidInput, NotFound, PreconditionRequired, VersionMismatch
-from server.models import Airframe, Mission
+from server.models import Airframe, Mission, Shortlist
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.services._validation import validate
 
@@ -115,6 +115,10 @@ def delete_airframe(session: Session, *, team_id: int, airframe_id: int) -> None
 
 
 def delete_mission(session: Session, *, team_id: int, mission_id: int) -> None:
+    """Delete a mission no shortlist is for (rankings keep their own snapshot of it)."""
     row = get_mission(session, team_id=team_id, mission_id=mission_id)
+    used = session.scalar(select(func.count()).select_from(Shortlist).where(Shortlist.mission_id == row.id)) or 0
+    if used:
+        raise Conflict(f"{used} shortlist(s) are for this mission; delete them first")
     session.delete(row)
     session.flush()

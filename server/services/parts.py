@@ -232,7 +232,10 @@ def parse_csv(kind: str, raw: bytes) -> list[BaseModel]:
     except UnicodeDecodeError:
         raise InvalidInput("Not a text file", [FieldError("file", "must be UTF-8 text")]) from None
     reader = csv.reader(io.StringIO(text))
-    header = next(reader, None)
+    try:
+        header = next(reader, None)
+    except csv.Error as exc:
+        raise InvalidInput("Unreadable CSV", [FieldError("file", f"line 1: {exc}")]) from None
     if not header or not any(h.strip() for h in header):
         raise InvalidInput("Empty file", [FieldError("file", "needs a header row and at least one data row")])
     header = [h.strip() for h in header]
@@ -247,8 +250,11 @@ def parse_csv(kind: str, raw: bytes) -> list[BaseModel]:
     if errors:
         raise InvalidInput(f"Bad header in {kind} CSV", errors)
     parsed: list[BaseModel] = []
-    line = 1
-    for line, cells in enumerate(reader, start=2):
+    try:
+        rows = list(reader)
+    except csv.Error as exc:  # e.g. a field longer than the csv module allows, or a broken quote
+        raise InvalidInput("Unreadable CSV", [FieldError("file", f"line {reader.line_num}: {exc}")]) from None
+    for line, cells in enumerate(rows, start=2):
         if not any(c.strip() for c in cells):
             continue
         if len(cells) != len(header):

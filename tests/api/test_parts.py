@@ -191,3 +191,20 @@ def test_csv_export_round_trips(client: TestClient, team: TeamFixture, kind: str
     assert {k: v for k, v in copy.items() if k not in volatile} == {
         k: v for k, v in original.items() if k not in volatile
     }
+
+
+def test_null_for_a_text_field_in_a_patch_is_a_clear_422_or_no_change(client: TestClient, team: TeamFixture) -> None:
+    """Regression (found by fuzzing): a null name in a PATCH crashed the text validator with a 500."""
+    h = team.headers()
+    part_id = client.post("/api/v1/parts/motors", json=part_payload("motors"), headers=h).json()["id"]
+    response = client.patch(f"/api/v1/parts/motors/{part_id}?version=1", json={"name": None}, headers=h)
+    assert response.status_code == 422
+    assert any(e["field"] == "name" for e in response.json()["errors"])
+
+
+def test_an_unreadable_csv_is_a_422(client: TestClient, team: TeamFixture) -> None:
+    """Regression (found by fuzzing): a field longer than the csv module's limit was a 500."""
+    content = 'name,mass_g,kv_rpm_per_v\n"' + "a" * 200_000 + '",60,920\n'
+    response = client.post("/api/v1/parts/motors/import", files={"file": ("m.csv", content, "text/csv")},
+                           headers=team.headers())
+    assert response.status_code == 422 and response.json()["errors"][0]["field"] == "file"

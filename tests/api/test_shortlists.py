@@ -131,3 +131,13 @@ def test_re_evaluate_picks_up_a_new_calibration(client: TestClient, team: TeamFi
     assert power["after"] > power["before"]  # the calibrated PWM loss costs power at partial throttle
     stored = client.get(f"/api/v1/shortlists/{sid}", headers=h).json()["entries"][0]
     assert stored["metrics"]["sources"]["escs"]["k_pwm"] == "calibrated"
+
+
+def test_a_mission_with_shortlists_cannot_be_deleted(client: TestClient, team: TeamFixture) -> None:
+    """Regression (found by fuzzing): deleting such a mission was a 500 (foreign key), now a 409."""
+    h = team.headers()
+    ids = make_library(client, team)
+    client.post("/api/v1/shortlists", json={"name": "S", "mission_id": ids["mission"]}, headers=h)
+    response = client.delete(f"/api/v1/missions/{ids['mission']}", headers=h)
+    assert response.status_code == 409 and "shortlist" in response.json()["detail"]
+    assert client.get(f"/api/v1/missions/{ids['mission']}", headers=h).status_code == 200
