@@ -204,3 +204,34 @@ def test_calibrate_on_demand_and_list(client: TestClient, stand: tuple[TeamFixtu
     assert client.get("/api/v1/bench-runs", headers=h).json()[0]["sample_count"] > 5
     other = make_team(client.app, "Other")  # type: ignore[arg-type]
     assert client.get("/api/v1/bench-runs", headers=other.headers()).json() == []
+
+
+def test_rankings_use_the_calibration(client: TestClient, stand: tuple[TeamFixture, dict[str, int]],
+                                      app: FastAPI) -> None:
+    """A ranking's snapshot carries the calibrated values (and says which) instead of the entered ones."""
+    from server.models import Mission
+    from server.services.ranking_inputs import snapshot
+
+    team, ids = stand
+    h = team.headers()
+    for test_id, prop in (("m_a_p_1_v7p4", "prop"), ("m_a_p_1_v11p1", "prop"), ("m_a_p_2_v7p4", "prop2"),
+                          ("m_a_p_2_v11p1", "prop2")):
+        assert upload(client, team, ids | {"prop": ids[prop]}, csv_of(test_id),
+                      supply_voltage_v=7.4 if "7p4" in test_id else 11.1).status_code == 201
+    airframe = client.post("/api/v1/airframes", json={"name": "5 in quad", "rotor_count": 4, "frame_mass_g": 300},
+                           headers=h).json()["id"]
+    mission_id = client.post("/api/v1/missions", json={"name": "Hover", "airframe_id": airframe, "kind": "hover"},
+                             headers=h).json()["id"]
+    with app.state.sessionmaker() as session:
+        mission = session.get(Mission, mission_id)
+        assert mission is not None
+        snap = snapshot(session, team_id=team.team_id, mission=mission)
+    motor = next(m for m in snap["parts"]["motors"] if m["id"] == ids["motor"])
+    assert {"kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a"} <= set(motor["calibrated"])
+    assert motor["winding_resistance_ohm"] is not None  # unknown on the part, known from the bench
+    esc = next(e for e in snap["parts"]["escs"] if e["id"] == ids["esc"])
+    assert "k_pwm" in esc["calibrated"] and esc["k_pwm"] > 0
+    prop = next(p for p in snap["parts"]["propellers"] if p["id"] == ids["prop"])
+    assert prop["calibrated"] == ["static_table"] and len(prop["static_table"]) >= 3
+    started = client.post("/api/v1/rankings", json={"mission_id": mission_id}, headers=h)
+    assert started.status_code == 202
