@@ -63,6 +63,8 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
         annotation = info.annotation
         args = typing.get_args(annotation)
         base = next((a for a in args if a is not type(None)), annotation) if args else annotation
+        if typing.get_origin(base) is typing.Annotated:  # ranged(...) | None: look inside the Annotated
+            base = typing.get_args(base)[0]
         literal_args = typing.get_args(base) if typing.get_origin(base) is Literal else ()
         if name in TABLE_COLUMNS:
             widget: Any = "table"

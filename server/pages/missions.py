@@ -158,3 +158,40 @@ async def update_mission(request: Request, caller: PageWriter, session: SessionD
         },
         status_code=409 if message else 422,
     )
+
+
+@router.get("/airframes/{airframe_id}/edit", response_class=HTMLResponse)
+def edit_airframe_page(request: Request, caller: PageCaller, session: SessionDep, airframe_id: IdPath) -> HTMLResponse:
+    airframe = missions_service.get_airframe(session, team_id=caller.team_id, airframe_id=airframe_id)
+    return render(request, "pages/airframe_edit.html", {
+        "caller": caller, "nav": "missions", "airframe": airframe, "fields": AIRFRAME_FIELDS,
+        "values": values_of(airframe, AIRFRAME_FIELDS), "errors": {}, "message": "",
+    })
+
+
+@router.post("/airframes/{airframe_id}", response_class=HTMLResponse)
+async def update_airframe(
+    request: Request, caller: PageWriter, session: SessionDep, airframe_id: IdPath
+) -> Response:
+    values = form_values(await request.form())
+    data, errors = form_to_data(AIRFRAME_FIELDS, values)
+    message = ""
+    if not errors:
+        try:
+            missions_service.update_airframe(
+                session, team_id=caller.team_id, airframe_id=airframe_id, changes=data,
+                expected_version=int(values.get("version", "0") or 0),
+            )
+            session.commit()
+            return RedirectResponse("/missions", status_code=303)
+        except InvalidInput as exc:
+            session.rollback()
+            errors = {e.field: e.message for e in exc.errors}
+        except DomainError as exc:
+            session.rollback()
+            message = exc.detail
+    airframe = missions_service.get_airframe(session, team_id=caller.team_id, airframe_id=airframe_id)
+    return render(request, "pages/airframe_edit.html", {
+        "caller": caller, "nav": "missions", "airframe": airframe, "fields": AIRFRAME_FIELDS, "values": values,
+        "errors": errors, "message": message or "Not saved: fix the fields marked below.",
+    }, status_code=409 if message else 422)

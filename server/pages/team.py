@@ -7,8 +7,9 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Form, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
-from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
+from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep, SettingsDep
 from server.errors import DomainError
+from server.models import Team
 from server.pages._render import render
 from server.services import accounts
 
@@ -31,6 +32,27 @@ def _page(request: Request, session: Any, caller: Caller, **extra: Any) -> HTMLR
 @router.get("/team", response_class=HTMLResponse)
 def team_page(request: Request, caller: PageCaller, session: SessionDep) -> HTMLResponse:
     return _page(request, session, caller)
+
+
+@router.post("/team/members", response_class=HTMLResponse)
+def add_member(
+    request: Request, caller: PageWriter, session: SessionDep, settings: SettingsDep,
+    email: Annotated[str, Form(max_length=254)] = "", role: Annotated[str, Form(max_length=16)] = "viewer",
+    password: Annotated[str, Form(max_length=1024)] = "", display_name: Annotated[str, Form(max_length=120)] = "",
+) -> Response:
+    """Owners add a member with a first password (they change it by asking an owner; no e-mail is sent)."""
+    if caller.role != "owner":
+        return _page(request, session, caller, member_error="Only the team's owners can add members.")
+    try:
+        team = session.get(Team, caller.team_id)
+        assert team is not None
+        accounts.create_user(session, settings=settings, email=email, password=password, team=team, role=role,
+                             display_name=display_name.strip())
+        session.commit()
+    except DomainError as exc:
+        session.rollback()
+        return _page(request, session, caller, member_error=str(exc))
+    return RedirectResponse("/team", status_code=303)
 
 
 @router.post("/team/api-keys", response_class=HTMLResponse)

@@ -161,3 +161,58 @@ def test_unknown_page_is_a_friendly_404(app: FastAPI, client: TestClient) -> Non
     response = client.get("/parts/gearboxes")
     assert response.status_code == 404
     assert "Unknown part kind" in soup(response.text).select_one("main").text
+
+
+def test_owner_adds_a_member_who_can_log_in(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    token = login(client, team.owner_email)
+    short = client.post("/team/members", data={"csrf_token": token, "email": "new@alpha.example", "role": "engineer",
+                                               "password": "short"})
+    assert "at least 8 characters" in soup(short.text).select_one("[role=alert]").text
+    added = client.post("/team/members", data={"csrf_token": token, "email": "new@alpha.example",
+                                               "role": "engineer", "password": "a-good-password"},
+                        follow_redirects=False)
+    assert added.status_code == 303
+    assert "new@alpha.example" in soup(client.get("/team").text).select_one("#members").text
+    client.cookies.clear()
+    login(client, "new@alpha.example", "a-good-password")
+    assert "engineer" in client.get("/").text
+
+
+def test_only_owners_add_members(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    token = login(client, team.viewer_email)
+    response = client.post("/team/members", data={"csrf_token": token, "email": "x@alpha.example",
+                                                  "password": "a-good-password"})
+    assert response.status_code == 403  # viewers cannot write at all
+
+
+def test_airframe_edit_page_saves_and_reports_errors(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    airframe = client.post("/api/v1/airframes", json={"name": "Quad", "rotor_count": 4, "frame_mass_g": 1000},
+                           headers=team.headers()).json()
+    token = login(client, team.owner_email)
+    page = soup(client.get(f"/airframes/{airframe['id']}/edit").text)
+    form = {i["name"]: i.get("value", "") for i in page.select("form.grid-form input")}
+    bad = client.post(f"/airframes/{airframe['id']}", data={**form, "csrf_token": token, "rotor_count": "40"})
+    assert bad.status_code == 422 and "between 1 and 16 rotors" in bad.text
+    ok = client.post(f"/airframes/{airframe['id']}", data={**form, "csrf_token": token, "frame_mass_g": "1250"},
+                     follow_redirects=False)
+    assert ok.status_code == 303
+    assert client.get(f"/api/v1/airframes/{airframe['id']}").json()["frame_mass_g"] == 1250
+
+
+def test_edit_form_keeps_empty_optional_numbers_empty(app: FastAPI, client: TestClient) -> None:
+    """Regression: optional numbers were text inputs whose empty value failed validation on save."""
+    team = make_team(app)
+    part = client.post("/api/v1/parts/motors", json=part_payload("motors", max_current_a=None, max_cells=None),
+                       headers=team.headers()).json()
+    token = login(client, team.owner_email)
+    page = soup(client.get(f"/parts/motors/{part['id']}/edit").text)
+    assert page.select_one("input[name=max_current_a]")["type"] == "number"
+    form = {i["name"]: i.get("value", "") for i in page.select("form.grid-form input")}
+    saved = client.post(f"/parts/motors/{part['id']}", data={**form, "csrf_token": token, "mass_g": "61"},
+                        follow_redirects=False)
+    assert saved.status_code == 303
+    motor = client.get(f"/api/v1/parts/motors/{part['id']}").json()
+    assert motor["mass_g"] == 61 and motor["max_current_a"] is None
