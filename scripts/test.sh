@@ -18,6 +18,7 @@ fi
 .venv/bin/python -m pip install -q --upgrade pip 2> >(grep -v "WARNING: Location" >&2)
 .venv/bin/python -m pip install -q -e '.[test,postgres]' 2> >(grep -v "WARNING: Location" >&2)
 .venv/bin/python -m ruff check .
+.venv/bin/python -m mypy server
 if ls -d /usr/lib/postgresql/*/bin >/dev/null 2>&1; then
   eval "$(scripts/pg-ci.sh start)"
   trap 'scripts/pg-ci.sh stop' EXIT

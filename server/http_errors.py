@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import logging
+from collections.abc import Mapping
 from typing import Any
 from urllib.parse import quote
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse, RedirectResponse, Response
+from fastapi.templating import Jinja2Templates
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from server.deps import LoginRequired
@@ -22,8 +24,9 @@ def _is_api(request: Request) -> bool:
     return request.url.path.startswith("/api/")
 
 
-def _page(request: Request, status: int, title: str, detail: str, headers: dict[str, str] | None = None) -> Response:
-    templates = request.app.state.templates
+def _page(request: Request, status: int, title: str, detail: str,
+          headers: Mapping[str, str] | None = None) -> Response:
+    templates: Jinja2Templates = request.app.state.templates
     return templates.TemplateResponse(
         request,
         "pages/error.html",

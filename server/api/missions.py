@@ -53,7 +53,7 @@ def update_airframe(
     session: SessionDep,
     airframe_id: IdPath,
     response: Response,
-    changes: Annotated[AirframeUpdate, Body()],  # type: ignore[valid-type]
+    changes: Annotated[AirframeUpdate, Body()],
     if_match: IfMatch = None,
     version: VersionQuery = None,
 ) -> Airframe:
@@ -111,7 +111,7 @@ def update_mission(
     session: SessionDep,
     mission_id: IdPath,
     response: Response,
-    changes: Annotated[MissionUpdate, Body()],  # type: ignore[valid-type]
+    changes: Annotated[MissionUpdate, Body()],
     if_match: IfMatch = None,
     version: VersionQuery = None,
 ) -> Mission:

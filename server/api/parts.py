@@ -3,7 +3,7 @@
 # No "from __future__ import annotations" here: the per-kind routes are built in a closure, and FastAPI
 # must see the real schema classes (not strings) in their signatures.
 
-from typing import Annotated, Any
+from typing import Annotated, Any, cast
 
 from fastapi import APIRouter, Body, File, Header, Query, Response, UploadFile
 from pydantic import BaseModel
@@ -124,7 +124,8 @@ def _add_kind_routes(kind: str) -> None:
             user_id=caller.user_id,
             kind=kind,
             part_id=part_id,
-            changes=changes.model_dump(exclude_unset=True, mode="json"),
+            # ``update_schema`` is only known at run time (a model per kind), so mypy cannot type ``changes``.
+            changes=cast(BaseModel, changes).model_dump(exclude_unset=True, mode="json"),
             expected_version=parse_if_match(if_match, version),
         )
         session.commit()

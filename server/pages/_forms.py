@@ -84,7 +84,7 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
                 widget=widget,
                 required=info.is_required(),
                 minimum=extra.get("minimum"),
-                maximum=extra.get("maximum"),  # type: ignore[arg-type]
+                maximum=extra.get("maximum"),
                 step="1" if base is int else "any",
                 choices=tuple(str(a) for a in literal_args),
                 help=help_text,

@@ -77,7 +77,7 @@ def render(
         html = "".join(tmpl.blocks[block](tmpl.new_context(ctx)))
         return HTMLResponse(html, status_code=status_code, headers=all_headers)
     response = templates.TemplateResponse(request, template, context, status_code=status_code, headers=all_headers)
-    return response  # type: ignore[return-value]
+    return response
 
 
 def form_values(form: Any) -> dict[str, str]:

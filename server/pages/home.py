@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse
 from sqlalchemy import func, select
@@ -22,7 +24,7 @@ def home(request: Request, caller: PageCaller, session: SessionDep) -> HTMLRespo
     for kind, model in PART_MODELS.items():
         stmt = select(func.count()).select_from(model).where(model.team_id == caller.team_id, model.archived.is_(False))
         counts[kind] = session.scalar(stmt) or 0
-    def count(model: type) -> int:
+    def count(model: Any) -> int:
         return session.scalar(select(func.count()).select_from(model).where(model.team_id == caller.team_id)) or 0
 
     context = {

@@ -68,6 +68,7 @@ class PackParams:
     cells_series: FloatArray
     capacity_ah: FloatArray
     cell_resistance_ohm: FloatArray
+    # Defaults are plain floats (the ignores): __post_init__ turns every field into a float64 array.
     cells_parallel: FloatArray = 1.0  # type: ignore[assignment]
     wiring_resistance_ohm: FloatArray = 0.0  # type: ignore[assignment]
     full_voltage_per_cell_v: FloatArray = LIPO_FULL_V_PER_CELL  # type: ignore[assignment]
@@ -123,10 +124,12 @@ def mean_open_circuit_voltage_per_cell_v(soc_low: ArrayLike, soc_high: ArrayLike
         values = LIPO_OCV_V_PER_CELL
         seg = np.clip(s[..., np.newaxis] - knots[:-1], 0.0, np.diff(knots))
         slope = np.diff(values) / np.diff(knots)
-        return np.sum(values[:-1] * seg + 0.5 * slope * seg**2, axis=-1)
+        integral: FloatArray = np.sum(values[:-1] * seg + 0.5 * slope * seg**2, axis=-1)
+        return integral
 
     with np.errstate(invalid="ignore", divide="ignore"):
-        return (cumulative(hi) - cumulative(lo)) / (hi - lo)
+        mean: FloatArray = (cumulative(hi) - cumulative(lo)) / (hi - lo)
+        return mean
 
 
 def chen_rincon_mora_ocv_v(state_of_charge: ArrayLike) -> FloatArray:

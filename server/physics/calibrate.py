@@ -109,7 +109,8 @@ class PropellerFit(FitReport):
 
     def table(self) -> PropellerTable:
         """The fitted static table (NaN CP when power was not identified)."""
-        return PropellerTable(self.diameter_m, self.rpm, self.thrust_coefficient, self.power_coefficient)
+        return PropellerTable(as_float_array(self.diameter_m), self.rpm, self.thrust_coefficient,
+                              self.power_coefficient)
 
 
 @dataclass(frozen=True)
@@ -119,8 +120,9 @@ class MotorFit(FitReport):
     def motor_params(self, on_path_resistance_ohm: float = 0.010,
                      inductance_h: float = DEFAULT_INDUCTANCE_H) -> MotorParams:
         """Motor parameters for :mod:`drive`: the winding share ``R' - R_on_path`` of the fitted resistance."""
-        return MotorParams(self.value("kv_rpm_per_v"), self.value("resistance_ohm") - on_path_resistance_ohm,
-                           self.value("no_load_current_a"), inductance_h)
+        return MotorParams(as_float_array(self.value("kv_rpm_per_v")),
+                           as_float_array(self.value("resistance_ohm") - on_path_resistance_ohm),
+                           as_float_array(self.value("no_load_current_a")), as_float_array(inductance_h))
 
 
 @dataclass(frozen=True)
@@ -130,8 +132,8 @@ class EscFit(FitReport):
     base: EscParams = field(default_factory=EscParams)
 
     def esc_params(self) -> EscParams:
-        return replace(self.base, pwm_loss_coefficient=self.value("pwm_loss_coefficient"),
-                       on_path_resistance_ohm=self.value("on_path_resistance_ohm"))
+        return replace(self.base, pwm_loss_coefficient=as_float_array(self.value("pwm_loss_coefficient")),
+                       on_path_resistance_ohm=as_float_array(self.value("on_path_resistance_ohm")))
 
 
 @dataclass(frozen=True)
@@ -336,7 +338,9 @@ class _Problem:
                  fixed_propellers: Mapping[str, PropellerTable], knot_count: int) -> None:
         self.runs = list(runs)
         self.esc = esc
-        cat = lambda name: np.concatenate([getattr(r, name) for r in self.runs])  # noqa: E731
+        def cat(name: str) -> FloatArray:
+            return np.concatenate([getattr(r, name) for r in self.runs])
+
         self.v, self.i, self.rpm, self.thrust = cat("bus_voltage_v"), cat("bus_current_a"), cat("rpm"), cat("thrust_n")
         self.duty = cat("duty")
         self.rho = np.concatenate([np.full(r.rpm.size, r.density_kg_m3) for r in self.runs])

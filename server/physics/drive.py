@@ -109,7 +109,7 @@ def _bus_residual(v: FloatArray, q: Problem, motor_voltage: FloatArray, current:
 
 
 def _solve_bus(p: Problem, motor_voltage: FloatArray, current: FloatArray, active: np.ndarray,
-               method: SolveMethod) -> tuple[FloatArray, FloatArray]:
+               method: SolveMethod) -> tuple[FloatArray, IntArray]:
     """Bus voltage for known per-rotor V_m and I; returns (V_bus, status) with INFEASIBLE_THRUST for d > 1.
 
     The physical root lies in ``[V_m, V_oc]``: at V = V_m the duty is 1 and P_extra = 0, so the bracket is
@@ -213,7 +213,9 @@ def _omega_for_thrust(p: Problem, thrust: FloatArray, active: np.ndarray,
         ct_first = np.broadcast_to(p.thrust_coefficient[:, 0], (n,))
         ct_min = np.broadcast_to(np.nanmin(ct_valid, axis=-1), (n,))
         scale = np.broadcast_to(p.density_kg_m3 * p.diameter_m**4 / (4.0 * math.pi**2), (n,))
-        omega_at = lambda ct: np.sqrt(thrust / (ct * scale))  # noqa: E731 - Ω where T = ct rho n^2 D^4
+        def omega_at(ct: FloatArray) -> FloatArray:  # Ω where T = ct rho n^2 D^4
+            return np.sqrt(thrust / (ct * scale))
+
         if p.axis == "rpm":
             lower, upper = omega_at(ct_max) * 0.999, omega_at(ct_min) * 1.001
             good = active & (ct_min > 0.0)

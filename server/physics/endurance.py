@@ -33,6 +33,7 @@ from ._types import SECONDS_PER_HOUR_S, ArrayLike, FloatArray, IntArray, Status,
 from .battery import PackParams, current_for_power_a, peukert_effective_current_a
 from .esc import EscParams
 from .motor import MotorParams
+from .operating_point import OperatingPoint
 from .propeller import PropellerTable
 
 DEFAULT_SOC_STEP = 0.01
@@ -79,8 +80,8 @@ class EnduranceResult:
 class ThrustEnduranceResult(EnduranceResult):
     """Constant-thrust discharge, with the full operating points at the start and at the stop."""
 
-    start: drive.OperatingPoint | None = None
-    end: drive.OperatingPoint | None = None
+    start: OperatingPoint | None = None
+    end: OperatingPoint | None = None
 
 
 @dataclass(frozen=True)
@@ -158,8 +159,9 @@ def _march(node_at: Callable[[FloatArray], _Node], initial_soc: FloatArray, fina
         prev2 = _where_node(ok_now, prev, prev2)
         prev = _where_node(ok_now, node, prev)
         h_prev = np.where(ok_now, h_now, h_prev)
-    result = EnduranceResult(*(np.asarray(a) for a in (time, stop_soc, reason, first.pack_current_a, end_current,
-                                                       first.terminal_voltage_v, end_voltage)))
+    result = EnduranceResult(np.asarray(time), np.asarray(stop_soc), np.asarray(reason),
+                             np.asarray(first.pack_current_a), np.asarray(end_current),
+                             np.asarray(first.terminal_voltage_v), np.asarray(end_voltage))
     return result, last_valid_soc, stop_soc
 
 
@@ -246,7 +248,7 @@ def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams
     ThrustEnduranceResult
         Time, stop reason, and the operating points at start and stop.
     """
-    def solve(soc: ArrayLike) -> drive.OperatingPoint:
+    def solve(soc: ArrayLike) -> OperatingPoint:
         return drive.for_thrust(thrust_n, motor=motor, esc=esc, propeller=propeller,
                                 open_circuit_voltage_v=pack.open_circuit_voltage_v(soc),
                                 pack_resistance_ohm=pack.resistance_ohm, rotor_count=rotor_count,
@@ -272,8 +274,7 @@ def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams
                                       (StopReason.CUTOFF_VOLTAGE, StopReason.THRUST_UNREACHABLE))
     at_stop, at_last = solve(stop), solve(last_valid)
     solved_at_stop = np.isin(at_stop.status, (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR))
-    end = drive.OperatingPoint(**{f.name: np.where(solved_at_stop, getattr(at_stop, f.name),
-                                                   getattr(at_last, f.name))
-                                  for f in fields(drive.OperatingPoint)})
+    end = OperatingPoint(**{f.name: np.where(solved_at_stop, getattr(at_stop, f.name), getattr(at_last, f.name))
+                            for f in fields(OperatingPoint)})
     return ThrustEnduranceResult(**{f.name: getattr(result, f.name) for f in fields(EnduranceResult)},
                                  start=start, end=end)

@@ -53,6 +53,7 @@ class EscParams:
         Continuous current rating; exceeding it flags ``Status.OVER_CURRENT``. [A]
     """
 
+    # Defaults are plain floats (the ignores): __post_init__ turns every field into a float64 array.
     on_path_resistance_ohm: FloatArray = 0.010  # type: ignore[assignment]
     switching_frequency_hz: FloatArray = 24e3  # type: ignore[assignment]
     transition_time_s: FloatArray = 200e-9  # type: ignore[assignment]

@@ -50,6 +50,7 @@ class MotorParams:
     kv_rpm_per_v: FloatArray
     resistance_ohm: FloatArray
     no_load_current_a: FloatArray
+    # Defaults are plain floats (the ignores): __post_init__ turns every field into a float64 array.
     inductance_h: FloatArray = DEFAULT_INDUCTANCE_H  # type: ignore[assignment]
     max_current_a: FloatArray = np.inf  # type: ignore[assignment]
 

@@ -7,6 +7,7 @@ import typing
 from typing import Annotated, Any
 
 from pydantic import AfterValidator, BaseModel, Field, create_model
+from pydantic.config import JsonDict
 from pydantic.fields import FieldInfo
 
 
@@ -26,7 +27,7 @@ def ranged(tp: type, lo: float, hi: float, unit: str, *, description: str = "", 
             raise ValueError(f"must be between {_fmt(lo)} and {_fmt(hi)} {unit} (got {_fmt(value)})".strip())
         return value
 
-    extra = {"minimum": lo, "maximum": hi, "x-unit": unit}
+    extra: JsonDict = {"minimum": lo, "maximum": hi, "x-unit": unit}
     return Annotated[
         tp,
         AfterValidator(check),

@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING, TypeAlias
+
 from pydantic import BaseModel, ConfigDict, model_validator
 
 from server.schemas._fields import ranged, text
 
-Id = ranged(int, 1, 2**63 - 1, "")
+if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
+    Id: TypeAlias = int
+else:
+    Id = ranged(int, 1, 2**63 - 1, "")
 
 
 class BenchRunMeta(BaseModel):
@@ -15,10 +20,10 @@ class BenchRunMeta(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     name: text(160) = ""  # type: ignore[valid-type]
-    motor_id: Id  # type: ignore[valid-type]
-    propeller_id: Id  # type: ignore[valid-type]
-    esc_id: Id  # type: ignore[valid-type]
-    pack_id: Id | None = None  # type: ignore[valid-type]
+    motor_id: Id
+    propeller_id: Id
+    esc_id: Id
+    pack_id: Id | None = None
     supply_voltage_v: ranged(float, 0.5, 200, "V", description="Bench supply voltage") | None = None  # type: ignore[valid-type]
     altitude_m: ranged(float, -500, 11_000, "m") = 0.0  # type: ignore[valid-type]
     air_temperature_c: ranged(float, -60, 60, "°C") | None = None  # type: ignore[valid-type]

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Literal
+from typing import TYPE_CHECKING, Literal, TypeAlias
 
 from pydantic import BaseModel, ConfigDict, model_validator
 
@@ -38,7 +38,7 @@ class MissionCreate(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     name: text(120, min_length=1)  # type: ignore[valid-type]
-    airframe_id: int
+    airframe_id: ranged(int, 1, 2**63 - 1, "", description="Id of one of your airframes")  # type: ignore[valid-type]
     kind: MissionKind
     payload_mass_g: ranged(float, 0, 500_000, "g", description="Payload carried") = 0.0  # type: ignore[valid-type]
     altitude_m: ranged(float, -500, 11_000, "m", description="Altitude (ISA troposphere)") = 0.0  # type: ignore[valid-type]
@@ -52,12 +52,12 @@ class MissionCreate(BaseModel):
     usable_fraction: ranged(float, 0.1, 1, "", description="Usable share of pack capacity (1 − reserve)") = 0.8  # type: ignore[valid-type]
     cutoff_v_per_cell: ranged(float, 2.5, 4.0, "V", description="Under-load cut-off per cell") = 3.3  # type: ignore[valid-type]
     esc_current_margin: ranged(float, 1, 5, "", description="ESC continuous rating ÷ full-throttle motor current") = 1.2  # type: ignore[valid-type]
-    pack_current_fraction: ranged(float, 0.05, 1, "", description="Allowed share of the pack's continuous C rating") = (
-        0.8  # type: ignore[valid-type]
+    pack_current_fraction: ranged(float, 0.05, 1, "", description="Allowed share of the pack's continuous C rating") = (  # type: ignore[valid-type]
+        0.8
     )
-    cruise_state_of_charge: ranged(
+    cruise_state_of_charge: ranged(  # type: ignore[valid-type]
         float, 0.05, 1, "", description="State of charge at which the cruise point is scored"
-    ) = 0.5  # type: ignore[valid-type]
+    ) = 0.5
     max_all_up_mass_g: ranged(float, 1, 1_000_000, "g", description="Largest acceptable all-up mass") | None = None  # type: ignore[valid-type]
     notes: text(4000) = ""  # type: ignore[valid-type]
 
@@ -79,5 +79,9 @@ class MissionRead(MissionCreate):
     updated_at: datetime
 
 
-AirframeUpdate = partial_model(AirframeCreate, "AirframeUpdate")
-MissionUpdate = partial_model(MissionCreate, "MissionUpdate")
+if TYPE_CHECKING:  # built at run time, so mypy only knows they are models
+    AirframeUpdate: TypeAlias = BaseModel
+    MissionUpdate: TypeAlias = BaseModel
+else:
+    AirframeUpdate = partial_model(AirframeCreate, "AirframeUpdate")
+    MissionUpdate = partial_model(MissionCreate, "MissionUpdate")

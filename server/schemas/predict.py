@@ -2,14 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal, TypeAlias
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged
 from server.schemas.parts import ForwardRow, StaticRow
 
-Id = ranged(int, 1, 2**63 - 1, "", description="Id of a saved part of your team")
+if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
+    Id: TypeAlias = int
+else:
+    Id = ranged(int, 1, 2**63 - 1, "", description="Id of a saved part of your team")
 
 
 class BatteryIn(BaseModel):
@@ -17,7 +20,7 @@ class BatteryIn(BaseModel):
 
     model_config = ConfigDict(extra="forbid")
 
-    id: Id | None = None  # type: ignore[valid-type]
+    id: Id | None = None
     supply_voltage_v: ranged(float, 0.5, 200, "V", description="Stiff bench supply: no sag, no endurance") | None = None  # type: ignore[valid-type]  # noqa: E501
     chemistry: Literal["lipo", "lihv", "liion"] | None = None
     cells_series: ranged(int, 1, 24, "cells") | None = None  # type: ignore[valid-type]
@@ -39,7 +42,7 @@ class BatteryIn(BaseModel):
 class EscIn(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
-    id: Id | None = None  # type: ignore[valid-type]
+    id: Id | None = None
     r_on_path_ohm: ranged(float, 0, 1, "Ω") | None = None  # type: ignore[valid-type]
     pwm_frequency_khz: ranged(float, 1, 200, "kHz") | None = None  # type: ignore[valid-type]
     switching_time_ns: ranged(float, 0, 10_000, "ns") | None = None  # type: ignore[valid-type]
@@ -53,7 +56,7 @@ class EscIn(BaseModel):
 class MotorIn(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
-    id: Id | None = None  # type: ignore[valid-type]
+    id: Id | None = None
     kv_rpm_per_v: ranged(float, 10, 20_000, "rpm/V") | None = None  # type: ignore[valid-type]
     winding_resistance_ohm: ranged(float, 0.0005, 50, "Ω") | None = None  # type: ignore[valid-type]
     no_load_current_a: ranged(float, 0, 50, "A") | None = None  # type: ignore[valid-type]
@@ -64,7 +67,7 @@ class MotorIn(BaseModel):
 class PropellerIn(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
-    id: Id | None = None  # type: ignore[valid-type]
+    id: Id | None = None
     diameter_in: ranged(float, 1, 80, "in") | None = None  # type: ignore[valid-type]
     pitch_in: ranged(float, 0.5, 80, "in") | None = None  # type: ignore[valid-type]
     blades: ranged(int, 1, 8, "blades") | None = None  # type: ignore[valid-type]

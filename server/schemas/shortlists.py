@@ -3,13 +3,16 @@
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any
+from typing import TYPE_CHECKING, Any, TypeAlias
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged, text
 
-Id = ranged(int, 1, 2**63 - 1, "")
+if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
+    Id: TypeAlias = int
+else:
+    Id = ranged(int, 1, 2**63 - 1, "")
 MAX_ENTRIES = 6
 
 
@@ -17,7 +20,7 @@ class ShortlistCreate(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     name: text(120, min_length=1)  # type: ignore[valid-type]
-    mission_id: Id  # type: ignore[valid-type]
+    mission_id: Id
 
 
 class ShortlistRename(BaseModel):
@@ -31,12 +34,12 @@ class EntryCreate(BaseModel):
 
     model_config = ConfigDict(extra="forbid")
 
-    battery_id: Id | None = None  # type: ignore[valid-type]
-    esc_id: Id | None = None  # type: ignore[valid-type]
-    motor_id: Id | None = None  # type: ignore[valid-type]
-    propeller_id: Id | None = None  # type: ignore[valid-type]
+    battery_id: Id | None = None
+    esc_id: Id | None = None
+    motor_id: Id | None = None
+    propeller_id: Id | None = None
     packs_in_parallel: ranged(int, 1, 4, "packs") = 1  # type: ignore[valid-type]
-    ranking_id: Id | None = None  # type: ignore[valid-type]
+    ranking_id: Id | None = None
     rank: ranged(int, 1, 1_000_000, "") | None = None  # type: ignore[valid-type]
     note: text(4000) = ""  # type: ignore[valid-type]
 

@@ -167,5 +167,6 @@ def cost_of(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: np
             motor: np.ndarray, prop: np.ndarray) -> np.ndarray:
     """Cost of the candidates (k packs + one ESC, motor and propeller per rotor); NaN when a price is unknown."""
     n_r = float(mission.rotor_count)
-    return (np.asarray(k, dtype=np.float64) * library.packs.cost[pack]
-            + n_r * (library.escs.cost[esc] + library.motors.cost[motor] + library.propellers.cost[prop]))
+    cost: np.ndarray = (np.asarray(k, dtype=np.float64) * library.packs.cost[pack]
+                        + n_r * (library.escs.cost[esc] + library.motors.cost[motor] + library.propellers.cost[prop]))
+    return cost

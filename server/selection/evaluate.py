@@ -148,7 +148,8 @@ def _extra_loss(bus_v: np.ndarray, motor_v: np.ndarray, coefs: tuple[np.ndarray,
     """P_extra at bus voltage V for a motor voltage V_m (duty ``V_m / V < 1``). [W]"""
     c_rip, c_sw, c_dt, c_cap, c_pwm = coefs
     u = 1.0 - motor_v / bus_v  # 1 - d
-    return (c_rip * u + c_cap * (1.0 - u) + c_pwm) * u + c_sw * bus_v + c_dt
+    extra: np.ndarray = (c_rip * u + c_cap * (1.0 - u) + c_pwm) * u + c_sw * bus_v + c_dt
+    return extra
 
 
 def loss_coefficients(batch: Batch, current: np.ndarray,

@@ -23,9 +23,9 @@ Metrics (``FleetOptions.metric``):
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import asdict, dataclass
-from typing import Any
+from typing import Any, TypedDict
 
 import numpy as np
 
@@ -225,6 +225,15 @@ def optimise(missions: Sequence[MissionCandidates], options: FleetOptions) -> Fl
         solve_time_s=solution.seconds)
 
 
+class _CommonSolveArgs(TypedDict):
+    """Keyword arguments of :func:`fleet_model.solve` shared by every solve of :func:`tradeoff`."""
+
+    metric: str
+    limits: Mapping[str, int | None]
+    time_limit_s: float | None
+    mip_rel_gap: float
+
+
 def tradeoff(missions: Sequence[MissionCandidates], options: FleetOptions) -> list[TradeoffPoint]:
     """Price of commonality: the best fleet metric for every total number of stocked part numbers.
 
@@ -252,8 +261,8 @@ def tradeoff(missions: Sequence[MissionCandidates], options: FleetOptions) -> li
     _check(missions, options)
     problem = fm.from_missions(missions, options.metric)
     limits = options.limits()
-    common = {"metric": options.metric, "limits": limits, "time_limit_s": options.time_limit_s,
-              "mip_rel_gap": options.mip_rel_gap}
+    common: _CommonSolveArgs = {"metric": options.metric, "limits": limits, "time_limit_s": options.time_limit_s,
+                                "mip_rel_gap": options.mip_rel_gap}
     fewest = fm.solve(problem, goal="parts", **common)
     if fewest.status == 2:
         return []

@@ -158,7 +158,8 @@ def from_missions(missions: Sequence[Any], metric: str) -> Problem:
 
 def original(problem: Problem, choice: np.ndarray) -> np.ndarray:
     """Input candidate index of each mission's choice (``choice`` holds positions within the problem)."""
-    return problem.candidate_index[problem.offsets[:-1] + choice]
+    index: np.ndarray = problem.candidate_index[problem.offsets[:-1] + choice]
+    return index
 
 
 def _linking(problem: Problem) -> sparse.csr_array:

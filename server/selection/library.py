@@ -14,7 +14,7 @@ field names follow ``server/models/parts.py`` converted to SI). Conventions for 
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
@@ -22,6 +22,9 @@ from server.physics import atmosphere
 from server.physics.esc import EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H
 from server.physics.propeller import PropellerTable
+
+if TYPE_CHECKING:
+    from _typeshed import DataclassInstance
 
 MissionKind = Literal["hover", "cruise"]
 INCH_M = 0.0254
@@ -31,8 +34,8 @@ def _float(a: object) -> np.ndarray:
     return np.atleast_1d(np.asarray(a, dtype=np.float64))
 
 
-def _freeze(obj: object, skip: tuple[str, ...] = ("ids",)) -> None:
-    for f in fields(obj):  # type: ignore[arg-type]
+def _freeze(obj: DataclassInstance, skip: tuple[str, ...] = ("ids",)) -> None:
+    for f in fields(obj):
         value = getattr(obj, f.name)
         if f.name in skip or not isinstance(value, np.ndarray | list | tuple | float | int):
             continue
@@ -48,8 +51,8 @@ def _ids(ids: object, n: int) -> np.ndarray:
     return arr
 
 
-def _check_lengths(obj: object, n: int) -> None:
-    for f in fields(obj):  # type: ignore[arg-type]
+def _check_lengths(obj: DataclassInstance, n: int) -> None:
+    for f in fields(obj):
         value = getattr(obj, f.name)
         if isinstance(value, np.ndarray) and value.ndim == 1 and value.shape != (n,):
             raise ValueError(f"{type(obj).__name__}.{f.name} has {value.shape[0]} rows, expected {n}")
@@ -103,7 +106,8 @@ class PackLibrary:
                      "max_continuous_c", "mass_kg"):
             a = getattr(self, name)
             ok &= np.isfinite(a) & (a > 0)
-        return ok & np.isfinite(self.cell_resistance_ohm) & (self.cell_resistance_ohm >= 0)
+        valid: np.ndarray = ok & np.isfinite(self.cell_resistance_ohm) & (self.cell_resistance_ohm >= 0)
+        return valid
 
 
 @dataclass(frozen=True)
@@ -167,7 +171,8 @@ class EscLibrary:
         for name in ("r_on_path_ohm", "switching_frequency_hz", "switching_time_s", "dead_time_s", "diode_drop_v",
                      "input_esr_ohm", "pwm_loss_coefficient"):
             ok &= np.isfinite(getattr(self, name))
-        return ok & (self.switching_frequency_hz > 0)
+        valid: np.ndarray = ok & (self.switching_frequency_hz > 0)
+        return valid
 
     def params(self, index: np.ndarray | slice = slice(None)) -> EscParams:
         """Physics ESC parameters of the rows ``index`` (continuous rating as max current)."""
@@ -229,7 +234,8 @@ class MotorLibrary:
         ok &= np.isfinite(self.resistance_ohm) & (self.resistance_ohm >= 0)
         ok &= np.isfinite(self.no_load_current_a) & (self.no_load_current_a >= 0)
         ok &= (self.inductance_h > 0) & ~np.isnan(self.max_current_a) & ~np.isnan(self.max_cells)
-        return ok & np.isfinite(self.mass_kg)
+        valid: np.ndarray = ok & np.isfinite(self.mass_kg)
+        return valid
 
 
 @dataclass(frozen=True)
@@ -273,8 +279,9 @@ class PropellerLibrary:
 
     def valid(self) -> np.ndarray:
         """Propellers whose diameter and mass are known (the tables are checked per mission)."""
-        return np.isfinite(self.diameter_m) & (self.diameter_m > 0) & np.isfinite(self.diameter_in) & np.isfinite(
-            self.mass_kg)
+        valid: np.ndarray = (np.isfinite(self.diameter_m) & (self.diameter_m > 0) & np.isfinite(self.diameter_in)
+                             & np.isfinite(self.mass_kg))
+        return valid
 
 
 @dataclass(frozen=True)

@@ -87,7 +87,8 @@ def nondominated(x: np.ndarray) -> np.ndarray:
     elites = x[_elites(x)]
     keep = keep[~_dominated_by(x, elites)]
     y = x[keep]
-    return keep[~_dominated_by(y, _strongest_first(y))]
+    front: np.ndarray = keep[~_dominated_by(y, _strongest_first(y))]
+    return front
 
 
 class ParetoFront:

@@ -22,6 +22,7 @@ Speed variable ``y``: rpm for a static table, rev/s for a forward table. With it
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 
 import numpy as np
@@ -177,7 +178,8 @@ class PropModel:
     # --- segment lookups -------------------------------------------------------------------------------
 
     def _flat(self, q: np.ndarray, seg: np.ndarray) -> np.ndarray:
-        return q * (self.width + 1) + seg
+        flat: np.ndarray = q * (self.width + 1) + seg
+        return flat
 
     def coefficients(self, q: np.ndarray, seg: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """CT and CP at speed variable ``y`` on segment ``seg`` of propeller ``q``. [-]"""
@@ -192,7 +194,8 @@ class PropModel:
         if self.axis == "rpm":
             return y
         with np.errstate(divide="ignore"):
-            return self.airspeed_m_s / (y * self.diameter_m[q])
+            advance_ratio: np.ndarray = self.airspeed_m_s / (y * self.diameter_m[q])
+            return advance_ratio
 
     def omega_rad_s(self, y: np.ndarray) -> np.ndarray:
         """Shaft speed from the speed variable. [rad/s]"""
@@ -272,7 +275,7 @@ class PropModel:
         return y, seg
 
 
-def _count_true(tests, shape: tuple[int, ...], n: int) -> np.ndarray:  # type: ignore[no-untyped-def]
+def _count_true(tests: Iterable[np.ndarray], shape: tuple[int, ...], n: int) -> np.ndarray:
     """Number of true tests (at most ``n``) per element; a uint8 counter is far cheaper than adding booleans
     to an intp array."""
     count = np.zeros(shape, dtype=np.uint8 if n < 256 else np.intp)
@@ -288,7 +291,8 @@ def _count_below(value: np.ndarray, knots: np.ndarray) -> np.ndarray:
         return _count_true((value >= knots[..., j] for j in range(knots.shape[-1])), shape, knots.shape[-1])
 
 
-def _newton(fun, y0: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:  # type: ignore[no-untyped-def]
+def _newton(fun: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]], y0: np.ndarray, lo: np.ndarray,
+            hi: np.ndarray) -> np.ndarray:
     """Vectorised Newton on a function smooth and monotone on ``[lo, hi]`` (one table segment), iterates kept
     inside the segment, until every relative step is below :data:`NEWTON_RTOL`."""
     y = np.array(y0, dtype=np.float64)

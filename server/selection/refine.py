@@ -21,7 +21,7 @@ from dataclasses import fields, replace
 import numpy as np
 
 from server.physics import endurance, fast
-from server.physics._types import STANDARD_GRAVITY_M_S2
+from server.physics._types import STANDARD_GRAVITY_M_S2, as_float_array
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
@@ -42,7 +42,8 @@ def _pack(library: PartsLibrary, mission: MissionSpec, cs: CandidateSet) -> Pack
                       cell_resistance_ohm=pk.cell_resistance_ohm[cs.pack],
                       cells_parallel=pk.cells_parallel[cs.pack] * k,
                       full_voltage_per_cell_v=pk.full_voltage_per_cell_v[cs.pack],
-                      usable_fraction=mission.usable_fraction, cutoff_voltage_per_cell_v=mission.cutoff_v_per_cell)
+                      usable_fraction=as_float_array(mission.usable_fraction),
+                      cutoff_voltage_per_cell_v=as_float_array(mission.cutoff_v_per_cell))
 
 
 def refine(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: CandidateSet,

@@ -34,7 +34,7 @@ def parse(raw: bytes) -> BenchSamples:
 
 
 def _check_parts(session: Session, team_id: int, meta: BenchRunMeta) -> None:
-    errors = []
+    errors: list[FieldError] = []
     for kind, field, part_id in (("motors", "motor_id", meta.motor_id), ("propellers", "propeller_id",
                                  meta.propeller_id), ("escs", "esc_id", meta.esc_id), ("batteries", "pack_id",
                                  meta.pack_id)):
@@ -195,8 +195,8 @@ def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, A
     run_ids = [r.id for r, _ in data]
     notes = "; ".join(fit.notes)
     stored = [_store_esc(session, team_id, esc_id, fit, run_ids, notes)]
-    for motor_id, mfit in fit.motors.items():
-        stored.append(_store_motor(session, team_id, int(motor_id), fit, mfit, run_ids, notes))
+    for motor_key, mfit in fit.motors.items():
+        stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids, notes))
     for prop_id, pfit in fit.propellers.items():
         stored.append(_store_propeller(session, team_id, int(prop_id), pfit, run_ids, notes))
     session.flush()
@@ -361,7 +361,8 @@ def _reason(code: str) -> Any:
 def model_at_samples(session: Session, *, team_id: int, run: BenchRun) -> list[dict[str, Any]]:
     """Electrical power and current the (calibrated) model predicts at each sample's thrust and bus voltage."""
     n = len(run.samples)
-    empty = [{"model_electrical_power_w": None, "model_bus_current_a": None, "residual_power": None}] * n
+    empty: list[dict[str, float | None]] = [
+        {"model_electrical_power_w": None, "model_bus_current_a": None, "residual_power": None}] * n
     try:
         resolved = {}
         for kind, pid, fields, defaults in (("escs", run.esc_id, ps.ESC_FIELDS, ps.ESC_DEFAULTS),
@@ -385,7 +386,7 @@ def model_at_samples(session: Session, *, team_id: int, run: BenchRun) -> list[d
     op = drive.for_thrust(thrust, motor=motor, esc=esc, propeller=static, open_circuit_voltage_v=voltage,
                           density_kg_m3=run.air_density_kg_m3)
     ok = np.isin(op.status, [Status.OK, Status.OVER_CURRENT]) & (thrust > 0)
-    out = []
+    out: list[dict[str, float | None]] = []
     for i in range(n):
         if not ok.flat[i]:
             out.append(empty[0])

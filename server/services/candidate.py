@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session
 from server.errors import FieldError, InvalidInput
 from server.models import Battery, Esc, Mission, Motor, Propeller
 from server.physics import atmosphere, drive, endurance, fast
-from server.physics._types import STANDARD_GRAVITY_M_S2, Status
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
 from server.physics.battery import PackParams
 from server.physics.operating_point import OperatingPoint
 from server.services import parts as parts_service
@@ -121,20 +121,20 @@ def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds)
         table, airspeed = forward, float(mission.cruise_airspeed_m_s or 0)
     else:
         thrust, table, airspeed = weight_n / rotors, static, 0.0
-    costs = [battery.unit_cost, esc.unit_cost, motor.unit_cost, prop.unit_cost]
+    battery_cost, esc_cost, motor_cost, prop_cost = battery.unit_cost, esc.unit_cost, motor.unit_cost, prop.unit_cost
     cost = (
         None
-        if any(c is None for c in costs)
-        else (k * battery.unit_cost + rotors * (esc.unit_cost + motor.unit_cost + prop.unit_cost))
-    )  # type: ignore[operator]
+        if battery_cost is None or esc_cost is None or motor_cost is None or prop_cost is None
+        else (k * battery_cost + rotors * (esc_cost + motor_cost + prop_cost))
+    )
     pack = PackParams(
-        cells_series=battery.cells_series,
-        capacity_ah=battery.capacity_mah / 1000 * k,
-        cell_resistance_ohm=battery.cell_resistance_mohm / 1000,
-        cells_parallel=battery.cells_parallel * k,
-        full_voltage_per_cell_v=ps.FULL_VOLTAGE_PER_CELL_V[battery.chemistry],
-        usable_fraction=mission.usable_fraction,
-        cutoff_voltage_per_cell_v=mission.cutoff_v_per_cell,
+        cells_series=as_float_array(battery.cells_series),
+        capacity_ah=as_float_array(battery.capacity_mah / 1000 * k),
+        cell_resistance_ohm=as_float_array(battery.cell_resistance_mohm / 1000),
+        cells_parallel=as_float_array(battery.cells_parallel * k),
+        full_voltage_per_cell_v=as_float_array(ps.FULL_VOLTAGE_PER_CELL_V[battery.chemistry]),
+        usable_fraction=as_float_array(mission.usable_fraction),
+        cutoff_voltage_per_cell_v=as_float_array(mission.cutoff_v_per_cell),
     )
     kwargs = {
         "motor": ps.motor_params(resolved["motors"]),
@@ -254,7 +254,7 @@ def curves(c: Candidate, steps: int = 40) -> dict[str, Any]:
     mission = c.mission
     duties = np.linspace(0.15, 1.0, steps)
     sweep = drive.at_duty(duties, **c.point_at_soc(mission.cruise_state_of_charge))
-    ok = np.isin(sweep.status, [Status.OK, Status.OVER_CURRENT])
+    ok = np.isin(sweep.status, [Status.OK, Status.OVER_CURRENT]) & (sweep.thrust_n > 0)  # windmilling in cruise
     socs = np.linspace(1.0, 1.0 - mission.usable_fraction, 41)
     held = drive.for_thrust(
         np.full(socs.shape, c.thrust_required_n),

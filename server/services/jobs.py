@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from datetime import UTC, datetime
+from functools import partial
 from typing import Any
 
 from sqlalchemy import select, update
@@ -20,4 +21,4 @@ def recover(factory: sessionmaker[Session], model: Any, run: Callable[[sessionma
                   .values(status="failed", error="interrupted by a server restart", finished_at=datetime.now(UTC)))
         queued = list(s.scalars(select(model.id).where(model.status == "queued")))
     for job_id in queued:
-        submit(lambda jid=job_id: run(factory, jid))
+        submit(partial(run, factory, job_id))

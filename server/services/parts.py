@@ -6,14 +6,14 @@ import csv
 import io
 import json
 from collections.abc import Sequence
-from typing import Any
+from typing import Any, Literal, overload
 
 from pydantic import BaseModel, ValidationError
 from sqlalchemy import Column, func, or_, select
 from sqlalchemy.orm import Session
 
 from server.errors import Conflict, FieldError, InvalidInput, NotFound, PreconditionRequired, VersionMismatch
-from server.models import PART_MODELS, PartColumns
+from server.models import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS
 from server.services._validation import field_errors, validate
 
@@ -105,6 +105,16 @@ def list_parts(
     return list(session.scalars(stmt)), int(total)
 
 
+@overload
+def get_part(session: Session, *, team_id: int, kind: Literal["batteries"], part_id: int) -> Battery: ...
+@overload
+def get_part(session: Session, *, team_id: int, kind: Literal["escs"], part_id: int) -> Esc: ...
+@overload
+def get_part(session: Session, *, team_id: int, kind: Literal["motors"], part_id: int) -> Motor: ...
+@overload
+def get_part(session: Session, *, team_id: int, kind: Literal["propellers"], part_id: int) -> Propeller: ...
+@overload
+def get_part(session: Session, *, team_id: int, kind: str, part_id: int) -> PartColumns: ...
 def get_part(session: Session, *, team_id: int, kind: str, part_id: int) -> PartColumns:
     """A part of the team, or NotFound (another team's part is indistinguishable from a missing one)."""
     model = model_for(kind)
@@ -126,7 +136,10 @@ def _apply(part: PartColumns, data: BaseModel) -> None:
 
 def create_part(session: Session, *, team_id: int, user_id: int | None, kind: str, data: BaseModel) -> PartColumns:
     model = model_for(kind)
-    part = model(team_id=team_id, created_by_id=user_id, updated_by_id=user_id, version=1)
+    # The same assignments SQLAlchemy's keyword constructor makes (``PartColumns`` is the unmapped mixin, so its
+    # type has no keyword constructor).
+    part = model()
+    part.team_id, part.created_by_id, part.updated_by_id, part.version = team_id, user_id, user_id, 1
     _apply(part, data)
     session.add(part)
     session.flush()

@@ -6,6 +6,7 @@ documented default, physics.md reference model v1), ``calibrated`` (fitted from 
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -16,6 +17,7 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
 from server.models import Calibration, PartColumns
+from server.physics._types import as_float_array
 from server.physics.battery import LIHV_FULL_V_PER_CELL, LIPO_FULL_V_PER_CELL
 from server.physics.esc import EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H, MotorParams
@@ -102,7 +104,7 @@ def from_part(session: Session, team_id: int, kind: str, part: PartColumns, fiel
 
 
 def resolve(session: Session | None, team_id: int | None, kind: str, given: BaseModel, where: str,
-            fields: list[str], defaults: dict[str, float] | None = None) -> Resolved:
+            fields: list[str], defaults: Mapping[str, object] | None = None) -> Resolved:
     """Saved part (when ``given.id``; calibration wins) overlaid with the request's fields, then defaults."""
     values: dict[str, Any] = {}
     sources: dict[str, str] = {}
@@ -137,7 +139,7 @@ def esc_params(esc: Resolved) -> EscParams:
         on_path_resistance_ohm=v["r_on_path_ohm"], switching_frequency_hz=v["pwm_frequency_khz"] * 1e3,
         transition_time_s=v["switching_time_ns"] * 1e-9, dead_time_s=v["dead_time_ns"] * 1e-9,
         body_diode_drop_v=v["diode_drop_v"], input_esr_ohm=v["input_esr_ohm"], pwm_loss_coefficient=v["k_pwm"],
-        max_current_a=v.get("continuous_current_a") or np.inf,
+        max_current_a=as_float_array(v.get("continuous_current_a") or np.inf),
     )
 
 
@@ -147,7 +149,7 @@ def motor_params(motor: Resolved) -> MotorParams:
     return MotorParams(
         kv_rpm_per_v=v["kv_rpm_per_v"], resistance_ohm=v["winding_resistance_ohm"],
         no_load_current_a=v["no_load_current_a"], inductance_h=v["inductance_uh"] * 1e-6,
-        max_current_a=v.get("max_current_a") or np.inf,
+        max_current_a=as_float_array(v.get("max_current_a") or np.inf),
     )
 
 

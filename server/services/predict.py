@@ -10,10 +10,10 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
 from server.physics import atmosphere, drive, endurance
-from server.physics._types import STANDARD_GRAVITY_M_S2, Status
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
 from server.physics.battery import PackParams
 from server.physics.operating_point import OperatingPoint
-from server.physics.propeller import tip_mach_number
+from server.physics.propeller import PropellerTable, tip_mach_number
 from server.schemas.predict import PredictRequest
 from server.services import power_system as ps
 
@@ -58,10 +58,14 @@ class System:
             outside_air_temperature_k=outside_k,
         ))
         self.airspeed = conditions.airspeed_m_s
-        if self.airspeed > 0 and self.forward_table is None:
-            raise InvalidInput("No forward-flight data", [FieldError(
-                "propeller.forward_table", "an airspeed above 0 needs CT/CP versus advance ratio J")])
-        self.table = self.forward_table if self.airspeed > 0 else self.static_table
+        self.table: PropellerTable
+        if self.airspeed > 0:
+            if self.forward_table is None:
+                raise InvalidInput("No forward-flight data", [FieldError(
+                    "propeller.forward_table", "an airspeed above 0 needs CT/CP versus advance ratio J")])
+            self.table = self.forward_table
+        else:
+            self.table = self.static_table
         b = request.battery
         if b.supply_voltage_v is not None:
             self.pack: PackParams | None = None
@@ -75,7 +79,7 @@ class System:
                 cells_series=v["cells_series"], capacity_ah=v["capacity_mah"] / 1000 * k,
                 cell_resistance_ohm=v["cell_resistance_mohm"] / 1000, cells_parallel=v["cells_parallel"] * k,
                 wiring_resistance_ohm=b.wiring_resistance_ohm,
-                full_voltage_per_cell_v=ps.FULL_VOLTAGE_PER_CELL_V[v["chemistry"]],
+                full_voltage_per_cell_v=as_float_array(ps.FULL_VOLTAGE_PER_CELL_V[v["chemistry"]]),
             )
             self.open_circuit_v = float(self.pack.open_circuit_voltage_v(b.state_of_charge))
             self.pack_resistance = float(self.pack.resistance_ohm)
@@ -189,6 +193,7 @@ def _endurance(system: System) -> dict[str, Any] | None:
         kwargs = system.solve_kwargs()
         for key in ("open_circuit_voltage_v", "pack_resistance_ohm"):
             kwargs.pop(key)
+        assert spec.thrust_n is not None  # EnduranceIn: exactly one of thrust_n and power_w is given
         result = endurance.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc, **kwargs)
         start, end = _state(result.start), _state(result.end)
     seconds = _f(np.ravel(result.time_s)[0])
@@ -229,7 +234,7 @@ def curve(system: System, steps: int = 40) -> dict[str, list[float | None]]:
     """Electrical power and specific thrust versus thrust per rotor over a duty sweep (for charts)."""
     duties = np.linspace(0.15, 1.0, steps)
     op = drive.at_duty(duties, **system.solve_kwargs())
-    ok = np.isin(op.status, [Status.OK, Status.OVER_CURRENT])
+    ok = np.isin(op.status, [Status.OK, Status.OVER_CURRENT]) & (op.thrust_n > 0)  # windmilling in cruise
     return {
         "duty": [float(d) for d in duties[ok]],
         "thrust_n": [float(t) for t in op.thrust_n[ok]],

@@ -5,14 +5,14 @@ A ranking always runs from its stored snapshot, so re-running a stored ranking r
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, Literal, overload
 
 import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from server.models import PART_MODELS, Mission
-from server.physics.propeller import PropellerTable
+from server.physics.propeller import PropellerAxis, PropellerTable
 from server.selection import EscLibrary, MissionSpec, MotorLibrary, PackLibrary, PartsLibrary, PropellerLibrary
 from server.services import power_system as ps
 
@@ -107,7 +107,12 @@ def _column(rows: list[dict[str, Any]], name: str, scale: float = 1.0, missing: 
     return np.array([_num(r.get(name), missing) * (scale if r.get(name) is not None else 1.0) for r in rows])
 
 
-def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: str) -> PropellerTable | None:
+@overload
+def _table(rows: list[dict[str, Any]], key: Literal["static_table"], axis_key: str,
+           axis: PropellerAxis) -> PropellerTable: ...
+@overload
+def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: PropellerAxis) -> PropellerTable | None: ...
+def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: PropellerAxis) -> PropellerTable | None:
     if key == "forward_table" and not any(r.get(key) for r in rows):
         return None
     diameters = [_num(r.get("diameter_in")) * INCH_M for r in rows]
@@ -121,8 +126,8 @@ def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: str) -> Pr
         else:
             tables.append(([np.nan], [np.nan], [np.nan]))
     if not tables:
-        return PropellerTable(np.zeros(0), np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1)), axis)  # type: ignore[arg-type]
-    return PropellerTable.from_rows(diameters, tables, axis=axis)  # type: ignore[arg-type]
+        return PropellerTable(np.zeros(0), np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1)), axis)
+    return PropellerTable.from_rows(diameters, tables, axis=axis)
 
 
 def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
@@ -171,7 +176,7 @@ def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
         ids=np.array([r["id"] for r in pr], dtype=np.int64),
         diameter_m=_column(pr, "diameter_in", INCH_M),
         diameter_in=_column(pr, "diameter_in"),
-        static=_table(pr, "static_table", "rpm", "rpm"),  # type: ignore[arg-type]
+        static=_table(pr, "static_table", "rpm", "rpm"),
         forward=_table(pr, "forward_table", "j", "advance_ratio"),
         mass_kg=_column(pr, "mass_g", 1e-3),
         cost=_column(pr, "unit_cost"),

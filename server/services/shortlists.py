@@ -130,13 +130,10 @@ def add_entry(
             source.battery_id, source.esc_id, source.motor_id, source.propeller_id, source.packs_in_parallel
         )
     else:
-        ids = candidate.CandidateIds(
-            data.battery_id,
-            data.esc_id,
-            data.motor_id,  # type: ignore[arg-type]
-            data.propeller_id,
-            data.packs_in_parallel,
-        )  # type: ignore[arg-type]
+        battery_id, esc_id, motor_id, propeller_id = data.battery_id, data.esc_id, data.motor_id, data.propeller_id
+        # EntryCreate's validator: without ranking_id and rank all four part ids are given.
+        assert battery_id is not None and esc_id is not None and motor_id is not None and propeller_id is not None
+        ids = candidate.CandidateIds(battery_id, esc_id, motor_id, propeller_id, data.packs_in_parallel)
         for kind, part_id, field in (
             ("batteries", ids.battery_id, "battery_id"),
             ("escs", ids.esc_id, "esc_id"),
@@ -264,7 +261,7 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
     """Fresh numbers for every entry (current engine and calibrations), rows with the best value marked."""
     shortlist = get(session, team_id=team_id, shortlist_id=shortlist_id)
     mission = _mission(session, shortlist)
-    entries = []
+    entries: list[dict[str, Any]] = []
     for entry in shortlist.entries:
         metrics = candidate.evaluate(session, team_id=team_id, mission=mission, ids=_ids(entry), with_curves=True)
         added_by = session.get(User, entry.added_by_id) if entry.added_by_id else None

@@ -208,3 +208,10 @@ def test_an_unreadable_csv_is_a_422(client: TestClient, team: TeamFixture) -> No
     response = client.post("/api/v1/parts/motors/import", files={"file": ("m.csv", content, "text/csv")},
                            headers=team.headers())
     assert response.status_code == 422 and response.json()["errors"][0]["field"] == "file"
+
+
+def test_an_id_beyond_64_bits_is_a_422_not_a_500(client: TestClient, team: TeamFixture) -> None:
+    """Regression (found by fuzzing): an airframe_id above 2**63 - 1 overflowed SQLite's INTEGER with a 500."""
+    response = client.post("/api/v1/missions", json={"name": "m", "airframe_id": 2**63, "kind": "hover"},
+                           headers=team.headers())
+    assert response.status_code == 422 and response.json()["errors"][0]["field"] == "airframe_id"
