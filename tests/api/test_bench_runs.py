@@ -7,6 +7,7 @@ motor_propeller_testing, P. Cao and J. Strawson, 2018, MIT licence; see PROVENAN
 from __future__ import annotations
 
 import json
+from typing import Any
 
 import pytest
 from fastapi import FastAPI
@@ -45,39 +46,48 @@ def stand(app: FastAPI, client: TestClient) -> tuple[TeamFixture, dict[str, int]
                 mass_g=30,
             ),
         ).json()["id"],
-        "prop": client.post(
-            "/api/v1/parts/propellers",
-            headers=h,
-            json=part_payload(
-                "propellers",
-                name="5x4x3",
-                diameter_in=5,
-                pitch_in=4,
-                blades=3,
-                ct=None,
-                cp=None,
-                static_table=None,
-                mass_g=4,
-            ),
-        ).json()["id"],
-        "prop2": client.post(
-            "/api/v1/parts/propellers",
-            headers=h,
-            json=part_payload(
-                "propellers",
-                name="5x4.5x3",
-                diameter_in=5,
-                pitch_in=4.5,
-                blades=3,
-                ct=None,
-                cp=None,
-                static_table=None,
-                mass_g=4,
-            ),
-        ).json()["id"],
+        **{
+            key: client.post(
+                "/api/v1/parts/propellers",
+                headers=h,
+                json=part_payload(
+                    "propellers",
+                    name=name,
+                    diameter_in=5,
+                    pitch_in=pitch,
+                    blades=3,
+                    ct=None,
+                    cp=None,
+                    static_table=None,
+                    mass_g=4,
+                ),
+            ).json()["id"]
+            for key, name, pitch in (("prop", "5x4x3", 4), ("prop2", "5x4.5x3", 4.5))
+        },
         "esc": client.post("/api/v1/parts/escs", headers=h, json=part_payload("escs")).json()["id"],
     }
     return team, ids
+
+
+FOUR_SWEEPS = (
+    ("m_a_p_1_v7p4", "prop"),
+    ("m_a_p_1_v11p1", "prop"),
+    ("m_a_p_2_v7p4", "prop2"),
+    ("m_a_p_2_v11p1", "prop2"),
+)
+
+
+def upload_sweeps(
+    client: TestClient, team: TeamFixture, ids: dict[str, int], sweeps: tuple[tuple[str, str], ...] = FOUR_SWEEPS
+) -> Any:
+    """Upload reference sweeps (test id, which propeller); returns the last response."""
+    response = None
+    for test_id, prop in sweeps:
+        response = upload(
+            client, team, ids | {"prop": ids[prop]}, csv_of(test_id), supply_voltage_v=7.4 if "7p4" in test_id else 11.1
+        )
+        assert response.status_code == 201, response.text
+    return response
 
 
 def upload(client: TestClient, team: TeamFixture, ids: dict[str, int], content: str, **meta: object):  # type: ignore[no-untyped-def]
@@ -111,12 +121,7 @@ def test_unknown_motor_data_needs_a_bench_run_then_predict_uses_the_calibration(
     alone = {c["part_kind"]: c for c in first.json()["calibration"]["calibrations"]}
     assert alone["motors"]["parameters"]["winding_resistance_ohm"]["status"] == "fixed"
     assert "do not determine it" in alone["motors"]["notes"]
-    for test_id, prop in (("m_a_p_1_v11p1", "prop"), ("m_a_p_2_v7p4", "prop2"), ("m_a_p_2_v11p1", "prop2")):
-        response = upload(
-            client, team, ids | {"prop": ids[prop]}, csv_of(test_id), supply_voltage_v=7.4 if "7p4" in test_id else 11.1
-        )
-        assert response.status_code == 201, response.text
-    body = response.json()
+    body = upload_sweeps(client, team, ids, FOUR_SWEEPS[1:]).json()
     assert body["calibration"]["error"] is None
     kinds = {c["part_kind"]: c for c in body["calibration"]["calibrations"]}
     assert set(kinds) == {"escs", "motors", "propellers"}
@@ -206,22 +211,22 @@ def test_calibrate_on_demand_and_list(client: TestClient, stand: tuple[TeamFixtu
     assert client.get("/api/v1/bench-runs", headers=other.headers()).json() == []
 
 
-def test_rankings_use_the_calibration(client: TestClient, stand: tuple[TeamFixture, dict[str, int]],
-                                      app: FastAPI) -> None:
+def test_rankings_use_the_calibration(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]], app: FastAPI
+) -> None:
     """A ranking's snapshot carries the calibrated values (and says which) instead of the entered ones."""
     from server.models import Mission
     from server.services.ranking_inputs import snapshot
 
     team, ids = stand
     h = team.headers()
-    for test_id, prop in (("m_a_p_1_v7p4", "prop"), ("m_a_p_1_v11p1", "prop"), ("m_a_p_2_v7p4", "prop2"),
-                          ("m_a_p_2_v11p1", "prop2")):
-        assert upload(client, team, ids | {"prop": ids[prop]}, csv_of(test_id),
-                      supply_voltage_v=7.4 if "7p4" in test_id else 11.1).status_code == 201
-    airframe = client.post("/api/v1/airframes", json={"name": "5 in quad", "rotor_count": 4, "frame_mass_g": 300},
-                           headers=h).json()["id"]
-    mission_id = client.post("/api/v1/missions", json={"name": "Hover", "airframe_id": airframe, "kind": "hover"},
-                             headers=h).json()["id"]
+    upload_sweeps(client, team, ids)
+    airframe = client.post(
+        "/api/v1/airframes", json={"name": "5 in quad", "rotor_count": 4, "frame_mass_g": 300}, headers=h
+    ).json()["id"]
+    mission_id = client.post(
+        "/api/v1/missions", json={"name": "Hover", "airframe_id": airframe, "kind": "hover"}, headers=h
+    ).json()["id"]
     with app.state.sessionmaker() as session:
         mission = session.get(Mission, mission_id)
         assert mission is not None
