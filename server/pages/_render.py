@@ -10,8 +10,11 @@ from fastapi import Request
 from fastapi.responses import HTMLResponse
 from fastapi.templating import Jinja2Templates
 from markupsafe import Markup, escape
+from pydantic import ValidationError
 
+from server.errors import DomainError
 from server.security import new_csrf_token
+from server.services._validation import field_errors
 
 
 def fmt_number(value: Any, digits: int = 3) -> str:
@@ -83,3 +86,10 @@ def render(
 def form_values(form: Any) -> dict[str, str]:
     """Text fields of a submitted form, stripped, without the CSRF token."""
     return {k: v.strip() for k, v in form.items() if isinstance(v, str) and k != "csrf_token"}
+
+
+def error_lines(exc: ValidationError | DomainError) -> list[str]:
+    """Human lines for a form's error list: "row N, field: message" for every problem."""
+    if isinstance(exc, ValidationError):
+        return [f"{e.field}: {e.message}" for e in field_errors(exc)]
+    return [(f"row {e.row}, " if e.row else "") + f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]

@@ -10,11 +10,10 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
-from server.pages._render import form_values, render
+from server.pages._render import error_lines, form_values, render
 from server.schemas.bench import BenchRunMeta
 from server.services import bench as bench_service
 from server.services import parts as parts_service
-from server.services._validation import field_errors
 
 router = APIRouter(prefix="/bench-runs")
 META_FIELDS = list(BenchRunMeta.model_fields)
@@ -28,14 +27,6 @@ def _options(session: Any, caller: Caller) -> dict[str, Any]:
 
 def _meta(values: dict[str, str]) -> BenchRunMeta:
     return BenchRunMeta.model_validate({k: v for k, v in values.items() if k in META_FIELDS and v != ""})
-
-
-def _errors(exc: Exception) -> list[str]:
-    if isinstance(exc, ValidationError):
-        return [f"{e.field}: {e.message}" for e in field_errors(exc)]
-    if isinstance(exc, DomainError):
-        return [(f"row {e.row}, " if e.row else "") + f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
-    raise exc
 
 
 def _list(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
@@ -70,7 +61,7 @@ async def preview(request: Request, caller: PageWriter, session: SessionDep) -> 
     try:
         result = bench_service.preview(session, team_id=caller.team_id, meta=_meta(values), raw=raw)
     except (ValidationError, DomainError) as exc:
-        return _list(request, session, caller, errors=_errors(exc), values=values)
+        return _list(request, session, caller, errors=error_lines(exc), values=values)
     return _list(request, session, caller, preview=result, values=values)
 
 
@@ -83,7 +74,7 @@ async def upload(request: Request, caller: PageWriter, session: SessionDep) -> R
         session.commit()
     except (ValidationError, DomainError) as exc:
         session.rollback()
-        return _list(request, session, caller, 422, errors=_errors(exc), values=values)
+        return _list(request, session, caller, 422, errors=error_lines(exc), values=values)
     return RedirectResponse(f"/bench-runs/{run.id}", status_code=303)
 
 

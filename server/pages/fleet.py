@@ -10,13 +10,12 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
-from server.pages._render import form_values, render
+from server.pages._render import error_lines, form_values, render
 from server.schemas.fleet import FleetPlanCreate
 from server.schemas.shortlists import EntryCreate
 from server.services import fleet as fleet_service
 from server.services import missions as missions_service
 from server.services import shortlists as shortlists_service
-from server.services._validation import field_errors
 
 router = APIRouter(prefix="/fleet-plans")
 KINDS = ("batteries", "escs", "motors", "propellers")
@@ -61,8 +60,7 @@ async def start(request: Request, caller: PageWriter, session: SessionDep) -> Re
         session.commit()
     except (ValidationError, DomainError) as exc:
         session.rollback()
-        errors = ([f"{e.field}: {e.message}" for e in field_errors(exc)] if isinstance(exc, ValidationError)
-                  else [f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail])
+        errors = error_lines(exc)
         return _index(request, session, caller, 422, errors=errors, values=values)
     request.app.state.jobs.submit(fleet_service.run, request.app.state.sessionmaker, row.id)
     return RedirectResponse(f"/fleet-plans/{row.id}", status_code=303)

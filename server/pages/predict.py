@@ -10,11 +10,10 @@ from pydantic import ValidationError
 
 from server.deps import PageCaller, SessionDep
 from server.errors import DomainError
-from server.pages._render import render
+from server.pages._render import error_lines, render
 from server.schemas.predict import PredictRequest
 from server.services import parts as parts_service
 from server.services import predict as predict_service
-from server.services._validation import field_errors
 
 router = APIRouter()
 
@@ -89,10 +88,8 @@ def predict_page(request: Request, caller: PageCaller, session: SessionDep) -> H
                 for p in result["points"] if p["thrust_n"] is not None],
                 "losses": [{"label": f"{k} {v:g}", **p["losses_w"]}
                            for p in result["points"] for k, v in p["request"].items()]}
-        except ValidationError as exc:
-            errors = [f"{e.field}: {e.message}" for e in field_errors(exc)]
-        except DomainError as exc:
-            errors = [f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
+        except (ValidationError, DomainError) as exc:
+            errors = error_lines(exc)
     return render(request, "pages/predict.html", {
         "caller": caller, "nav": "predict", "options": options, "values": values, "overrides": OVERRIDES,
         "result": result, "errors": errors, "chart": chart,

@@ -10,23 +10,14 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
-from server.pages._render import form_values, render
+from server.pages._render import error_lines, form_values, render
 from server.schemas.shortlists import EntryCreate, ShortlistCreate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
 from server.services import shortlists as shortlists_service
-from server.services._validation import field_errors
 
 router = APIRouter(prefix="/shortlists")
 NEAR_LIMIT = 0.9  # a part at ≥ 90 % of its rating gets a caution (common practice, no source)
-
-
-def _errors(exc: Exception) -> list[str]:
-    if isinstance(exc, ValidationError):
-        return [f"{e.field}: {e.message}" for e in field_errors(exc)]
-    if isinstance(exc, DomainError):
-        return [f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
-    raise exc
 
 
 def _list_page(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
@@ -53,7 +44,7 @@ async def create_shortlist(request: Request, caller: PageWriter, session: Sessio
         session.commit()
     except (ValidationError, DomainError) as exc:
         session.rollback()
-        return _list_page(request, session, caller, 422, errors=_errors(exc), values=values)
+        return _list_page(request, session, caller, 422, errors=error_lines(exc), values=values)
     return RedirectResponse(f"/shortlists/{row.id}", status_code=303)
 
 
@@ -112,7 +103,7 @@ async def add_entry(request: Request, caller: PageWriter, session: SessionDep, s
         session.commit()
     except (ValidationError, DomainError) as exc:
         session.rollback()
-        return _compare_page(request, session, caller, shortlist_id, 422, errors=_errors(exc), values=values)
+        return _compare_page(request, session, caller, shortlist_id, 422, errors=error_lines(exc), values=values)
     return RedirectResponse(request.headers.get("x-return-to") or f"/shortlists/{shortlist_id}", status_code=303)
 
 
