@@ -27,7 +27,14 @@ class FormField:
     help: str = ""
 
 
+LABELS = {"ct": "CT", "cp": "CP", "kv_rpm_per_v": "Kv", "k_pwm": "k_pwm", "no_load_current_a": "No-load current I0",
+          "static_table": "Static table (rpm, CT, CP per line)", "forward_table": "Forward table (J, CT, CP per line)",
+          "r_on_path_ohm": "Conduction resistance R_on", "input_esr_ohm": "Input-capacitor ESR"}
+
+
 def _label(name: str) -> str:
+    if name in LABELS:
+        return LABELS[name]
     words = name.replace("_", " ")
     for suffix in (
         " mohm",
