@@ -20,6 +20,7 @@ INCH_M = 0.0254
 PART_FIELDS = {
     "batteries": [
         "name",
+        "part_number",
         "mass_g",
         "unit_cost",
         "chemistry",
@@ -29,9 +30,19 @@ PART_FIELDS = {
         "cell_resistance_mohm",
         "max_continuous_c",
     ],
-    "escs": ["name", "mass_g", "unit_cost", "continuous_current_a", "min_cells", "max_cells", *ps.ESC_DEFAULTS],
+    "escs": [
+        "name",
+        "part_number",
+        "mass_g",
+        "unit_cost",
+        "continuous_current_a",
+        "min_cells",
+        "max_cells",
+        *ps.ESC_DEFAULTS,
+    ],
     "motors": [
         "name",
+        "part_number",
         "mass_g",
         "unit_cost",
         "kv_rpm_per_v",
@@ -43,6 +54,7 @@ PART_FIELDS = {
     ],
     "propellers": [
         "name",
+        "part_number",
         "mass_g",
         "unit_cost",
         "diameter_in",
@@ -108,8 +120,9 @@ def _column(rows: list[dict[str, Any]], name: str, scale: float = 1.0, missing: 
 
 
 @overload
-def _table(rows: list[dict[str, Any]], key: Literal["static_table"], axis_key: str,
-           axis: PropellerAxis) -> PropellerTable: ...
+def _table(
+    rows: list[dict[str, Any]], key: Literal["static_table"], axis_key: str, axis: PropellerAxis
+) -> PropellerTable: ...
 @overload
 def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: PropellerAxis) -> PropellerTable | None: ...
 def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: PropellerAxis) -> PropellerTable | None:
