@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -12,7 +13,7 @@ from fastapi.templating import Jinja2Templates
 from markupsafe import Markup, escape
 from pydantic import ValidationError
 
-from server.errors import DomainError
+from server.errors import DomainError, InvalidInput
 from server.security import new_csrf_token
 from server.services._validation import field_errors
 
@@ -93,3 +94,31 @@ def error_lines(exc: ValidationError | DomainError) -> list[str]:
     if isinstance(exc, ValidationError):
         return [f"{e.field}: {e.message}" for e in field_errors(exc)]
     return [(f"row {e.row}, " if e.row else "") + f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
+
+
+def form_version(values: dict[str, str]) -> int:
+    """The version an edit form was loaded with (0 when missing or garbled: the save then reports a conflict)."""
+    raw = values.get("version", "")
+    return int(raw) if raw.isdigit() else 0
+
+
+def save_edit(
+    session: Any, form_errors: dict[str, str], save: Callable[[], object]
+) -> tuple[dict[str, str], str] | None:
+    """Run ``save`` and commit unless the form already has errors.
+
+    Returns None when saved; otherwise the field errors and a message for the form (a version conflict or another
+    domain error), with the transaction rolled back.
+    """
+    if form_errors:
+        return form_errors, ""
+    try:
+        save()
+        session.commit()
+        return None
+    except InvalidInput as exc:
+        session.rollback()
+        return {e.field: e.message for e in exc.errors}, ""
+    except DomainError as exc:
+        session.rollback()
+        return {}, exc.detail

@@ -9,9 +9,9 @@ from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from pydantic import BaseModel, ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
-from server.errors import DomainError, InvalidInput
+from server.errors import InvalidInput
 from server.pages._forms import form_fields, form_to_data, values_of
-from server.pages._render import form_values, render
+from server.pages._render import form_values, form_version, render, save_edit
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.services import missions as missions_service
 from server.services._validation import field_errors
@@ -124,24 +124,11 @@ async def update_mission(request: Request, caller: PageWriter, session: SessionD
     values = form_values(await request.form())
     data, errors = form_to_data(MISSION_FIELDS, values)
     data["airframe_id"] = values.get("airframe_id")
-    message = ""
-    if not errors:
-        try:
-            missions_service.update_mission(
-                session,
-                team_id=caller.team_id,
-                mission_id=mission_id,
-                changes=data,
-                expected_version=int(values.get("version", "0") or 0),
-            )
-            session.commit()
-            return RedirectResponse("/missions", status_code=303)
-        except InvalidInput as exc:
-            session.rollback()
-            errors = {e.field: e.message for e in exc.errors}
-        except DomainError as exc:
-            session.rollback()
-            message = exc.detail
+    outcome = save_edit(session, errors, lambda: missions_service.update_mission(
+        session, team_id=caller.team_id, mission_id=mission_id, changes=data, expected_version=form_version(values)))
+    if outcome is None:
+        return RedirectResponse("/missions", status_code=303)
+    errors, message = outcome
     mission = missions_service.get_mission(session, team_id=caller.team_id, mission_id=mission_id)
     return render(
         request,
@@ -175,21 +162,12 @@ async def update_airframe(
 ) -> Response:
     values = form_values(await request.form())
     data, errors = form_to_data(AIRFRAME_FIELDS, values)
-    message = ""
-    if not errors:
-        try:
-            missions_service.update_airframe(
-                session, team_id=caller.team_id, airframe_id=airframe_id, changes=data,
-                expected_version=int(values.get("version", "0") or 0),
-            )
-            session.commit()
-            return RedirectResponse("/missions", status_code=303)
-        except InvalidInput as exc:
-            session.rollback()
-            errors = {e.field: e.message for e in exc.errors}
-        except DomainError as exc:
-            session.rollback()
-            message = exc.detail
+    outcome = save_edit(session, errors, lambda: missions_service.update_airframe(
+        session, team_id=caller.team_id, airframe_id=airframe_id, changes=data,
+        expected_version=form_version(values)))
+    if outcome is None:
+        return RedirectResponse("/missions", status_code=303)
+    errors, message = outcome
     airframe = missions_service.get_airframe(session, team_id=caller.team_id, airframe_id=airframe_id)
     return render(request, "pages/airframe_edit.html", {
         "caller": caller, "nav": "missions", "airframe": airframe, "fields": AIRFRAME_FIELDS, "values": values,

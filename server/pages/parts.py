@@ -10,9 +10,9 @@ from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
-from server.errors import DomainError, InvalidInput
+from server.errors import InvalidInput
 from server.pages._forms import FormField, form_fields, form_to_data, values_of
-from server.pages._render import form_values, render
+from server.pages._render import form_values, form_version, render, save_edit
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS
 from server.services import parts as parts_service
 from server.services._validation import field_errors
@@ -195,32 +195,15 @@ async def update_from_form(
 ) -> Response:
     kind = _kind(kind)
     form = form_values(await request.form())
-    part = parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
+    parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)  # another team: 404
     fields = form_fields(CREATE_SCHEMAS[kind])
     data, errors = form_to_data(fields, form)
-    message = ""
-    if not errors:
-        try:
-            version = int(form.get("version", "0"))
-            parts_service.update_part(
-                session,
-                team_id=caller.team_id,
-                user_id=caller.user_id,
-                kind=kind,
-                part_id=part_id,
-                changes=data,
-                expected_version=version,
-            )
-            session.commit()
-            return RedirectResponse(f"/parts/{kind}", status_code=303)
-        except InvalidInput as exc:
-            session.rollback()
-            errors = {e.field: e.message for e in exc.errors}
-        except DomainError as exc:
-            session.rollback()
-            message = exc.detail
-        except ValueError:
-            message = "The form lost its version number; reload the page."
+    outcome = save_edit(session, errors, lambda: parts_service.update_part(
+        session, team_id=caller.team_id, user_id=caller.user_id, kind=kind, part_id=part_id, changes=data,
+        expected_version=form_version(form)))
+    if outcome is None:
+        return RedirectResponse(f"/parts/{kind}", status_code=303)
+    errors, message = outcome
     part = parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
     return render(
         request,
