@@ -28,25 +28,27 @@ if not PG_URL:
     pytest.skip("no PostgreSQL (set LIFTMATCH_TEST_PG_URL)", allow_module_level=True)
 
 
-@pytest.fixture
-def pg_client() -> Iterator[TestClient]:
+def fresh_migrated_database() -> None:
+    """An empty public schema, migrated to head."""
     assert PG_URL
     engine = create_engine(PG_URL)
     with engine.begin() as conn:
         conn.execute(text("DROP SCHEMA public CASCADE; CREATE SCHEMA public"))
     engine.dispose()
     migrate.upgrade(PG_URL)
+
+
+@pytest.fixture
+def pg_client() -> Iterator[TestClient]:
+    assert PG_URL
+    fresh_migrated_database()
     with TestClient(create_app(make_settings(PG_URL))) as client:
         yield client
 
 
 def test_migrations_round_trip_and_match_models() -> None:
     assert PG_URL
-    engine = create_engine(PG_URL)
-    with engine.begin() as conn:
-        conn.execute(text("DROP SCHEMA public CASCADE; CREATE SCHEMA public"))
-    engine.dispose()
-    migrate.upgrade(PG_URL)
+    fresh_migrated_database()
     migrate.check(PG_URL)
     migrate.downgrade(PG_URL, "base")
     migrate.upgrade(PG_URL)

@@ -78,6 +78,11 @@ def _metric_columns(row: CandidateRow, escs: dict[int, float]) -> dict[str, Any]
     }
 
 
+def _candidate_key(row: CandidateRow) -> tuple[Any, ...]:
+    """One power system: its four parts and how many packs fly in parallel."""
+    return (row.battery_id, row.esc_id, row.motor_id, row.propeller_id, row.packs_in_parallel)
+
+
 def run(factory: sessionmaker[Session], ranking_id: int) -> None:
     """Run a queued ranking from its snapshot; progress, counts, results and timings go to the database."""
     with factory() as session:
@@ -140,13 +145,7 @@ def run(factory: sessionmaker[Session], ranking_id: int) -> None:
             return
         stored: dict[tuple[Any, ...], RankingResult] = {}
         for candidate in outcome.top:
-            key = (
-                candidate.battery_id,
-                candidate.esc_id,
-                candidate.motor_id,
-                candidate.propeller_id,
-                candidate.packs_in_parallel,
-            )
+            key = _candidate_key(candidate)
             stored[key] = RankingResult(
                 ranking_id=ranking_id,
                 rank=candidate.rank,
@@ -155,13 +154,7 @@ def run(factory: sessionmaker[Session], ranking_id: int) -> None:
                 **_metric_columns(candidate, escs),
             )
         for candidate in outcome.pareto:
-            key = (
-                candidate.battery_id,
-                candidate.esc_id,
-                candidate.motor_id,
-                candidate.propeller_id,
-                candidate.packs_in_parallel,
-            )
+            key = _candidate_key(candidate)
             if key in stored:
                 stored[key].pareto = True
             else:
