@@ -7,7 +7,7 @@ second and peak memory (max RSS above the baseline) are printed. A random sample
 then goes through the scalar brentq path of ``tests/physics/scalar_reference.py`` (cruise point by thrust and
 the two full-throttle points, one candidate at a time) and its rate is extrapolated.
 
-    python benchmarks/ranking.py [--combinations N] [--workers W] [--scalar-sample S]
+    python benchmarks/ranking.py [--combinations N] [--processes P] [--scalar-sample S]
 
 The last line is ``ranking: N combinations in S s (R combinations/s), scalar ratio X, peak memory M MB``.
 """
@@ -145,7 +145,8 @@ def scalar_rate(library: PartsLibrary, mission: MissionSpec, sample: int, seed: 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--combinations", type=int, default=math.prod(BASE))
-    parser.add_argument("--workers", type=int, default=1)
+    parser.add_argument("--processes", "--workers", dest="processes", type=int, default=1,
+                        help="screening processes on this machine (--workers is the old name)")
     parser.add_argument("--chunk-size", type=int, default=65_536)
     parser.add_argument("--scalar-sample", type=int, default=300)
     parser.add_argument("--top", type=int, default=50)
@@ -155,10 +156,10 @@ def main() -> None:
     rss0 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
     t0 = time.perf_counter()
     out = rank(library, MISSION, objective="cruise_power", top_n=args.top, chunk_size=args.chunk_size,
-               workers=args.workers)
+               processes=args.processes)
     wall = time.perf_counter() - t0
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss - rss0
-    children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss if args.workers > 1 else 0
+    children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss if args.processes > 1 else 0
     peak_mb = max(rss, children) / 1024.0
     n = out.combinations
     rate = n / wall

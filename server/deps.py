@@ -12,7 +12,7 @@ from sqlalchemy.orm import Session
 from server.config import Settings
 from server.errors import Forbidden, Unauthorized
 from server.security import csrf_matches
-from server.services import accounts
+from server.services import teams
 
 UNSAFE_METHODS = {"POST", "PUT", "PATCH", "DELETE"}
 MAX_ID = 2**63 - 1
@@ -60,7 +60,7 @@ def _from_bearer(request: Request, session: Session) -> Caller | None:
     scheme, _, token = header.partition(" ")
     if scheme.lower() != "bearer" or not token.strip():
         raise Unauthorized("Authorization header must be 'Bearer <api key>'")
-    found = accounts.resolve_api_key(session, token.strip())
+    found = teams.resolve_api_key(session, token.strip())
     if found is None:
         raise Unauthorized("Unknown or revoked API key")
     key, team = found
@@ -72,7 +72,7 @@ def _from_session(request: Request, session: Session) -> Caller | None:
     team_id = request.session.get("team_id")
     if not user_id or not team_id:
         return None
-    membership = accounts.membership(session, user_id=int(user_id), team_id=int(team_id))
+    membership = teams.membership(session, user_id=int(user_id), team_id=int(team_id))
     if membership is None:
         request.session.pop("user_id", None)
         return None

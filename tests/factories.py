@@ -9,7 +9,7 @@ from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
 from server.db import transaction
-from server.services import accounts
+from server.services import teams
 
 PASSWORD = "correct-horse-battery"
 
@@ -31,16 +31,16 @@ def make_team(app: FastAPI, name: str = "Alpha") -> TeamFixture:
     """A team with an owner, a viewer, and one read and one write key."""
     slug = name.lower().replace(" ", "-")
     with transaction(app.state.sessionmaker) as session:
-        team = accounts.create_team(session, name=name)
+        team = teams.create_team(session, name=name)
         settings = app.state.settings
-        accounts.create_user(
+        teams.create_user(
             session, settings=settings, email=f"owner@{slug}.example", password=PASSWORD, team=team, role="owner"
         )
-        accounts.create_user(
+        teams.create_user(
             session, settings=settings, email=f"viewer@{slug}.example", password=PASSWORD, team=team, role="viewer"
         )
-        _, read_key = accounts.create_api_key(session, team_id=team.id, scope="read")
-        _, write_key = accounts.create_api_key(session, team_id=team.id, scope="write")
+        _, read_key = teams.create_api_key(session, team_id=team.id, scope="read")
+        _, write_key = teams.create_api_key(session, team_id=team.id, scope="write")
         return TeamFixture(team.id, name, read_key, write_key, f"owner@{slug}.example", f"viewer@{slug}.example")
 
 
@@ -128,7 +128,7 @@ def load_demo(app: FastAPI) -> tuple[dict[str, str], dict[str, int]]:
 
     with transaction(app.state.sessionmaker) as session:
         seed.load_demo(session, settings=app.state.settings)
-        team = accounts.get_team_by_name(session, name="Northfold Survey")
-        _, key = accounts.create_api_key(session, team_id=team.id, scope="write")
+        team = teams.get_team_by_name(session, name="Northfold Survey")
+        _, key = teams.create_api_key(session, team_id=team.id, scope="write")
         missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}
     return {"Authorization": f"Bearer {key}"}, missions

@@ -17,7 +17,7 @@ from schemathesis.checks import not_a_server_error
 from server import migrate
 from server.db import make_engine, make_sessionmaker, transaction
 from server.main import create_app
-from server.services import accounts, seed
+from server.services import seed, teams
 from tests.conftest import make_settings
 
 _DB = Path(tempfile.mkdtemp(prefix="liftmatch-fuzz-")) / "fuzz.db"
@@ -26,8 +26,8 @@ migrate.upgrade(_URL)
 _SETTINGS = make_settings(_URL)
 with transaction(make_sessionmaker(make_engine(_URL))) as _session:
     seed.load_demo(_session, settings=_SETTINGS)
-    _team = accounts.get_team_by_name(_session, name="Northfold Survey")
-    _, _KEY = accounts.create_api_key(_session, team_id=_team.id, scope="write")
+    _team = teams.get_team_by_name(_session, name="Northfold Survey")
+    _, _KEY = teams.create_api_key(_session, team_id=_team.id, scope="write")
 
 app = create_app(_SETTINGS)
 schema = schemathesis.openapi.from_asgi("/api/v1/openapi.json", app)

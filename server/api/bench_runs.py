@@ -1,4 +1,4 @@
-"""JSON routes for bench runs (multipart upload), calibrations, and calibrating a part on demand."""
+"""JSON routes for bench runs: multipart upload (stored, then calibrated), list, read, delete."""
 
 from __future__ import annotations
 
@@ -11,8 +11,8 @@ from pydantic import ValidationError
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.errors import FieldError, InvalidInput
-from server.schemas.bench import BenchRunMeta, CalibrationSwitch
-from server.services import bench as bench_service
+from server.schemas.bench_runs import BenchRunMeta
+from server.services import bench_runs as bench_service
 from server.services._validation import field_errors
 from server.uploads import read_upload
 
@@ -74,32 +74,3 @@ def delete_run(caller: WriterDep, session: SessionDep, run_id: IdPath) -> Respon
     bench_service.delete_run(session, team_id=caller.team_id, run_id=run_id)
     session.commit()
     return Response(status_code=204)
-
-
-def _add_calibrate_routes(kind: str) -> None:
-    @router.post(f"/parts/{kind}/{{part_id}}/calibrate", summary=f"Calibrate from bench runs ({kind})")
-    def calibrate(caller: WriterDep, session: SessionDep, part_id: IdPath) -> dict[str, Any]:
-        result = bench_service.calibrate_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
-        session.commit()
-        return result
-
-    @router.get(f"/parts/{kind}/{{part_id}}/calibrations", summary=f"Calibrations of a part ({kind})")
-    def calibrations(caller: CallerDep, session: SessionDep, part_id: IdPath) -> list[dict[str, Any]]:
-        from server.services import parts as parts_service
-
-        parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
-        return [bench_service.calibration_dict(c)
-                for c in bench_service.list_calibrations(session, team_id=caller.team_id, kind=kind, part_id=part_id)]
-
-
-for _kind in ("escs", "motors", "propellers"):
-    _add_calibrate_routes(_kind)
-
-
-@router.patch("/calibrations/{calibration_id}")
-def switch_calibration(caller: WriterDep, session: SessionDep, calibration_id: IdPath,
-                       data: CalibrationSwitch) -> dict[str, Any]:
-    """Use (or stop using) a calibration for its part; at most one is active per part."""
-    row = bench_service.set_active(session, team_id=caller.team_id, calibration_id=calibration_id, active=data.active)
-    session.commit()
-    return bench_service.calibration_dict(row)

@@ -1,6 +1,7 @@
 """ORM models; importing this package registers every table on ``Base.metadata``."""
 
-from server.models.bench import BenchRun, BenchSample, Calibration
+from server.models.bench_runs import BenchRun, BenchSample
+from server.models.calibrations import Calibration
 from server.models.fleet import FleetPlan
 from server.models.missions import Airframe, Mission
 from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller

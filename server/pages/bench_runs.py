@@ -11,8 +11,9 @@ from pydantic import ValidationError
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.pages._render import error_lines, form_values, render
-from server.schemas.bench import BenchRunMeta
-from server.services import bench as bench_service
+from server.schemas.bench_runs import BenchRunMeta
+from server.services import bench_runs as bench_service
+from server.services import calibrations as calibration_service
 from server.services import parts as parts_service
 
 router = APIRouter(prefix="/bench-runs")
@@ -96,7 +97,7 @@ def run_page(request: Request, caller: PageCaller, session: SessionDep, run_id: 
 async def switch(request: Request, caller: PageWriter, session: SessionDep, run_id: IdPath,
                  calibration_id: IdPath) -> Response:
     values = form_values(await request.form())
-    bench_service.set_active(session, team_id=caller.team_id, calibration_id=calibration_id,
+    calibration_service.set_active(session, team_id=caller.team_id, calibration_id=calibration_id,
                              active=values.get("active") == "1")
     session.commit()
     return RedirectResponse(f"/bench-runs/{run_id}", status_code=303)

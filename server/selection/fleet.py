@@ -162,7 +162,7 @@ def _fleet_metric(missions: Sequence[MissionCandidates], choice: np.ndarray, met
     return float(min(float(m.margin_min[c]) for m, c in zip(missions, choice.tolist(), strict=True)))
 
 
-def _stocked(problem: fm.Problem, used: np.ndarray) -> dict[str, list[Any]]:
+def _stocked(problem: fm.FleetProblem, used: np.ndarray) -> dict[str, list[Any]]:
     return {kind: _sorted_ids(problem.part_ids[p] for p in np.flatnonzero(used & (problem.part_kind == k)))
             for k, kind in enumerate(KINDS)}
 

@@ -69,7 +69,7 @@ def _feasible(missions: Sequence[Any], groups: Sequence[tuple[str, str, int]]) -
     return solution.status != 2
 
 
-def kind_minimum(problem: fm.Problem, kind: str) -> int:
+def kind_minimum(problem: fm.FleetProblem, kind: str) -> int:
     """Fewest part numbers of one kind such that every mission has a candidate using one of them.
 
     A set-cover MILP over that kind's parts (other kinds unconstrained); a lower bound on the count of that kind
@@ -93,7 +93,7 @@ def battery_conflicts(missions: Sequence[Any]) -> list[tuple[Any, Any]]:
             for i, j in itertools.combinations(range(len(missions)), 2) if not sets[i] & sets[j]]
 
 
-def explain(missions: Sequence[Any], options: Any, problem: fm.Problem) -> Infeasibility:
+def explain(missions: Sequence[Any], options: Any, problem: fm.FleetProblem) -> Infeasibility:
     """Explain why no plan exists for ``missions`` under ``options`` (both already validated and infeasible)."""
     groups = _groups(options)
     kept = list(groups)

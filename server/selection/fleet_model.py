@@ -38,7 +38,7 @@ from scipy import sparse
 from scipy.optimize import Bounds, LinearConstraint, milp
 
 KINDS: tuple[str, ...] = ("batteries", "escs", "motors", "propellers")
-"""Part kinds, in the column order of :attr:`Problem.part_of`."""
+"""Part kinds, in the column order of :attr:`FleetProblem.part_of`."""
 
 ID_FIELDS: tuple[str, ...] = ("battery_id", "esc_id", "motor_id", "propeller_id")
 """Candidate fields holding the part ids, in :data:`KINDS` order."""
@@ -47,7 +47,7 @@ Goal = Literal["plan", "parts", "feasibility"]
 
 
 @dataclass(frozen=True)
-class Problem:
+class FleetProblem:
     """Index structure of a fleet instance (missions' candidates flattened, parts numbered across kinds).
 
     ``power_w``, ``margin_min`` and ``weight_of_x`` have one entry per candidate (``n_x``); ``offsets`` has
@@ -94,7 +94,7 @@ class Solution:
 
 
 def build(ids: Sequence[Sequence[np.ndarray]], power_w: Sequence[np.ndarray], margin_min: Sequence[np.ndarray],
-          weights: Sequence[float], candidate_index: Sequence[np.ndarray] | None = None) -> Problem:
+          weights: Sequence[float], candidate_index: Sequence[np.ndarray] | None = None) -> FleetProblem:
     """Number the parts and flatten the candidates of missions given as per-kind id arrays."""
     sizes = np.array([len(p) for p in power_w], dtype=np.intp)
     offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(np.intp)
@@ -114,7 +114,7 @@ def build(ids: Sequence[Sequence[np.ndarray]], power_w: Sequence[np.ndarray], ma
                     part_kind.append(k)
                     part_ids.append(raw)
                 part_of[offsets[m] + i, k] = p
-    return Problem(
+    return FleetProblem(
         offsets=offsets, mission_of_x=np.repeat(np.arange(len(sizes)), sizes), part_of=part_of,
         part_kind=np.array(part_kind, dtype=np.intp), part_ids=tuple(part_ids),
         power_w=np.concatenate(power_w).astype(float), margin_min=np.concatenate(margin_min).astype(float),
@@ -142,7 +142,7 @@ def undominated(ids: Sequence[np.ndarray], value: np.ndarray) -> np.ndarray:
     return np.sort(np.array(keep, dtype=np.intp))
 
 
-def from_missions(missions: Sequence[Any], metric: str) -> Problem:
+def from_missions(missions: Sequence[Any], metric: str) -> FleetProblem:
     """:func:`build` from validated ``MissionCandidates`` (duck-typed to avoid an import cycle), keeping only
     the :func:`undominated` candidates by ``metric``."""
     ids, power, margin, keep = [], [], [], []
@@ -156,13 +156,13 @@ def from_missions(missions: Sequence[Any], metric: str) -> Problem:
     return build(ids, power, margin, [m.weight for m in missions], keep)
 
 
-def original(problem: Problem, choice: np.ndarray) -> np.ndarray:
+def original(problem: FleetProblem, choice: np.ndarray) -> np.ndarray:
     """Input candidate index of each mission's choice (``choice`` holds positions within the problem)."""
     index: np.ndarray = problem.candidate_index[problem.offsets[:-1] + choice]
     return index
 
 
-def _linking(problem: Problem) -> sparse.csr_array:
+def _linking(problem: FleetProblem) -> sparse.csr_array:
     """Rows ``sum_{c in C_m(p)} x[m, c] - y[p] <= 0``, one per (mission, part used by that mission)."""
     n_x, n_p = problem.n_x, problem.n_parts
     rows, cols, vals = [], [], []
@@ -178,7 +178,7 @@ def _linking(problem: Problem) -> sparse.csr_array:
                             shape=(n_rows, n_x + n_p))
 
 
-def solve(problem: Problem, *, metric: str, limits: Mapping[str, int | None], total_limit: int | None = None,
+def solve(problem: FleetProblem, *, metric: str, limits: Mapping[str, int | None], total_limit: int | None = None,
           stocking_cost: float = 0.0, goal: Goal = "plan", integral_x: bool | None = None,
           time_limit_s: float | None = None, mip_rel_gap: float = 1e-7) -> Solution:
     """Build and solve the MILP; ``goal`` ``"parts"`` minimises the stocked count, ``"feasibility"`` has no cost.
@@ -276,7 +276,7 @@ def solve(problem: Problem, *, metric: str, limits: Mapping[str, int | None], to
                     None if gap is None else float(gap), seconds)
 
 
-def polish(problem: Problem, solution: Solution, metric: str) -> np.ndarray:
+def polish(problem: FleetProblem, solution: Solution, metric: str) -> np.ndarray:
     """Each mission's best candidate among those whose four parts are all stocked (ties: lowest index).
 
     The solver's own choice is always allowed, so the result is at least as good for every mission; it makes
@@ -297,7 +297,7 @@ def polish(problem: Problem, solution: Solution, metric: str) -> np.ndarray:
     return choice
 
 
-def used_parts(problem: Problem, choice: np.ndarray) -> np.ndarray:
+def used_parts(problem: FleetProblem, choice: np.ndarray) -> np.ndarray:
     """Boolean mask over parts: used by the assignment ``choice`` (local candidate index per mission)."""
     used = np.zeros(problem.n_parts, dtype=bool)
     used[problem.part_of[problem.offsets[:-1] + choice].ravel()] = True

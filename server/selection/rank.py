@@ -57,20 +57,20 @@ def _tasks(all_chunks: list[Chunk], the_plan: Plan, count: int) -> list[list[Chu
 
 
 def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropModel, the_plan: Plan,
-                     all_chunks: list[Chunk], partial: Partial, workers: int, progress: _Progress,
+                     all_chunks: list[Chunk], partial: Partial, processes: int, progress: _Progress,
                      should_cancel: Callable[[], bool] | None) -> bool:
-    """Screen with ``workers - 1`` forked processes plus this one; returns True when cancelled.
+    """Screen with ``processes - 1`` forked processes plus this one; returns True when cancelled.
 
-    The chunks are cut into ``4 workers`` contiguous tasks. All but the first go to the pool; this process
+    The chunks are cut into ``4 processes`` contiguous tasks. All but the first go to the pool; this process
     screens the first itself, then takes back (cancels and runs) tasks the pool has not started yet, last first,
     so that no core idles while work is queued. Partials merge in any order with the same result.
     """
     method = "fork" if "fork" in get_all_start_methods() else "spawn"
-    tasks = _tasks(all_chunks, the_plan, workers * 4)
+    tasks = _tasks(all_chunks, the_plan, processes * 4)
     total = max(the_plan.evaluated, 1)
     if not tasks:
         return False
-    with ProcessPoolExecutor(max_workers=workers - 1, mp_context=get_context(method)) as pool:
+    with ProcessPoolExecutor(max_workers=processes - 1, mp_context=get_context(method)) as pool:
         futures = [pool.submit(run_chunks, library, mission, the_plan, task, partial.objective, partial.pool_size,
                                partial.id_ranks) for task in tasks[1:]]
         pending: set[Future[Partial]] = set(futures)
@@ -110,7 +110,7 @@ def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropMod
 
 def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruise_power", top_n: int = 50,
          chunk_size: int = DEFAULT_CHUNK_SIZE, progress: Callable[[float], None] | None = None,
-         should_cancel: Callable[[], bool] | None = None, workers: int = 1) -> RankingOutcome:
+         should_cancel: Callable[[], bool] | None = None, processes: int = 1) -> RankingOutcome:
     """Rank every power system of ``library`` for ``mission``.
 
     Parameters
@@ -130,8 +130,8 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
         Called with a monotonically increasing fraction in [0, 1]; the last call of a finished run is 1.0.
     should_cancel : callable, optional
         Polled between chunks; when it returns True the run stops with ``cancelled=True`` and no rows.
-    workers : int, default 1
-        Processes that screen blocks in parallel (results are identical to ``workers=1``).
+    processes : int, default 1
+        Processes on this machine that screen blocks in parallel (results are identical to ``processes=1``).
 
     Returns
     -------
@@ -140,8 +140,8 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     """
     if objective not in OBJECTIVES:
         raise ValueError(f"unknown objective {objective!r}; choose one of {OBJECTIVES}")
-    if top_n < 0 or chunk_size < 1 or workers < 1:
-        raise ValueError("top_n must be >= 0, chunk_size and workers >= 1")
+    if top_n < 0 or chunk_size < 1 or processes < 1:
+        raise ValueError("top_n must be >= 0, chunk_size and processes >= 1")
     report = _Progress(progress)
     report(0.0)
     t0 = time.perf_counter()
@@ -152,8 +152,8 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     partial = Partial(objective, 2 * top_n + 16 if top_n else 0, _id_ranks(library))
     total = max(the_plan.evaluated, 1)
     cancelled = False
-    if workers > 1 and len(all_chunks) > 1:
-        cancelled = _screen_parallel(library, mission, model, the_plan, all_chunks, partial, workers, report,
+    if processes > 1 and len(all_chunks) > 1:
+        cancelled = _screen_parallel(library, mission, model, the_plan, all_chunks, partial, processes, report,
                                      should_cancel)
     else:
         for chunk in all_chunks:

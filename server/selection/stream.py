@@ -2,7 +2,7 @@
 
 A :class:`Partial` is the reduced state of any set of chunks. Two partials merge into the partial of the
 union (counts add; the best ``pool_size`` under a total order and the non-dominated set do not depend on the
-order in which candidates arrive), which is what makes results independent of chunk size and of workers.
+order in which candidates arrive), which is what makes results independent of chunk size and of screening processes.
 """
 
 from __future__ import annotations

@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
 from server.models import PART_MODELS, Airframe, BenchRun, BenchSample, Calibration, Mission
-from server.schemas.bench import BenchRunMeta
+from server.schemas.bench_runs import BenchRunMeta
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.schemas.parts import CREATE_SCHEMAS
 from server.services import parts as parts_service

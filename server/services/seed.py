@@ -12,10 +12,10 @@ from sqlalchemy.orm import Session
 from server.config import REPO_ROOT, Settings
 from server.errors import Conflict
 from server.models import PART_MODELS, Team
-from server.schemas.bench import BenchRunMeta
+from server.schemas.bench_runs import BenchRunMeta
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.schemas.parts import CREATE_SCHEMAS
-from server.services import accounts, bench, missions, parts
+from server.services import bench_runs, missions, parts, teams
 from server.services._validation import validate
 
 DEMO_FILE = REPO_ROOT / "seed_data" / "northfold.json"
@@ -35,9 +35,9 @@ def load_demo(session: Session, *, settings: Settings, if_missing: bool = False,
         if if_missing:
             return f"demo team {team_name!r} already loaded"
         raise Conflict(f"The demo team {team_name!r} already exists")
-    team = accounts.create_team(session, name=team_name)
+    team = teams.create_team(session, name=team_name)
     for user in data["users"]:
-        accounts.create_user(
+        teams.create_user(
             session,
             settings=settings,
             email=user["email"],
@@ -79,7 +79,7 @@ def load_demo(session: Session, *, settings: Settings, if_missing: bool = False,
                 notes=row.get("notes", ""),
             )
             raw = (path.parent / row["file"]).read_bytes()
-            bench.import_run(session, team_id=team.id, user_id=None, meta=meta, raw=raw, filename=row["file"])
+            bench_runs.import_run(session, team_id=team.id, user_id=None, meta=meta, raw=raw, filename=row["file"])
     listed = ", ".join(f"{n} {k}" for k, n in counts.items())
     return (
         f"loaded demo team {team_name!r}: {listed}, {len(data['airframes'])} airframes, "

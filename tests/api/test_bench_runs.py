@@ -15,7 +15,7 @@ from fastapi.testclient import TestClient
 
 from server.db import transaction
 from server.models import BenchRun, BenchSample, Calibration
-from tests.bench.reference import load_tests
+from tests.bench_runs.reference import load_tests
 from tests.factories import TeamFixture, make_team, part_payload
 
 

@@ -8,7 +8,7 @@ from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
 from server.db import transaction
-from server.services import accounts, seed
+from server.services import seed, teams
 from tests.factories import make_team
 
 VOLATILE = {"exported_at", "team"}
@@ -29,8 +29,8 @@ def strip_refs(doc: dict[str, Any]) -> dict[str, Any]:
 def test_round_trip_into_another_team_is_lossless(app: FastAPI, client: TestClient) -> None:
     with transaction(app.state.sessionmaker) as session:
         seed.load_demo(session, settings=app.state.settings)
-        team = accounts.get_team_by_name(session, name="Northfold Survey")
-        _, key = accounts.create_api_key(session, team_id=team.id, scope="read")
+        team = teams.get_team_by_name(session, name="Northfold Survey")
+        _, key = teams.create_api_key(session, team_id=team.id, scope="read")
     exported = client.get("/api/v1/export", headers={"Authorization": f"Bearer {key}"}).json()
     assert exported["format"] == "liftmatch-library" and exported["bench_runs"] and exported["calibrations"]
     other = make_team(app, "Copy")

@@ -1,4 +1,4 @@
-"""Orchestrator behaviour: chunking, workers, progress, cancel, determinism, mass feedback and the trade-off."""
+"""Orchestrator behaviour: chunking, processes, progress, cancel, determinism, mass feedback and the trade-off."""
 
 from __future__ import annotations
 
@@ -34,9 +34,9 @@ def test_chunk_size_does_not_change_results(kind: str) -> None:
     assert all(r == results[0] for r in results[1:])
 
 
-def test_two_workers_give_the_same_outcome_as_one() -> None:
+def test_two_processes_give_the_same_outcome_as_one() -> None:
     one = rank(parts.library(), parts.hover_mission(), top_n=8, chunk_size=5)
-    two = rank(parts.library(), parts.hover_mission(), top_n=8, chunk_size=5, workers=2)
+    two = rank(parts.library(), parts.hover_mission(), top_n=8, chunk_size=5, processes=2)
     assert _strip(two) == _strip(one)
 
 

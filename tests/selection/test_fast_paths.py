@@ -1,9 +1,9 @@
-"""The fast paths of the engine (repeated ESC defaults, segment tables, two workers, the vectorised discharge
+"""The fast paths of the engine (repeated ESC defaults, segment tables, two processes, the vectorised discharge
 refinement) against independent references:
 
 - the whole ranking on small random libraries against the one-candidate-at-a-time physics engine (tests/selection/
   brute.py): same order, metrics to 1e-6;
-- two workers against one;
+- two processes against one;
 - the fast refinement against :func:`server.physics.endurance.constant_thrust` for every stop reason (1e-9).
 """
 
@@ -165,10 +165,10 @@ def test_random_libraries_equal_brute_force(brute_small: list, case: int, object
     assert out.feasible + sum(out.rejected.values()) == out.combinations
 
 
-def test_two_workers_give_the_same_ranking() -> None:
+def test_two_processes_give_the_same_ranking() -> None:
     library, mission = CASES[0]
     one = rank(library, mission, top_n=30, chunk_size=500)
-    two = rank(library, mission, top_n=30, chunk_size=500, workers=2)
+    two = rank(library, mission, top_n=30, chunk_size=500, processes=2)
     assert (one.feasible, one.rejected, one.violations) == (two.feasible, two.rejected, two.violations)
     assert [r.as_dict() for r in one.top] == [r.as_dict() for r in two.top]
     assert [r.as_dict() for r in one.pareto] == [r.as_dict() for r in two.pareto]

@@ -1,4 +1,4 @@
-"""Bench runs: import (validate, flag, store), calibrate pooled by ESC, read back with derived quantities."""
+"""Bench runs: import (validate, flag, store, then calibrate), list, read back with derived quantities and the model."""
 
 from __future__ import annotations
 
@@ -6,24 +6,23 @@ import math
 from typing import Any
 
 import numpy as np
-from sqlalchemy import or_, select, update
+from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
-from server.bench.csv_format import BenchCsvError, BenchSamples, parse_bench_csv
-from server.bench.derived import derive_samples, run_air_density_kg_m3
-from server.bench.flags import REASON_TEXT, flag_samples
+from server.bench_runs.csv_format import BenchCsvError, BenchSamples, parse_bench_csv
+from server.bench_runs.derived import derive_samples, run_air_density_kg_m3
+from server.bench_runs.flags import REASON_TEXT, flag_samples
 from server.errors import FieldError, InvalidInput, NotFound
-from server.models import BenchRun, BenchSample, Calibration, Esc, Motor, Propeller
-from server.physics import ENGINE_VERSION, drive
+from server.models import BenchRun, BenchSample
+from server.physics import drive
 from server.physics._types import Status
-from server.physics.calibrate import JointFit, MotorPrior, RunData, fit_joint
 from server.physics.esc import EscParams
-from server.schemas.bench import BenchRunMeta
+from server.schemas.bench_runs import BenchRunMeta
+from server.services import calibrations
 from server.services import parts as parts_service
 from server.services import power_system as ps
 
 INCH_M = 0.0254
-MIN_SAMPLES_TO_FIT = 4
 
 
 def parse(raw: bytes) -> BenchSamples:
@@ -123,174 +122,7 @@ def import_run(session: Session, *, team_id: int, user_id: int | None, meta: Ben
         flag=",".join(str(r) for r in flags.reasons[i]) or None,
     ) for i in range(len(samples.throttle)))
     session.flush()
-    return run, calibrate_esc(session, team_id=team_id, esc_id=run.esc_id)
-
-
-def _run_data(run: BenchRun, diameter_in: float) -> RunData | None:
-    usable = [s for s in run.samples if s.flag is None]
-    if len(usable) < MIN_SAMPLES_TO_FIT:
-        return None
-    prop = run.propeller_id
-    torque = [s.torque_nm for s in usable]
-    has_torque = all(t is not None for t in torque)
-    return RunData(
-        motor_id=str(run.motor_id), propeller_id=str(prop), diameter_m=diameter_in * INCH_M,
-        density_kg_m3=run.air_density_kg_m3, bus_voltage_v=np.array([s.bus_voltage_v for s in usable]),
-        bus_current_a=np.array([s.bus_current_a for s in usable]), rpm=np.array([s.rpm for s in usable]),
-        thrust_n=np.array([s.thrust_n for s in usable]), throttle=np.array([s.throttle for s in usable]),
-        torque_nm=np.array(torque, dtype=float) if has_torque else None,
-        duty_offset=run.throttle_offset, duty_slope=run.throttle_scale,
-    )
-
-
-def _param(p: Any) -> dict[str, Any]:
-    return {"value": _clean(p.value), "stderr": _clean(p.standard_error), "status": p.status, "unit": p.unit,
-            "source": p.source}
-
-
-def _clean(v: float) -> float | None:
-    return float(v) if math.isfinite(v) else None
-
-
-def _store(session: Session, *, team_id: int, kind: str, part_id: int, parameters: dict[str, Any],
-           fit: Any, run_ids: list[int], notes: str) -> Calibration:
-    session.execute(update(Calibration).where(Calibration.team_id == team_id, Calibration.part_kind == kind,
-                                              Calibration.part_id == part_id).values(active=False))
-    notes = "; ".join(dict.fromkeys(n.strip() for n in notes.split(";") if n.strip()))  # each note once
-    row = Calibration(team_id=team_id, part_kind=kind, part_id=part_id, parameters=parameters,
-                      residual_rms=_clean(fit.residual_rms), residual_unit="relative", sample_count=fit.samples_used,
-                      run_ids=run_ids, notes=notes, engine_version=ENGINE_VERSION, active=True)
-    session.add(row)
-    return row
-
-
-def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, Any]:
-    """Pooled fit over every run of the team that used this ESC (any motor, propeller and voltage)."""
-    runs = list(session.scalars(select(BenchRun).where(BenchRun.team_id == team_id, BenchRun.esc_id == esc_id)
-                                .order_by(BenchRun.id)))
-    esc = session.get(Esc, esc_id)
-    assert esc is not None
-    data = []
-    for run in runs:
-        prop = session.get(Propeller, run.propeller_id)
-        assert prop is not None
-        rd = _run_data(run, prop.diameter_in)
-        if rd is not None:
-            data.append((run, rd))
-    if not data:
-        return {"calibrations": [], "error": f"no run of this ESC has {MIN_SAMPLES_TO_FIT} usable samples yet"}
-    esc_values, _ = ps.from_part(session, team_id, "escs", esc, ps.ESC_FIELDS, use_calibration=False)
-    base = ps.esc_params(ps.Resolved("escs", {**ps.ESC_DEFAULTS, **{k: v for k, v in esc_values.items()
-                                                                     if v is not None}}))
-    priors = {}
-    for motor_id in {r.motor_id for r, _ in data}:
-        motor = session.get(Motor, motor_id)
-        assert motor is not None
-        priors[str(motor_id)] = MotorPrior(motor.kv_rpm_per_v, motor.winding_resistance_ohm,
-                                           motor.no_load_current_a)
-    try:
-        fit = fit_joint([rd for _, rd in data], esc=base, motor_priors=priors)
-    except (ValueError, np.linalg.LinAlgError) as exc:
-        return {"calibrations": [], "error": f"the fit did not converge: {exc}"}
-    run_ids = [r.id for r, _ in data]
-    notes = "; ".join(fit.notes)
-    stored = [_store_esc(session, team_id, esc_id, fit, run_ids, notes)]
-    for motor_key, mfit in fit.motors.items():
-        stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids, notes))
-    for prop_id, pfit in fit.propellers.items():
-        stored.append(_store_propeller(session, team_id, int(prop_id), pfit, run_ids, notes))
-    session.flush()
-    return {"calibrations": [calibration_dict(c) for c in stored], "error": None}
-
-
-def _store_esc(session: Session, team_id: int, esc_id: int, fit: JointFit, run_ids: list[int],
-               notes: str) -> Calibration:
-    assert fit.esc is not None
-    p = fit.esc.parameters
-    params = {"k_pwm": _param(p["pwm_loss_coefficient"]), "r_on_path_ohm": _param(p["on_path_resistance_ohm"])}
-    return _store(session, team_id=team_id, kind="escs", part_id=esc_id, parameters=params, fit=fit,
-                  run_ids=run_ids, notes="; ".join([notes, *fit.esc.notes]).strip("; "))
-
-
-def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, mfit: Any, run_ids: list[int],
-                 notes: str) -> Calibration:
-    assert fit.esc is not None
-    on_path = fit.esc.value("on_path_resistance_ohm")
-    p = mfit.parameters
-    winding = dict(_param(p["resistance_ohm"]))
-    if winding["value"] is not None:
-        winding["value"] = winding["value"] - on_path  # the fit's R includes the ESC's conduction path
-    params = {"kv_rpm_per_v": _param(p["kv_rpm_per_v"]), "winding_resistance_ohm": winding,
-              "no_load_current_a": _param(p["no_load_current_a"])}
-    for value in params.values():
-        if value["source"] == "start":  # a starting guess is not a measurement
-            value["status"] = "fixed"
-    return _store(session, team_id=team_id, kind="motors", part_id=motor_id, parameters=params, fit=mfit,
-                  run_ids=run_ids, notes="; ".join([notes, *mfit.notes]).strip("; "))
-
-
-def _store_propeller(session: Session, team_id: int, prop_id: int, pfit: Any, run_ids: list[int],
-                     notes: str) -> Calibration:
-    rows = [{"rpm": float(r), "ct": float(ct), "cp": float(cp)}
-            for r, ct, cp in zip(pfit.rpm, pfit.thrust_coefficient, pfit.power_coefficient, strict=True)]
-    identified = all(p.status == "identified" for p in pfit.parameters.values()) and all(
-        math.isfinite(r["cp"]) and r["cp"] > 0 and r["ct"] > 0 for r in rows)
-    params = {"static_table": {
-        "value": rows if identified else [r for r in rows if math.isfinite(r["cp"])],
-        "stderr": {name: _clean(p.standard_error) for name, p in pfit.parameters.items()},
-        "status": "identified" if identified else "fixed", "unit": "", "source": "fit",
-    }}
-    return _store(session, team_id=team_id, kind="propellers", part_id=prop_id, parameters=params, fit=pfit,
-                  run_ids=run_ids, notes="; ".join([notes, *pfit.notes]).strip("; "))
-
-
-def calibrate_part(session: Session, *, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
-    """Re-fit every ESC pool this part's runs belong to; returns the part's new calibration."""
-    parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
-    column = {"escs": BenchRun.esc_id, "motors": BenchRun.motor_id, "propellers": BenchRun.propeller_id}.get(kind)
-    if column is None:
-        raise InvalidInput("Not calibrated", [FieldError("kind", "only ESCs, motors and propellers are calibrated")])
-    escs = sorted(set(session.scalars(select(BenchRun.esc_id).where(BenchRun.team_id == team_id,
-                                                                    column == part_id))))
-    if not escs:
-        raise InvalidInput("No bench runs", [FieldError("part_id", "no bench run uses this part yet")])
-    errors = [r["error"] for r in (calibrate_esc(session, team_id=team_id, esc_id=e) for e in escs) if r["error"]]
-    current = latest(session, team_id=team_id, kind=kind, part_id=part_id)
-    return {"calibration": calibration_dict(current) if current else None, "errors": errors}
-
-
-def latest(session: Session, *, team_id: int, kind: str, part_id: int) -> Calibration | None:
-    return session.scalar(select(Calibration).where(Calibration.team_id == team_id, Calibration.part_kind == kind,
-                                                    Calibration.part_id == part_id)
-                          .order_by(Calibration.id.desc()))
-
-
-def list_calibrations(session: Session, *, team_id: int, kind: str, part_id: int) -> list[Calibration]:
-    return list(session.scalars(select(Calibration).where(Calibration.team_id == team_id,
-                                                          Calibration.part_kind == kind,
-                                                          Calibration.part_id == part_id)
-                                .order_by(Calibration.id.desc())))
-
-
-def set_active(session: Session, *, team_id: int, calibration_id: int, active: bool) -> Calibration:
-    """The "use this calibration" switch: one active calibration per part at most."""
-    row = session.scalar(select(Calibration).where(Calibration.id == calibration_id, Calibration.team_id == team_id))
-    if row is None:
-        raise NotFound(f"No calibration with id {calibration_id}")
-    if active:
-        session.execute(update(Calibration).where(Calibration.team_id == team_id,
-                                                  Calibration.part_kind == row.part_kind,
-                                                  Calibration.part_id == row.part_id).values(active=False))
-    row.active = active
-    session.flush()
-    return row
-
-
-def calibration_dict(row: Calibration) -> dict[str, Any]:
-    return {"id": row.id, "part_kind": row.part_kind, "part_id": row.part_id, "parameters": row.parameters,
-            "residual_rms": row.residual_rms, "residual_unit": row.residual_unit, "sample_count": row.sample_count,
-            "run_ids": row.run_ids, "notes": row.notes, "engine_version": row.engine_version, "active": row.active,
-            "created_at": row.created_at}
+    return run, calibrations.calibrate_esc(session, team_id=team_id, esc_id=run.esc_id)
 
 
 def get_run(session: Session, *, team_id: int, run_id: int) -> BenchRun:
@@ -345,15 +177,15 @@ def run_detail(session: Session, *, team_id: int, run_id: int) -> dict[str, Any]
     model = model_at_samples(session, team_id=team_id, run=run)
     for row, predicted in zip(rows, model, strict=True):
         row.update(predicted)
-    calibrations = {kind: latest(session, team_id=team_id, kind=kind, part_id=pid)
+    latest = {kind: calibrations.latest(session, team_id=team_id, kind=kind, part_id=pid)
                     for kind, pid in (("escs", run.esc_id), ("motors", run.motor_id),
                                       ("propellers", run.propeller_id))}
     return {"run": run_summary(run), "samples": rows,
-            "calibrations": {k: calibration_dict(c) if c else None for k, c in calibrations.items()}}
+            "calibrations": {k: calibrations.calibration_dict(c) if c else None for k, c in latest.items()}}
 
 
 def _reason(code: str) -> Any:
-    from server.bench.flags import FlagReason
+    from server.bench_runs.flags import FlagReason
 
     return FlagReason(code)
 

@@ -10,7 +10,7 @@ from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.errors import Forbidden
 from server.models import ApiKey
 from server.schemas.teams import ApiKeyCreate, ApiKeyCreated, ApiKeyRead, Me, MemberRead
-from server.services import accounts
+from server.services import teams
 
 router = APIRouter(tags=["team"])
 
@@ -32,14 +32,14 @@ def members(caller: CallerDep, session: SessionDep) -> list[dict[str, Any]]:
     """List the team's members and their roles."""
     return [
         {"user_id": m.user_id, "email": m.user.email, "display_name": m.user.display_name, "role": m.role}
-        for m in accounts.list_members(session, team_id=caller.team_id)
+        for m in teams.list_members(session, team_id=caller.team_id)
     ]
 
 
 @router.get("/team/api-keys", response_model=list[ApiKeyRead])
 def list_keys(caller: CallerDep, session: SessionDep) -> list[ApiKey]:
     """List the team's API keys (never the keys themselves)."""
-    return accounts.list_api_keys(session, team_id=caller.team_id)
+    return teams.list_api_keys(session, team_id=caller.team_id)
 
 
 @router.post("/team/api-keys", status_code=201, response_model=ApiKeyCreated)
@@ -47,7 +47,7 @@ def create_key(caller: WriterDep, session: SessionDep, data: ApiKeyCreate) -> di
     """Create an API key; the response is the only time the key is shown."""
     if caller.via == "key":
         raise Forbidden("API keys cannot create further keys; log in to the team page")
-    row, key = accounts.create_api_key(
+    row, key = teams.create_api_key(
         session, team_id=caller.team_id, scope=data.scope, name=data.name, created_by_id=caller.user_id
     )
     session.commit()
@@ -57,6 +57,6 @@ def create_key(caller: WriterDep, session: SessionDep, data: ApiKeyCreate) -> di
 @router.post("/team/api-keys/{key_id}/revoke", response_model=ApiKeyRead)
 def revoke_key(caller: WriterDep, session: SessionDep, key_id: IdPath) -> ApiKey:
     """Revoke an API key at once."""
-    row = accounts.revoke_api_key(session, team_id=caller.team_id, key_id=key_id)
+    row = teams.revoke_api_key(session, team_id=caller.team_id, key_id=key_id)
     session.commit()
     return row

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from server.bench.flags import flag_samples
+from server.bench_runs.flags import flag_samples
 from server.physics.calibrate import RunData
 
 BENCH_DIR = Path(__file__).resolve().parents[1] / "data" / "reference" / "bench-5in"

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from server.bench.csv_format import MAX_BYTES, MAX_ROWS, BenchCsvError, parse_bench_csv
+from server.bench_runs.csv_format import MAX_BYTES, MAX_ROWS, BenchCsvError, parse_bench_csv
 from server.errors import InvalidInput
 
 HEADER = "throttle,bus_voltage_v,bus_current_a,rpm,thrust_n"

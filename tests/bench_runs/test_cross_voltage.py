@@ -39,7 +39,7 @@ import pytest
 from server.physics import drive
 from server.physics._types import Status
 from server.physics.calibrate import JointFit, fit_joint
-from tests.bench.reference import DENSITY_KG_M3, ReferenceTest, load_tests
+from tests.bench_runs.reference import DENSITY_KG_M3, ReferenceTest, load_tests
 
 MIN_THRUST_N = 0.5
 GOAL_MEDIAN, GOAL_P90 = 0.05, 0.10

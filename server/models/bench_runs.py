@@ -1,11 +1,10 @@
-"""Bench runs (measured sweeps), their samples, and calibrations fitted from them."""
+"""Bench runs (measured sweeps) and their samples."""
 
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any
 
-from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, Integer, String, Text
+from sqlalchemy import DateTime, Float, ForeignKey, Integer, String, Text
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.db import Base
@@ -61,21 +60,3 @@ class BenchSample(Base):
     flag: Mapped[str | None] = mapped_column(String(64), nullable=True)
 
     run: Mapped[BenchRun] = relationship(back_populates="samples")
-
-
-class Calibration(TeamOwned, Base):
-    """Parameters of one part fitted from bench runs; the newest active one replaces the part's defaults."""
-
-    __tablename__ = "calibration"
-
-    part_kind: Mapped[str] = mapped_column(String(16), index=True)
-    part_id: Mapped[int] = mapped_column(Integer, index=True)
-    parameters: Mapped[dict[str, Any]] = mapped_column(JSON)
-    residual_rms: Mapped[float | None] = mapped_column(Float, nullable=True)
-    residual_unit: Mapped[str] = mapped_column(String(16), default="")
-    sample_count: Mapped[int] = mapped_column(Integer, default=0)
-    run_ids: Mapped[list[int]] = mapped_column(JSON, default=list)
-    notes: Mapped[str] = mapped_column(Text, default="")
-    engine_version: Mapped[str] = mapped_column(String(32))
-    active: Mapped[bool] = mapped_column(Boolean, default=True)
-    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utcnow)

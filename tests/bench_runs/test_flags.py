@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from server.bench.flags import FlagReason, flag_samples
-from tests.bench.reference import load_tests
+from server.bench_runs.flags import FlagReason, flag_samples
+from tests.bench_runs.reference import load_tests
 
 THROTTLE = np.linspace(0.1, 1.0, 10)
 

@@ -1,319 +1,39 @@
-"""Calibration: fit the reference model's parameters to measured bench runs (physics.md reference model v1).
-
-Measured data wins over defaults: the fitted values replace the datasheet/default values of the motor
-(Kv, line-to-line R including the ESC conduction path, I0), the ESC (the calibrated partial-throttle
-coefficient ``k_pwm`` of ``P_pwm = k_pwm V_bus I d (1 - d)``) and the propeller (static CT and CP versus rpm).
-
-The model fitted is exactly the one :func:`~.drive.for_thrust` evaluates (averaged switch plus every §5
-partial-throttle term), per sample at the measured shaft speed and bus voltage:
-
-``Q = CP(rpm) rho n^2 D^5 / 2pi``, ``I = I0 + Kv Q``, ``V_m = Omega / Kv + I R'``, ``d = V_m / V_bus``,
-``P_bus = V_m I + P_extra(V_bus, d, I)``.
-
-The duty is *inferred* from the motor equation rather than read from the throttle, because a hobby ESC's
-throttle-to-duty curve is unknown; the throttle mapping (``duty = offset + slope * throttle``) is only used
-where it is exact, at full throttle (d = 1, where ``V_bus = Omega / Kv + I_bus R'`` pins Kv and R), unless a
-run says its mapping is trusted. Without torque, CP is identified jointly with the motor losses from the
-electrical power, and pooling runs that share a propeller, a motor or the ESC is what separates them.
-
-Every fit uses ``scipy.optimize.least_squares`` and reports standard errors ``sqrt(diag(s^2 (J^T J)^-1))``
-with ``s^2 = SS / (m - p)`` (pooled fits estimate ``s^2`` per kind of residual - power, full-throttle
-voltage, torque - so that one kind's nominal noise scale cannot shrink another's errors), the RMS residual,
-the samples used and, per parameter, whether the data identified it or it was kept ("fixed") at its
-datasheet/default value because its relative standard error from the data alone exceeded
-:data:`MAX_RELATIVE_STANDARD_ERROR` or it lies in the null space of J (the ``notes`` say which and why).
-
-References
-----------
-.. [1] M. Drela, "First-Order DC Electric Motor Model", MIT Aero & Astro, 2007.
-.. [2] N. Mohan, T. M. Undeland, W. P. Robbins, *Power Electronics*, 3rd ed., Wiley, 2003.
-.. [3] J. B. Brandt and M. S. Selig, AIAA Paper 2011-1255, 2011 (CT, CP definitions; UIUC database).
-"""
+"""Pooled drive fit: motors (Kv, R', I0), the shared ESC (k_pwm, R_on) and propeller CP from electrical power."""
 
 from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, replace
-from typing import Literal
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.optimize import least_squares
 from scipy.sparse import lil_matrix
 
-from . import esc as esc_model
-from ._types import RAD_S_PER_RPM, ArrayLike, FloatArray, as_float_array
-from .esc import EscParams
-from .motor import DEFAULT_INDUCTANCE_H, MotorParams
-from .propeller import PropellerTable, coefficients_at
+from .. import esc as esc_model
+from .._types import RAD_S_PER_RPM, FloatArray
+from ..esc import EscParams
+from ..motor import DEFAULT_INDUCTANCE_H, MotorParams
+from ..propeller import PropellerTable, coefficients_at
+from ._common import (
+    DATASHEET_RELATIVE_SIGMA,
+    DEFAULT_START,
+    KV_PRIOR_RELATIVE_SIGMA,
+    MAX_RELATIVE_STANDARD_ERROR,
+    POWER_SIGMA,
+    TORQUE_SIGMA,
+    VOLTAGE_SIGMA_V,
+    EscFit,
+    FittedParameter,
+    JointFit,
+    MotorFit,
+    MotorPrior,
+    PropellerFit,
+    RunData,
+    _standard_errors,
+)
+from .propeller import _hat, _knots, fit_propeller_static
 
-MAX_RELATIVE_STANDARD_ERROR = 0.3
-"""A parameter whose data-only standard error exceeds this fraction of its value is not identified."""
-KV_PRIOR_RELATIVE_SIGMA = 0.15
-"""Spread of the Kv label around the true Kv (labels are nominal). [-]"""
-DATASHEET_RELATIVE_SIGMA = 0.5
-"""Spread given to datasheet R and I0 when used as priors. [-]"""
-POWER_SIGMA = (0.02, 0.2)
-"""(relative, absolute [W]) noise scale of the electrical-power residual."""
-VOLTAGE_SIGMA_V = 0.02
-"""Noise scale of the full-throttle voltage-equation residual. [V]"""
-THRUST_SIGMA_RELATIVE = 0.02
-"""Relative noise scale of thrust; an absolute floor of 2 % of the largest thrust is added."""
-TORQUE_SIGMA = (0.02, 1e-4)
-"""(relative, absolute [N m]) noise scale of the torque residual."""
-DEFAULT_START = {"kv_rpm_per_v": 1000.0, "resistance_ohm": 0.1, "no_load_current_a": 0.5}
-
-Status = Literal["identified", "fixed"]
-
-
-@dataclass(frozen=True)
-class FittedParameter:
-    """One calibrated value: ``status`` says whether the data determined it; ``source`` where it came from.
-
-    ``source`` is "fit" for identified values, else "datasheet" (a prior given by the caller), "default"
-    (the reference-model default) or "start" (no value known: the starting guess, to be treated as unknown).
-    """
-
-    value: float
-    standard_error: float
-    status: Status
-    unit: str
-    source: str = "fit"
-
-
-@dataclass(frozen=True)
-class FitReport:
-    """Common result of every ``fit_*`` function.
-
-    ``residual_rms`` is the RMS of the relative residual of the fitted quantity (thrust for a propeller,
-    electrical power for motor/ESC/joint fits). [-]
-    """
-
-    parameters: dict[str, FittedParameter]
-    residual_rms: float
-    samples_used: int
-    notes: tuple[str, ...] = ()
-
-    def value(self, name: str) -> float:
-        return self.parameters[name].value
-
-
-@dataclass(frozen=True)
-class PropellerFit(FitReport):
-    """Static CT(rpm) (and CP(rpm)) as a table at ``rpm`` knots, linear in between, held outside."""
-
-    diameter_m: float = math.nan
-    rpm: FloatArray = field(default_factory=lambda: np.zeros(0))
-    thrust_coefficient: FloatArray = field(default_factory=lambda: np.zeros(0))
-    power_coefficient: FloatArray = field(default_factory=lambda: np.zeros(0))
-
-    def table(self) -> PropellerTable:
-        """The fitted static table (NaN CP when power was not identified)."""
-        return PropellerTable(as_float_array(self.diameter_m), self.rpm, self.thrust_coefficient,
-                              self.power_coefficient)
-
-
-@dataclass(frozen=True)
-class MotorFit(FitReport):
-    """Kv [rpm/V], R' = line-to-line R plus the ESC conduction path [Ω], I0 [A]."""
-
-    def motor_params(self, on_path_resistance_ohm: float = 0.010,
-                     inductance_h: float = DEFAULT_INDUCTANCE_H) -> MotorParams:
-        """Motor parameters for :mod:`drive`: the winding share ``R' - R_on_path`` of the fitted resistance."""
-        return MotorParams(as_float_array(self.value("kv_rpm_per_v")),
-                           as_float_array(self.value("resistance_ohm") - on_path_resistance_ohm),
-                           as_float_array(self.value("no_load_current_a")), as_float_array(inductance_h))
-
-
-@dataclass(frozen=True)
-class EscFit(FitReport):
-    """``pwm_loss_coefficient`` (k_pwm) [-] and ``on_path_resistance_ohm`` [Ω]."""
-
-    base: EscParams = field(default_factory=EscParams)
-
-    def esc_params(self) -> EscParams:
-        return replace(self.base, pwm_loss_coefficient=as_float_array(self.value("pwm_loss_coefficient")),
-                       on_path_resistance_ohm=as_float_array(self.value("on_path_resistance_ohm")))
-
-
-@dataclass(frozen=True)
-class JointFit(FitReport):
-    """Pooled fit: one :class:`MotorFit` per motor, :class:`PropellerFit` per propeller, the shared ESC."""
-
-    motors: dict[str, MotorFit] = field(default_factory=dict)
-    propellers: dict[str, PropellerFit] = field(default_factory=dict)
-    esc: EscFit | None = None
-
-    def motor_params(self, motor_id: str, inductance_h: float = DEFAULT_INDUCTANCE_H) -> MotorParams:
-        assert self.esc is not None
-        return self.motors[motor_id].motor_params(float(self.esc.value("on_path_resistance_ohm")), inductance_h)
-
-
-@dataclass(frozen=True)
-class RunData:
-    """The usable samples of one bench run (flagged samples already removed), SI units.
-
-    ``duty = clip(duty_offset + duty_slope * throttle, 0, 1)``; samples at d = 1 enter the voltage equation,
-    and every sample does when ``duty_trusted``.
-    """
-
-    motor_id: str
-    propeller_id: str
-    diameter_m: float
-    density_kg_m3: float
-    bus_voltage_v: FloatArray
-    bus_current_a: FloatArray
-    rpm: FloatArray
-    thrust_n: FloatArray
-    throttle: FloatArray
-    torque_nm: FloatArray | None = None
-    duty_offset: float = 0.0
-    duty_slope: float = 1.0
-    duty_trusted: bool = False
-
-    def __post_init__(self) -> None:
-        for name in ("bus_voltage_v", "bus_current_a", "rpm", "thrust_n", "throttle"):
-            object.__setattr__(self, name, as_float_array(getattr(self, name)).ravel())
-        if self.torque_nm is not None:
-            object.__setattr__(self, "torque_nm", as_float_array(self.torque_nm).ravel())
-
-    @property
-    def duty(self) -> FloatArray:
-        return np.clip(self.duty_offset + self.duty_slope * self.throttle, 0.0, 1.0)
-
-
-@dataclass(frozen=True)
-class MotorPrior:
-    """Datasheet values (None = unknown); Kv is usually the label."""
-
-    kv_rpm_per_v: float | None = None
-    resistance_ohm: float | None = None
-    no_load_current_a: float | None = None
-
-
-# --- propeller ------------------------------------------------------------------------------------------
-
-def _knots(rpm: FloatArray, knot_count: int | None) -> FloatArray:
-    distinct = np.unique(np.round(rpm))
-    k = knot_count if knot_count is not None else int(np.clip(distinct.size // 2, 2, 12))
-    k = max(1, min(k, distinct.size))
-    if k == 1:
-        return np.array([float(np.median(rpm))])
-    return np.unique(np.quantile(rpm, np.linspace(0.0, 1.0, k)))
-
-
-def _hat(x: FloatArray, knots: FloatArray) -> FloatArray:
-    """Basis of linear interpolation in ``knots`` (held constant outside): shape (len(x), len(knots))."""
-    eye = np.eye(knots.size)
-    return np.column_stack([np.interp(x, knots, eye[k]) for k in range(knots.size)])
-
-
-def _linear_fit(design: FloatArray, target: FloatArray, sigma: FloatArray) -> tuple[FloatArray, FloatArray, float]:
-    a, b = design / sigma[:, None], target / sigma
-
-    def residual(c: FloatArray) -> FloatArray:
-        return a @ c - b
-
-    start = np.linalg.lstsq(a, b, rcond=None)[0]
-    sol = least_squares(residual, start, jac=lambda c: a, method="lm")
-    return sol.x, _standard_errors(sol.jac, sol.fun, a.shape[1]), float(np.sqrt(np.mean(sol.fun**2)))
-
-
-def _standard_errors(jac: FloatArray, resid: FloatArray, p: int, groups: np.ndarray | None = None) -> FloatArray:
-    """``sqrt(diag(s^2 (J^T J)^+))``, ``s^2 = SS/(m - p)``; infinite for parameters in the null space of J.
-
-    With ``groups`` (a label per residual row), each kind of residual gets its own ``s_g^2`` (same
-    ``m/(m - p)`` correction) and the covariance is ``A^+ (sum_g s_g^2 J_g^T J_g) A^+`` with ``A = J^T J``,
-    which reduces to ``s^2 A^+`` when every group scatters alike.
-    """
-    j = np.asarray(jac, dtype=np.float64)
-    m = resid.size
-    s2 = float(resid @ resid) / max(m - p, 1)
-    if j.size == 0:
-        return np.full(j.shape[1], np.inf)
-    # column-normalise so that the rank test does not depend on the parameters' units
-    norms = np.linalg.norm(j, axis=0)
-    scaled = j / np.where(norms > 0.0, norms, 1.0)
-    _, sv, vt = np.linalg.svd(scaled, full_matrices=True)
-    sv_full = np.zeros(j.shape[1])
-    sv_full[: sv.size] = sv
-    null = vt[sv_full <= 1e-9 * max(float(sv_full.max()), 1e-300)]
-    cov = np.linalg.pinv(j.T @ j)
-    if groups is None:
-        cov = cov * s2
-    else:
-        correction = m / max(m - p, 1)
-        meat = np.zeros_like(cov)
-        for g in np.unique(groups):
-            rows = groups == g
-            meat += correction * float(np.mean(resid[rows] ** 2)) * (j[rows].T @ j[rows])
-        cov = cov @ meat @ cov
-    se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
-    unidentified = (norms == 0.0) | (np.max(np.abs(null), axis=0) > 1e-6 if null.size else False)
-    return np.where(unidentified, np.inf, se)
-
-
-def fit_propeller_static(rpm: ArrayLike, thrust_n: ArrayLike, density_kg_m3: ArrayLike, diameter_m: float,
-                         torque_nm: ArrayLike | None = None, *, rpm_knots: ArrayLike | None = None,
-                         knot_count: int | None = None) -> PropellerFit:
-    """Static CT(rpm) and, with torque, CP(rpm) of one propeller from pooled samples.
-
-    CT (and CP) are piecewise linear in rpm between knots (default: 2-12 knots at quantiles of the sample
-    rpm), exactly the interpolation :class:`PropellerTable` applies, so the fitted table is the model.
-
-    Parameters
-    ----------
-    rpm : array_like
-        Shaft speed (> 0). [rpm]
-    thrust_n : array_like
-        Thrust. [N]
-    density_kg_m3 : array_like
-        Air density per sample (or one value). [kg/m^3]
-    diameter_m : float
-        Propeller diameter. [m]
-    torque_nm : array_like, optional
-        Shaft torque; CP is fitted only when given (otherwise NaN). [N m]
-    rpm_knots : array_like, optional
-        Table abscissae. [rpm]
-    knot_count : int, optional
-        Number of quantile knots when ``rpm_knots`` is not given.
-
-    Returns
-    -------
-    PropellerFit
-        Parameters ``ct[k]`` (and ``cp[k]``) at ``rpm[k]``; residual_rms is the relative thrust RMS.
-    """
-    speed = as_float_array(rpm).ravel()
-    thrust = as_float_array(thrust_n).ravel()
-    rho = np.broadcast_to(as_float_array(density_kg_m3), speed.shape)
-    knots = np.sort(as_float_array(rpm_knots).ravel()) if rpm_knots is not None else _knots(speed, knot_count)
-    n = speed / 60.0
-    basis = _hat(speed, knots)
-    t_scale = rho * n**2 * diameter_m**4
-    floor = 0.02 * float(np.max(np.abs(thrust)))
-    ct, ct_se, _ = _linear_fit(basis * t_scale[:, None], thrust, THRUST_SIGMA_RELATIVE * np.abs(thrust) + floor)
-    params = {f"ct[{k}]": FittedParameter(float(ct[k]), float(ct_se[k]), "identified", "-")
-              for k in range(knots.size)}
-    cp = np.full(knots.size, np.nan)
-    notes = [f"{knots.size} rpm knots between {knots[0]:.0f} and {knots[-1]:.0f} rpm"]
-    if torque_nm is not None:
-        torque = as_float_array(torque_nm).ravel()
-        q_scale = rho * n**2 * diameter_m**5 / (2.0 * math.pi)
-        sigma = TORQUE_SIGMA[0] * np.abs(torque) + max(TORQUE_SIGMA[1], 0.02 * float(np.max(np.abs(torque))))
-        cp, cp_se, _ = _linear_fit(basis * q_scale[:, None], torque, sigma)
-        params |= {f"cp[{k}]": FittedParameter(float(cp[k]), float(cp_se[k]), "identified", "-")
-                   for k in range(knots.size)}
-    else:
-        notes.append("no torque: CP not fitted here (fit it jointly with the motor from electrical power)")
-    predicted = (basis @ ct) * t_scale
-    with np.errstate(divide="ignore", invalid="ignore"):
-        rel = np.where(thrust > 0.0, predicted / thrust - 1.0, np.nan)
-    return PropellerFit(parameters=params, residual_rms=float(np.sqrt(np.nanmean(rel**2))),
-                        samples_used=int(speed.size), notes=tuple(notes), diameter_m=float(diameter_m),
-                        rpm=knots, thrust_coefficient=ct, power_coefficient=cp)
-
-
-# --- pooled motor / ESC / propeller-power fit -----------------------------------------------------------
 
 @dataclass
 class _Param:
@@ -331,7 +51,7 @@ class _Param:
     owner: int = -1
 
 
-class _Problem:
+class _PooledProblem:
     """Concatenated samples of many runs and the parameter registry of the pooled model."""
 
     def __init__(self, runs: Sequence[RunData], esc: EscParams, inductance_h: Mapping[str, float],
@@ -481,7 +201,7 @@ def _start_motor(runs: Sequence[RunData], prior: MotorPrior) -> tuple[float, flo
 _MOTOR_UNITS = {"kv_rpm_per_v": "rpm/V", "resistance_ohm": "Ω", "no_load_current_a": "A"}
 
 
-def _add_motor_params(problem: _Problem, k: int, mid: str, runs: Sequence[RunData], prior: MotorPrior,
+def _add_motor_params(problem: _PooledProblem, k: int, mid: str, runs: Sequence[RunData], prior: MotorPrior,
                       fixed: MotorParams | None, esc: EscParams) -> None:
     if fixed is not None:
         problem.winding_only[k] = 1.0
@@ -515,7 +235,7 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
     runs = [r for r in runs if r.rpm.size]
     if not runs:
         raise ValueError("no usable samples to fit")
-    problem = _Problem(runs, esc, inductance_h, fixed_propellers, knot_count)
+    problem = _PooledProblem(runs, esc, inductance_h, fixed_propellers, knot_count)
     thrust_fits: dict[str, PropellerFit] = {}
     for k, pid in enumerate(problem.prop_ids):
         sel = problem.p == k
@@ -572,7 +292,7 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
     return _assemble(problem, se, thrust_fits, fixed_propellers, esc, notes)
 
 
-def _assemble(problem: _Problem, se: FloatArray, thrust_fits: Mapping[str, PropellerFit],
+def _assemble(problem: _PooledProblem, se: FloatArray, thrust_fits: Mapping[str, PropellerFit],
               fixed_propellers: Mapping[str, PropellerTable], esc: EscParams, notes: list[str]) -> JointFit:
     def fitted(k: int) -> FittedParameter:
         q = problem.params[k]

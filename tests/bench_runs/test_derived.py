@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 
-from server.bench.derived import derive_samples, run_air_density_kg_m3
+from server.bench_runs.derived import derive_samples, run_air_density_kg_m3
 
 
 def test_density_from_altitude_temperature_or_pressure() -> None:
