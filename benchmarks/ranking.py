@@ -37,7 +37,6 @@ from server.selection import (  # noqa: E402
     rank,
 )
 from server.selection.enumerate import plan  # noqa: E402
-from server.selection.propmodel import PropModel  # noqa: E402
 from tests.physics import scalar_reference as ref  # noqa: E402
 
 BASE = (20, 10, 70, 72)  # packs, ESCs, motors, propellers: 1 008 000 combinations
@@ -97,7 +96,7 @@ MISSION = MissionSpec(rotor_count=4, frame_mass_kg=1.2, payload_kg=0.5, max_prop
 
 def scalar_rate(library: PartsLibrary, mission: MissionSpec, sample: int, seed: int = 3) -> tuple[float, int]:
     """Candidates per second of the scalar brentq path on a random sample of evaluated candidates."""
-    model = PropModel.build(library.propellers, mission)
+    model = mission.propeller_model(library.propellers)
     blocks = plan(library, mission, model).blocks
     rng = np.random.default_rng(seed)
     pk, es, mo, pr = library.packs, library.escs, library.motors, library.propellers

@@ -33,6 +33,13 @@ LIPO_OCV_V_PER_CELL: FloatArray = np.array([
 LIPO_FULL_V_PER_CELL = 4.20  # [MEM] industry charge voltage
 LIHV_FULL_V_PER_CELL = 4.35  # [MEM]
 LIPO_NOMINAL_V_PER_CELL = 3.7  # [MEM]
+LIHV_NOMINAL_V_PER_CELL = 3.8  # [MEM]
+CELL_VOLTAGES_V: dict[str, tuple[float, float]] = {
+    "lipo": (LIPO_FULL_V_PER_CELL, LIPO_NOMINAL_V_PER_CELL),
+    "lihv": (LIHV_FULL_V_PER_CELL, LIHV_NOMINAL_V_PER_CELL),
+    "liion": (LIPO_FULL_V_PER_CELL, LIPO_NOMINAL_V_PER_CELL),
+}
+"""(full-charge, nominal) voltage per cell of each chemistry [MEM]; Li-ion is read on the LiPo table."""
 DEFAULT_USABLE_FRACTION = 0.8  # [CP] land at 20 % SOC
 DEFAULT_CUTOFF_V_PER_CELL = 3.3  # [MEM] typical flight-controller under-load cut-off
 
@@ -111,6 +118,21 @@ def open_circuit_voltage_per_cell_v(state_of_charge: ArrayLike,
     soc = as_float_array(state_of_charge)
     scale = as_float_array(full_voltage_per_cell_v) / LIPO_FULL_V_PER_CELL
     return np.interp(soc, LIPO_OCV_SOC, LIPO_OCV_V_PER_CELL) * scale
+
+
+def full_voltage_per_cell_v(chemistry: str) -> float:
+    """Full-charge cell voltage of a chemistry (``lipo``, ``lihv``, ``liion``). [V]"""
+    return CELL_VOLTAGES_V[chemistry][0]
+
+
+def nominal_voltage_per_cell_v(full_voltage_per_cell_v_: ArrayLike) -> FloatArray:
+    """Nominal cell voltage of the chemistry whose full-charge voltage is given (LiHV 3.8 V, else 3.7 V). [V]
+
+    Display only (the pack's label voltage ``S V_nom``); the physics uses the OCV curve.
+    """
+    full = as_float_array(full_voltage_per_cell_v_)
+    return np.where(full > 0.5 * (LIPO_FULL_V_PER_CELL + LIHV_FULL_V_PER_CELL), LIHV_NOMINAL_V_PER_CELL,
+                    LIPO_NOMINAL_V_PER_CELL)
 
 
 def mean_open_circuit_voltage_per_cell_v(soc_low: ArrayLike, soc_high: ArrayLike) -> FloatArray:

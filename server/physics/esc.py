@@ -103,6 +103,103 @@ def _switching_mask(duty: ArrayLike) -> FloatArray:
     return np.where(as_float_array(duty) < 1.0, 1.0, 0.0)
 
 
+@dataclass(frozen=True)
+class EscConstants:
+    """What the partial-throttle loss terms need from an ESC alone, combined once per ESC.
+
+    ``P_sw = switching_per_v_a V_bus I``, ``P_dt = dead_time_v I``, ``P_rip = (R + R_on) V_m^2 u^2
+    ripple_s2 / L^2`` (``u = 1 - d``), ``P_cap = ESR I^2 d u``, ``P_pwm = k_pwm I V_m u``.
+    """
+
+    on_path_resistance_ohm: FloatArray
+    switching_per_v_a: FloatArray
+    """``0.5 f_sw (t_on + t_off)``. [1/1]"""
+    dead_time_v: FloatArray
+    """``2 V_SD t_dead f_sw``. [V]"""
+    ripple_s2: FloatArray
+    """``1 / (12 f_sw^2)``. [s^2]"""
+    input_esr_ohm: FloatArray
+    pwm_loss_coefficient: FloatArray
+
+    @classmethod
+    def of(cls, esc: EscParams) -> EscConstants:
+        """The combined constants of ``esc`` (arrays of its shape)."""
+        f = esc.switching_frequency_hz
+        with np.errstate(divide="ignore"):
+            ripple = 1.0 / (12.0 * f * f)
+        return cls(on_path_resistance_ohm=esc.on_path_resistance_ohm,
+                   switching_per_v_a=0.5 * f * esc.transition_time_s,
+                   dead_time_v=esc.body_diode_drop_v * 2.0 * esc.dead_time_s * f,
+                   ripple_s2=as_float_array(ripple), input_esr_ohm=esc.input_esr_ohm,
+                   pwm_loss_coefficient=esc.pwm_loss_coefficient)
+
+
+@dataclass(frozen=True)
+class LossCoefficients:
+    """Per-rotor coefficients of ``P_extra`` at a known motor state, as a function of the bus voltage V.
+
+    With ``u = 1 - d = 1 - V_m / V``:
+    ``P_extra = ripple_w u^2 + switching_w_per_v V + dead_time_w + capacitor_w d u + pwm_w u`` below full
+    throttle, 0 at d = 1. This is the form both the reference solvers (:mod:`drive`) and the screening
+    kernels (:mod:`drive_screen`) evaluate, so every loss term has one definition.
+    """
+
+    ripple_w: FloatArray
+    switching_w_per_v: FloatArray
+    dead_time_w: FloatArray
+    capacitor_w: FloatArray
+    pwm_w: FloatArray
+
+
+def loss_coefficients(constants: EscConstants, motor_resistance_ohm: ArrayLike, inductance_h: ArrayLike,
+                      motor_current_a: ArrayLike, motor_voltage_v: ArrayLike) -> LossCoefficients:
+    """Coefficients of every partial-throttle loss term at motor current I and motor voltage V_m.
+
+    From the averaged buck relations (Mohan 2003, Erickson 2001): ripple ``ΔI = V_m u / (L f)`` so
+    ``P_rip = (R + R_on) ΔI^2 / 12``; ``P_sw = 0.5 V I f (t_on + t_off)``; ``P_dt = 2 V_SD t_dead f I``;
+    ``P_cap = ESR I^2 d (1 - d)``; calibrated ``P_pwm = k_pwm V I d (1 - d) = k_pwm I V_m u``.
+    """
+    current = as_float_array(motor_current_a)
+    motor_v = as_float_array(motor_voltage_v)
+    inductance = as_float_array(inductance_h)
+    series = as_float_array(motor_resistance_ohm) + constants.on_path_resistance_ohm
+    ripple = series * (constants.ripple_s2 / (inductance * inductance))
+    return LossCoefficients(ripple_w=ripple * (motor_v * motor_v),
+                            switching_w_per_v=constants.switching_per_v_a * current,
+                            dead_time_w=constants.dead_time_v * current,
+                            capacitor_w=constants.input_esr_ohm * (current * current),
+                            pwm_w=constants.pwm_loss_coefficient * (current * motor_v))
+
+
+def extra_loss_below_full_w(coefficients: LossCoefficients, bus_voltage_v: ArrayLike,
+                            motor_voltage_v: ArrayLike) -> FloatArray:
+    """``P_extra`` at bus voltage V for a duty ``V_m / V`` below 1 (the switching terms do not drop out). [W]
+
+    The hot loops (bus Newton solves) call this; :func:`loss_terms` gives the breakdown with d = 1 handled.
+    """
+    c = coefficients
+    bus = as_float_array(bus_voltage_v)
+    u = 1.0 - as_float_array(motor_voltage_v) / bus
+    extra: FloatArray = (c.ripple_w * u + c.capacitor_w * (1.0 - u) + c.pwm_w) * u + c.switching_w_per_v * bus \
+        + c.dead_time_w
+    return extra
+
+
+def loss_terms(coefficients: LossCoefficients, bus_voltage_v: ArrayLike, duty: ArrayLike) -> PartialThrottleLosses:
+    """Every partial-throttle loss term at bus voltage V and duty d (all zero at d = 1). [W]"""
+    c = coefficients
+    d = np.clip(as_float_array(duty), 0.0, 1.0)
+    u = 1.0 - d
+    chopping = _switching_mask(duty)
+    return PartialThrottleLosses(
+        pwm_ripple_w=c.ripple_w * u * u * chopping,
+        switching_w=c.switching_w_per_v * as_float_array(bus_voltage_v) * chopping,
+        dead_time_w=c.dead_time_w * chopping,
+        input_capacitor_w=c.capacitor_w * d * u * chopping,
+        calibrated_pwm_w=c.pwm_w * u * chopping,
+    )
+
+
 def ripple_current_a(bus_voltage_v: ArrayLike, duty: ArrayLike, inductance_h: ArrayLike,
                      switching_frequency_hz: ArrayLike) -> FloatArray:
     """Peak-to-peak motor current ripple ``ΔI = V_bus d (1 - d) / (L f_sw)``. [A]
@@ -118,40 +215,9 @@ def rms_current_a(average_current_a: ArrayLike, ripple_current_pp_a: ArrayLike) 
     return np.sqrt(as_float_array(average_current_a) ** 2 + as_float_array(ripple_current_pp_a) ** 2 / 12.0)
 
 
-def ripple_copper_loss_w(ripple_current_pp_a: ArrayLike, series_resistance_ohm: ArrayLike) -> FloatArray:
-    """Copper loss of the ripple above the averaged model ``(R + R_on_path) ΔI^2 / 12``. [W]"""
-    return as_float_array(series_resistance_ohm) * as_float_array(ripple_current_pp_a) ** 2 / 12.0
-
-
-def switching_loss_w(bus_voltage_v: ArrayLike, motor_current_a: ArrayLike, duty: ArrayLike,
-                     switching_frequency_hz: ArrayLike, transition_time_s: ArrayLike) -> FloatArray:
-    """Hard-switching loss with linear transitions ``0.5 V_bus I f_sw (t_on + t_off)``, 0 at d = 1. [W]"""
-    return (0.5 * as_float_array(bus_voltage_v) * as_float_array(motor_current_a)
-            * as_float_array(switching_frequency_hz) * as_float_array(transition_time_s) * _switching_mask(duty))
-
-
-def dead_time_loss_w(motor_current_a: ArrayLike, duty: ArrayLike, switching_frequency_hz: ArrayLike,
-                     dead_time_s: ArrayLike, body_diode_drop_v: ArrayLike) -> FloatArray:
-    """Body-diode conduction during dead time ``V_SD I (2 t_dead) f_sw``, 0 at d = 1. [W]"""
-    return (as_float_array(body_diode_drop_v) * as_float_array(motor_current_a) * 2.0
-            * as_float_array(dead_time_s) * as_float_array(switching_frequency_hz) * _switching_mask(duty))
-
-
 def input_capacitor_rms_current_a(motor_current_a: ArrayLike, duty: ArrayLike) -> FloatArray:
     """Input-capacitor RMS current ``I sqrt(d (1 - d))``. [A]"""
     return as_float_array(motor_current_a) * np.sqrt(_chopping(duty))
-
-
-def input_capacitor_loss_w(motor_current_a: ArrayLike, duty: ArrayLike, input_esr_ohm: ArrayLike) -> FloatArray:
-    """Input-capacitor ESR loss ``ESR I^2 d (1 - d)``. [W]"""
-    return as_float_array(input_esr_ohm) * input_capacitor_rms_current_a(motor_current_a, duty) ** 2
-
-
-def calibrated_pwm_loss_w(bus_voltage_v: ArrayLike, motor_current_a: ArrayLike, duty: ArrayLike,
-                          pwm_loss_coefficient: ArrayLike) -> FloatArray:
-    """Calibrated catch-all ``P_pwm = k_pwm V_bus I d (1 - d)`` (e.g. ripple iron loss). [W]"""
-    return (as_float_array(pwm_loss_coefficient) * as_float_array(bus_voltage_v)
-            * as_float_array(motor_current_a) * _chopping(duty))
 
 
 def freewheel_diode_loss_w(motor_current_a: ArrayLike, duty: ArrayLike, diode_drop_v: ArrayLike = 0.8) -> FloatArray:
@@ -185,17 +251,11 @@ def partial_throttle_losses(bus_voltage_v: ArrayLike, duty: ArrayLike, motor_cur
     PartialThrottleLosses
         Ripple copper, switching, dead time, input capacitor and calibrated terms. [W]
     """
-    ripple = ripple_current_a(bus_voltage_v, duty, inductance_h, esc.switching_frequency_hz)
-    series = as_float_array(motor_resistance_ohm) + esc.on_path_resistance_ohm
-    return PartialThrottleLosses(
-        pwm_ripple_w=ripple_copper_loss_w(ripple, series),
-        switching_w=switching_loss_w(bus_voltage_v, motor_current_a, duty, esc.switching_frequency_hz,
-                                     esc.transition_time_s),
-        dead_time_w=dead_time_loss_w(motor_current_a, duty, esc.switching_frequency_hz, esc.dead_time_s,
-                                     esc.body_diode_drop_v),
-        input_capacitor_w=input_capacitor_loss_w(motor_current_a, duty, esc.input_esr_ohm),
-        calibrated_pwm_w=calibrated_pwm_loss_w(bus_voltage_v, motor_current_a, duty, esc.pwm_loss_coefficient),
-    )
+    d = np.clip(as_float_array(duty), 0.0, 1.0)
+    motor_v = d * as_float_array(bus_voltage_v)
+    coefficients = loss_coefficients(EscConstants.of(esc), motor_resistance_ohm, inductance_h, motor_current_a,
+                                     motor_v)
+    return loss_terms(coefficients, bus_voltage_v, duty)
 
 
 def extra_loss_w(bus_voltage_v: ArrayLike, duty: ArrayLike, motor_current_a: ArrayLike,

@@ -15,6 +15,35 @@ DEFAULT_THRUST_TO_WEIGHT = 2.0  # [CP] camera / survey / utility multirotors
 ESC_CURRENT_MARGIN_RANGE = (1.2, 1.3)  # [CP] ESC continuous rating over the d = 1 motor current
 
 
+def all_up_mass_kg(base_mass_kg: ArrayLike, packs_in_parallel: ArrayLike, pack_mass_kg: ArrayLike,
+                   rotor_count: ArrayLike, esc_mass_kg: ArrayLike, motor_mass_kg: ArrayLike,
+                   propeller_mass_kg: ArrayLike) -> FloatArray:
+    """All-up mass ``frame + payload + k pack + N (ESC + motor + propeller)``. [kg]
+
+    ``base_mass_kg`` is the frame without propulsion and packs plus the payload; one ESC, motor and
+    propeller per rotor; ``k`` identical packs in parallel.
+    """
+    k = as_float_array(packs_in_parallel)
+    per_rotor = as_float_array(esc_mass_kg) + (as_float_array(motor_mass_kg) + as_float_array(propeller_mass_kg))
+    return (as_float_array(base_mass_kg) + k * as_float_array(pack_mass_kg)) + as_float_array(rotor_count) * per_rotor
+
+
+def thrust_per_rotor_n(mass_kg: ArrayLike, rotor_count: ArrayLike, thrust_per_weight: ArrayLike = 1.0) -> FloatArray:
+    """Thrust each rotor makes at the cruise point: ``m g0 (T/W) / N``. [N]
+
+    ``thrust_per_weight`` is 1 in hover and ``1 / (L/D)`` in steady level fixed-wing cruise (Anderson 1999).
+    """
+    return as_float_array(mass_kg) * (STANDARD_GRAVITY_M_S2 * as_float_array(thrust_per_weight)
+                                      / as_float_array(rotor_count))
+
+
+def system_cost(packs_in_parallel: ArrayLike, pack_cost: ArrayLike, rotor_count: ArrayLike, esc_cost: ArrayLike,
+                motor_cost: ArrayLike, propeller_cost: ArrayLike) -> FloatArray:
+    """Cost of one power system ``k pack + N (ESC + motor + propeller)``; NaN when a price is unknown. [currency]"""
+    per_rotor = as_float_array(esc_cost) + as_float_array(motor_cost) + as_float_array(propeller_cost)
+    return as_float_array(packs_in_parallel) * as_float_array(pack_cost) + as_float_array(rotor_count) * per_rotor
+
+
 def weight_n(mass_kg: ArrayLike) -> FloatArray:
     """Weight ``m g0``. [N]"""
     return as_float_array(mass_kg) * STANDARD_GRAVITY_M_S2

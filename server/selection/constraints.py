@@ -32,10 +32,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from server.physics._types import STANDARD_GRAVITY_M_S2
+from server.physics.drive_screen import Batch, Cruise, FullThrottle, cruise_point, full_throttle_points
+from server.physics.propeller_segments import PropModel
 
-from .evaluate import Batch, Cruise, FullThrottle, cruise_point, full_throttle_points
 from .library import MissionSpec
-from .propmodel import PropModel
 
 REASONS: tuple[str, ...] = (
     "missing_data", "prop_too_large", "no_forward_table", "esc_cell_range", "motor_cell_limit",
@@ -78,8 +78,8 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
         [g/W], thrust-to-weight at SOC 1 - usable_fraction [-], screening endurance [min].
     """
     n_r = float(mission.rotor_count)
-    cruise = cruise_point(batch, model, mission)
-    low, full = full_throttle_points(batch, model, mission, (batch.voc_low_v, batch.voc_full_v))
+    cruise = cruise_point(batch, model, n_r, mission.thrust_per_rotor_n(batch.mass_kg))
+    low, full = full_throttle_points(batch, model, n_r, (batch.voc_low_v, batch.voc_full_v))
     shape = np.broadcast_shapes(batch.shape, cruise.duty.shape)
     mass = np.broadcast_to(batch.mass_kg, shape)
     with np.errstate(invalid="ignore", divide="ignore"):

@@ -15,11 +15,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from server.physics import sizing
 from server.physics.battery import open_circuit_voltage_per_cell_v
+from server.physics.drive_screen import Batch
+from server.physics.propeller_segments import PropModel
 
-from .evaluate import Batch
 from .library import MissionSpec, PartsLibrary
-from .propmodel import PropModel
 
 DEFAULT_CHUNK_SIZE = 65_536
 
@@ -128,9 +129,9 @@ def batch_for(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: 
     full_v = pk.full_voltage_per_cell_v[pack]
     kf = np.asarray(k, dtype=np.float64)
     capacity = pk.capacity_ah[pack] * kf
-    freq = es.switching_frequency_hz[esc]
-    base = mission.frame_mass_kg + mission.payload_kg
-    mass = (base + kf * pk.mass_kg[pack]) + n_r * (es.mass_kg[esc] + (mo.mass_kg[motor] + pr.mass_kg[prop]))
+    constants = es.constants
+    mass = sizing.all_up_mass_kg(mission.frame_mass_kg + mission.payload_kg, kf, pk.mass_kg[pack], n_r,
+                                 es.mass_kg[esc], mo.mass_kg[motor], pr.mass_kg[prop])
     return Batch(
         voc_cruise_v=cells * open_circuit_voltage_per_cell_v(mission.cruise_state_of_charge, full_v),
         voc_low_v=cells * open_circuit_voltage_per_cell_v(mission.low_state_of_charge, full_v),
@@ -138,12 +139,12 @@ def batch_for(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: 
         pack_resistance_ohm=cells * pk.cell_resistance_ohm[pack] / (pk.cells_parallel[pack] * kf),
         capacity_ah=capacity,
         pack_limit_a=mission.pack_current_fraction * pk.max_continuous_c[pack] * capacity,
-        r_on_ohm=es.r_on_path_ohm[esc],
-        switching_coef=0.5 * freq * es.switching_time_s[esc],
-        dead_time_coef_v=es.diode_drop_v[esc] * 2.0 * es.dead_time_s[esc] * freq,
-        ripple_coef_s2=1.0 / (12.0 * freq * freq),
-        esr_ohm=es.input_esr_ohm[esc],
-        k_pwm=es.pwm_loss_coefficient[esc],
+        r_on_ohm=constants.on_path_resistance_ohm[esc],
+        switching_coef=constants.switching_per_v_a[esc],
+        dead_time_coef_v=constants.dead_time_v[esc],
+        ripple_coef_s2=constants.ripple_s2[esc],
+        esr_ohm=constants.input_esr_ohm[esc],
+        k_pwm=constants.pwm_loss_coefficient[esc],
         esc_rating_a=es.continuous_current_a[esc],
         kv_si=mo.kv_rpm_per_v[motor] * (2.0 * np.pi / 60.0),
         motor_resistance_ohm=mo.resistance_ohm[motor],
@@ -166,7 +167,7 @@ def chunk_indices(block: Block, chunk: Chunk) -> tuple[np.ndarray, ...]:
 def cost_of(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: np.ndarray, esc: np.ndarray,
             motor: np.ndarray, prop: np.ndarray) -> np.ndarray:
     """Cost of the candidates (k packs + one ESC, motor and propeller per rotor); NaN when a price is unknown."""
-    n_r = float(mission.rotor_count)
-    cost: np.ndarray = (np.asarray(k, dtype=np.float64) * library.packs.cost[pack]
-                        + n_r * (library.escs.cost[esc] + library.motors.cost[motor] + library.propellers.cost[prop]))
+    cost: np.ndarray = sizing.system_cost(np.asarray(k, dtype=np.float64), library.packs.cost[pack],
+                                          float(mission.rotor_count), library.escs.cost[esc],
+                                          library.motors.cost[motor], library.propellers.cost[prop])
     return cost

@@ -13,15 +13,17 @@ field names follow ``server/models/parts.py`` converted to SI). Conventions for 
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields, replace
 from typing import TYPE_CHECKING, Literal
 
 import numpy as np
+import numpy.typing as npt
 
-from server.physics import atmosphere
-from server.physics.esc import EscParams
+from server.physics import atmosphere, sizing
+from server.physics.esc import EscConstants, EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H
 from server.physics.propeller import PropellerTable
+from server.physics.propeller_segments import PropModel
 
 if TYPE_CHECKING:
     from _typeshed import DataclassInstance
@@ -36,8 +38,10 @@ def _float(a: object) -> np.ndarray:
 
 def _freeze(obj: DataclassInstance, skip: tuple[str, ...] = ("ids",)) -> None:
     for f in fields(obj):
+        if f.name in skip:
+            continue
         value = getattr(obj, f.name)
-        if f.name in skip or not isinstance(value, np.ndarray | list | tuple | float | int):
+        if not isinstance(value, np.ndarray | list | tuple | float | int):
             continue
         arr = _float(value)
         arr.setflags(write=False)
@@ -53,6 +57,8 @@ def _ids(ids: object, n: int) -> np.ndarray:
 
 def _check_lengths(obj: DataclassInstance, n: int) -> None:
     for f in fields(obj):
+        if not f.init:
+            continue
         value = getattr(obj, f.name)
         if isinstance(value, np.ndarray) and value.ndim == 1 and value.shape != (n,):
             raise ValueError(f"{type(obj).__name__}.{f.name} has {value.shape[0]} rows, expected {n}")
@@ -143,9 +149,11 @@ class EscLibrary:
     pwm_loss_coefficient: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
+    constants: EscConstants = field(init=False, repr=False, compare=False)
+    """The loss-term constants of every ESC, combined once (:class:`server.physics.esc.EscConstants`)."""
 
     def __post_init__(self) -> None:
-        _freeze(self)
+        _freeze(self, skip=("ids", "constants"))
         n = self.continuous_current_a.shape[0]
         object.__setattr__(self, "ids", _ids(self.ids, n))
         _check_lengths(self, n)
@@ -160,6 +168,7 @@ class EscLibrary:
             filled = np.where(np.isnan(a), float(default), a)
             filled.setflags(write=False)
             object.__setattr__(self, name, filled)
+        object.__setattr__(self, "constants", EscConstants.of(self.params()))
 
     def __len__(self) -> int:
         return int(self.continuous_current_a.shape[0])
@@ -354,6 +363,20 @@ class MissionSpec:
     def thrust_per_weight(self) -> float:
         """Required thrust over weight at the cruise point: 1 (hover) or 1/(L/D) (cruise). [-]"""
         return 1.0 if self.kind == "hover" else 1.0 / float(self.lift_to_drag)
+
+    def thrust_per_rotor_n(self, mass_kg: npt.ArrayLike) -> np.ndarray:
+        """Thrust each rotor makes at the cruise point for all-up mass ``mass_kg``. [N]"""
+        return sizing.thrust_per_rotor_n(mass_kg, float(self.rotor_count), self.thrust_per_weight)
+
+    def propeller_model(self, props: PropellerLibrary) -> PropModel:
+        """The segment model of the table this mission flies (static for hover, versus J for cruise).
+
+        A propeller is usable when its table is and its own data (diameter, mass) are known.
+        """
+        forward = self.kind == "cruise"
+        model = PropModel.build(props.forward if forward else props.static, props.diameter_m,
+                                density_kg_m3=self.density_kg_m3, airspeed_m_s=self.airspeed_m_s, forward=forward)
+        return replace(model, valid=model.valid & props.valid())
 
     @property
     def low_state_of_charge(self) -> float:

@@ -9,10 +9,11 @@ from multiprocessing import get_all_start_methods, get_context
 
 import numpy as np
 
+from server.physics.propeller_segments import PropModel
+
 from .constraints import REASONS
 from .enumerate import DEFAULT_CHUNK_SIZE, Chunk, Plan, chunks, plan
 from .library import MissionSpec, PartsLibrary
-from .propmodel import PropModel
 from .refine import refine
 from .result import ENGINE_VERSION, OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
 from .rows import build_rows
@@ -145,7 +146,7 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     report = _Progress(progress)
     report(0.0)
     t0 = time.perf_counter()
-    model = PropModel.build(library.propellers, mission)
+    model = mission.propeller_model(library.propellers)
     the_plan = plan(library, mission, model)
     all_chunks = list(chunks(the_plan, chunk_size))
     t1 = time.perf_counter()

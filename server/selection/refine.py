@@ -7,9 +7,9 @@ pack sags, until usable capacity, the under-load cut-off per cell or duty > 1.
 Two paths give the same flight (``tests/selection/test_fast_paths.py`` holds them to 1e-9 relative):
 
 - ``"fast"`` (default): every SOC node of every candidate is solved at once with the screening physics
-  (:func:`.evaluate.cruise_point`: the speed for the thrust on the propeller segment, then the sagged bus by
-  Newton, with every partial-throttle ESC loss and the full-throttle band), and the node values go through the
-  physics engine's own march (:func:`server.physics.fast.march_constant_thrust`, the integrator of
+  (:func:`server.physics.drive_screen.cruise_point`: the speed for the thrust on the propeller segment, then the
+  sagged bus by Newton, with every partial-throttle ESC loss and the full-throttle band), and the node values go
+  through the physics engine's own march (:func:`server.physics.fast.march_constant_thrust`, the integrator of
   :func:`server.physics.endurance.constant_thrust`: same SOC nodes, trapezoid rule, event location),
 - ``"reference"``: :func:`server.physics.endurance.constant_thrust` itself (bracketed root finding per node).
 """
@@ -21,15 +21,15 @@ from dataclasses import fields, replace
 import numpy as np
 
 from server.physics import endurance, fast
-from server.physics._types import STANDARD_GRAVITY_M_S2, as_float_array
+from server.physics._types import as_float_array
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
+from server.physics.drive_screen import cruise_point
 from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
+from server.physics.propeller_segments import PropModel
 
 from .enumerate import batch_for
-from .evaluate import cruise_point
 from .library import MissionSpec, PartsLibrary
-from .propmodel import PropModel
 from .result import CandidateSet
 
 STOP_REASONS = {int(r): r.name.lower() for r in endurance.StopReason}
@@ -72,7 +72,7 @@ def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel,
     flat = batch_for(library, mission, *cs.indices())
     batch = replace(flat, **{f.name: np.asarray(getattr(flat, f.name))[:, np.newaxis] for f in fields(flat)})
     batch = replace(batch, voc_cruise_v=voc)
-    cruise = cruise_point(batch, model, mission)
+    cruise = cruise_point(batch, model, float(mission.rotor_count), mission.thrust_per_rotor_n(batch.mass_kg))
     shape = voc.shape
     pack_current = np.broadcast_to(float(mission.rotor_count) * cruise.bus_current_a, shape)
     result = fast.march_constant_thrust(
@@ -89,7 +89,7 @@ def _reference(library: PartsLibrary, mission: MissionSpec, model: PropModel,
     motor = MotorParams(mo.kv_rpm_per_v[cs.motor], mo.resistance_ohm[cs.motor], mo.no_load_current_a[cs.motor],
                         inductance_h=mo.inductance_h[cs.motor], max_current_a=mo.max_current_a[cs.motor])
     esc: EscParams = library.escs.params(cs.esc)
-    thrust = cs.mass_kg * (STANDARD_GRAVITY_M_S2 * mission.thrust_per_weight / float(mission.rotor_count))
+    thrust = mission.thrust_per_rotor_n(cs.mass_kg)
     result = endurance.constant_thrust(thrust, pack=pack, motor=motor, esc=esc, propeller=model.table.take(cs.prop),
                                        rotor_count=float(mission.rotor_count), density_kg_m3=mission.density_kg_m3,
                                        airspeed_m_s=mission.airspeed_m_s, initial_state_of_charge=1.0)

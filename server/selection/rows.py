@@ -7,13 +7,13 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from server.physics.battery import LIPO_FULL_V_PER_CELL, LIPO_NOMINAL_V_PER_CELL
+from server.physics import esc as esc_model
+from server.physics.battery import nominal_voltage_per_cell_v
+from server.physics.propeller_segments import PropModel
 
 from .constraints import screen
 from .enumerate import batch_for
-from .evaluate import loss_coefficients
 from .library import MissionSpec, PartsLibrary
-from .propmodel import PropModel
 from .result import CandidateRow, CandidateSet
 
 
@@ -37,20 +37,19 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
     cr, full, low = sc.cruise, sc.full, sc.low
     n_r = float(mission.rotor_count)
     with np.errstate(invalid="ignore", divide="ignore"):
-        c_rip, c_sw, c_dt, c_cap, c_pwm = loss_coefficients(batch, cr.motor_current_a, cr.motor_voltage_v)
-        u = 1.0 - cr.duty
-        chopping = np.where(cr.duty < 1.0, 1.0, 0.0)
+        terms = esc_model.loss_terms(batch.loss_coefficients(cr.motor_current_a, cr.motor_voltage_v),
+                                     cr.bus_voltage_v, cr.duty)
         shaft = cr.torque_nm * cr.omega_rad_s
         per_rotor_power = cr.bus_voltage_v * cr.bus_current_a
         losses = {
             "motor_copper_w": cr.motor_current_a**2 * batch.motor_resistance_ohm,
             "motor_no_load_w": batch.no_load_current_a * cr.omega_rad_s / batch.kv_si,
             "esc_conduction_w": cr.motor_current_a**2 * batch.r_on_ohm,
-            "pwm_ripple_w": c_rip * u * u * chopping,
-            "switching_w": c_sw * cr.bus_voltage_v * chopping,
-            "dead_time_w": c_dt * chopping,
-            "input_capacitor_w": c_cap * cr.duty * u * chopping,
-            "calibrated_pwm_w": c_pwm * u * chopping,
+            "pwm_ripple_w": terms.pwm_ripple_w,
+            "switching_w": terms.switching_w,
+            "dead_time_w": terms.dead_time_w,
+            "input_capacitor_w": terms.input_capacitor_w,
+            "calibrated_pwm_w": terms.calibrated_pwm_w,
         }
         pack_loss = batch.pack_resistance_ohm * sc.pack_current_a**2
         pack_limit = np.broadcast_to(batch.pack_limit_a, (n,))
@@ -60,7 +59,7 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
         p, k = int(cs.pack[i]), int(cs.k[i])
         cost = float(cs.cost[i])
         cells = float(pk.cells_series[p])
-        nominal = cells * LIPO_NOMINAL_V_PER_CELL * float(pk.full_voltage_per_cell_v[p]) / LIPO_FULL_V_PER_CELL
+        nominal = cells * float(nominal_voltage_per_cell_v(pk.full_voltage_per_cell_v[p]))
         i_full = _f(full.motor_current_a, i)
         rows.append(CandidateRow(
             rank=i + 1,

@@ -11,11 +11,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from server.physics.propeller_segments import PropModel
+
 from .constraints import REASONS, screen
 from .enumerate import Chunk, Plan, batch_for, chunk_indices, cost_of
 from .library import MissionSpec, PartsLibrary
 from .pareto import ParetoFront
-from .propmodel import PropModel
 from .result import CandidateSet, primary_key, ranking_order
 
 
@@ -87,7 +88,7 @@ def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, 
 def run_chunks(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, chunks: list[Chunk], objective: str,
                pool_size: int, id_ranks: tuple[np.ndarray, ...]) -> Partial:
     """Screen a list of chunks in a fresh partial (the unit of work of a worker process)."""
-    model = PropModel.build(library.propellers, mission)
+    model = mission.propeller_model(library.propellers)
     partial = Partial(objective, pool_size, id_ranks)
     for chunk in chunks:
         screen_chunk(partial, library, mission, model, the_plan, chunk)

@@ -195,21 +195,14 @@ def model_at_samples(session: Session, *, team_id: int, run: BenchRun) -> list[d
     n = len(run.samples)
     empty: list[dict[str, float | None]] = [
         {"model_electrical_power_w": None, "model_bus_current_a": None, "residual_power": None}] * n
+    get = parts_service.get_part
     try:
-        resolved = {}
-        for kind, pid, fields, defaults in (("escs", run.esc_id, ps.ESC_FIELDS, ps.ESC_DEFAULTS),
-                                            ("motors", run.motor_id, ps.MOTOR_FIELDS, ps.MOTOR_DEFAULTS),
-                                            ("propellers", run.propeller_id, ps.PROP_FIELDS, {})):
-            part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=pid)
-            values, sources = ps.from_part(session, team_id, kind, part, fields)
-            for name, value in defaults.items():
-                values.setdefault(name, value)
-                if values[name] is None:
-                    values[name] = value
-            resolved[kind] = ps.Resolved(kind, values, sources)
-        motor = ps.motor_params(resolved["motors"])
-        esc: EscParams = ps.esc_params(resolved["escs"])
-        static, _ = ps.propeller_tables(resolved["propellers"])
+        esc_part = get(session, team_id=team_id, kind="escs", part_id=run.esc_id)
+        motor_part = get(session, team_id=team_id, kind="motors", part_id=run.motor_id)
+        prop_part = get(session, team_id=team_id, kind="propellers", part_id=run.propeller_id)
+        esc: EscParams = ps.esc_params(ps.resolve_part(session, team_id, "escs", esc_part))
+        motor = ps.motor_params(ps.resolve_part(session, team_id, "motors", motor_part))
+        static, _ = ps.propeller_tables(ps.resolve_part(session, team_id, "propellers", prop_part))
     except InvalidInput:
         return empty
     thrust = np.array([s.thrust_n for s in run.samples])

@@ -74,9 +74,8 @@ def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, A
             data.append((run, rd))
     if not data:
         return {"calibrations": [], "error": f"no run of this ESC has {MIN_SAMPLES_TO_FIT} usable samples yet"}
-    esc_values, _ = ps.from_part(session, team_id, "escs", esc, ps.ESC_FIELDS, use_calibration=False)
-    base = ps.esc_params(ps.Resolved("escs", {**ps.ESC_DEFAULTS, **{k: v for k, v in esc_values.items()
-                                                                     if v is not None}}))
+    # The fit starts from the ESC's own entered values (not its previous calibration), defaults for the rest.
+    base = ps.esc_params(ps.resolve_part(session, team_id, "escs", esc, use_calibration=False))
     priors = {}
     for motor_id in {r.motor_id for r, _ in data}:
         motor = session.get(Motor, motor_id)

@@ -14,14 +14,15 @@ from typing import Any
 import numpy as np
 from sqlalchemy.orm import Session
 
-from server.errors import FieldError, InvalidInput
+from server.errors import FieldError, InvalidInput, NotFound
 from server.models import Battery, Esc, Mission, Motor, Propeller
-from server.physics import atmosphere, drive, endurance, fast
-from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
+from server.physics import drive, endurance, fast, sizing
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
 from server.physics.operating_point import OperatingPoint
 from server.services import parts as parts_service
 from server.services import power_system as ps
+from server.services.ranking_inputs import mission_spec_of
 
 G0 = STANDARD_GRAVITY_M_S2
 LOSS_NAMES = [
@@ -66,6 +67,7 @@ class Candidate:
     all_up_mass_g: float
     cost: float | None
     sources: dict[str, dict[str, str]]
+    pack_nominal_voltage_v: float
 
     def point_at_soc(self, soc: float, **kw: Any) -> dict[str, Any]:
         return {
@@ -84,80 +86,31 @@ def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds)
         esc = get(session, team_id=team_id, kind="escs", part_id=ids.esc_id)
         motor = get(session, team_id=team_id, kind="motors", part_id=ids.motor_id)
         prop = get(session, team_id=team_id, kind="propellers", part_id=ids.propeller_id)
-    except Exception as exc:
+    except NotFound as exc:
         raise InvalidInput("Unknown part", [FieldError("part", str(exc))]) from None
-    airframe = mission.airframe
     k = ids.packs_in_parallel
     if not 1 <= k <= 4:
         raise InvalidInput("Bad pack configuration", [FieldError("packs_in_parallel", "must be 1–4")])
-    resolved = {}
-    for kind, part, fields, defaults in (
-        ("escs", esc, ps.ESC_FIELDS, ps.ESC_DEFAULTS),
-        ("motors", motor, ps.MOTOR_FIELDS, ps.MOTOR_DEFAULTS),
-        ("propellers", prop, ps.PROP_FIELDS, {}),
-    ):
-        values, sources = ps.from_part(session, team_id, kind, part, fields)
-        for name, value in defaults.items():
-            if values.get(name) is None:
-                values[name], sources[name] = value, "default"
-        resolved[kind] = ps.Resolved(kind, values, sources, part.id)
-    static, forward = ps.propeller_tables(resolved["propellers"])
-    rotors = airframe.rotor_count
-    mass_g = (
-        airframe.frame_mass_g
-        + mission.payload_mass_g
-        + k * battery.mass_g
-        + rotors * (motor.mass_g + prop.mass_g + esc.mass_g)
-    )
-    weight_n = mass_g / 1000 * G0
-    density = float(atmosphere.air_density_kg_m3(mission.altitude_m, temperature_offset_k=mission.temperature_offset_c))
-    if mission.kind == "cruise":
-        if forward is None:
-            raise InvalidInput(
-                "No forward-flight data",
-                [FieldError("propeller.forward_table", "a cruise mission needs CT/CP versus J")],
-            )
-        thrust = weight_n / float(mission.lift_to_drag or 1) / rotors
-        table, airspeed = forward, float(mission.cruise_airspeed_m_s or 0)
-    else:
-        thrust, table, airspeed = weight_n / rotors, static, 0.0
-    battery_cost, esc_cost, motor_cost, prop_cost = battery.unit_cost, esc.unit_cost, motor.unit_cost, prop.unit_cost
-    cost = (
-        None
-        if battery_cost is None or esc_cost is None or motor_cost is None or prop_cost is None
-        else (k * battery_cost + rotors * (esc_cost + motor_cost + prop_cost))
-    )
-    pack = PackParams(
-        cells_series=as_float_array(battery.cells_series),
-        capacity_ah=as_float_array(battery.capacity_mah / 1000 * k),
-        cell_resistance_ohm=as_float_array(battery.cell_resistance_mohm / 1000),
-        cells_parallel=as_float_array(battery.cells_parallel * k),
-        full_voltage_per_cell_v=as_float_array(ps.FULL_VOLTAGE_PER_CELL_V[battery.chemistry]),
-        usable_fraction=as_float_array(mission.usable_fraction),
-        cutoff_voltage_per_cell_v=as_float_array(mission.cutoff_v_per_cell),
-    )
+    system = ps.PowerSystem.from_parts(session, team_id, battery, esc, motor, prop)
+    spec = mission_spec_of(mission)
+    rotors = spec.rotor_count
+    mass_kg = float(sizing.all_up_mass_kg(spec.frame_mass_kg + spec.payload_kg, k, battery.mass_g / 1000, rotors,
+                                          esc.mass_g / 1000, motor.mass_g / 1000, prop.mass_g / 1000))
+    table = system.table_for(spec.airspeed_m_s, "propeller.forward_table")
+    prices = [np.nan if c is None else c for c in (battery.unit_cost, esc.unit_cost, motor.unit_cost, prop.unit_cost)]
+    cost = _f(sizing.system_cost(k, prices[0], rotors, prices[1], prices[2], prices[3]))
+    pack = system.pack(packs_in_parallel=k, usable_fraction=mission.usable_fraction,
+                       cutoff_v_per_cell=mission.cutoff_v_per_cell)
     kwargs = {
-        "motor": ps.motor_params(resolved["motors"]),
-        "esc": ps.esc_params(resolved["escs"]),
+        "motor": system.motor_params,
+        "esc": system.esc_params,
         "propeller": table,
         "rotor_count": rotors,
-        "density_kg_m3": density,
-        "airspeed_m_s": airspeed,
+        "density_kg_m3": spec.density_kg_m3,
+        "airspeed_m_s": spec.airspeed_m_s,
     }
-    return Candidate(
-        mission,
-        ids,
-        battery,
-        esc,
-        motor,
-        prop,
-        kwargs,
-        pack,
-        thrust,
-        mass_g,
-        cost,
-        {kind: r.sources for kind, r in resolved.items()},
-    )
+    return Candidate(mission, ids, battery, esc, motor, prop, kwargs, pack, float(spec.thrust_per_rotor_n(mass_kg)),
+                     1000.0 * mass_kg, cost, system.sources(), system.nominal_voltage_v)
 
 
 def _losses(op: OperatingPoint) -> dict[str, float | None]:
@@ -185,9 +138,7 @@ def evaluate(
         "propeller_id": ids.propeller_id,
         "packs_in_parallel": ids.packs_in_parallel,
         "cells_series": c.battery.cells_series,
-        "pack_nominal_voltage_v": 3.7 * c.battery.cells_series
-        if c.battery.chemistry != "lihv"
-        else 3.8 * c.battery.cells_series,
+        "pack_nominal_voltage_v": c.pack_nominal_voltage_v,
         "all_up_mass_g": c.all_up_mass_g,
         "thrust_required_n": c.thrust_required_n,
         "cruise": {

@@ -1,7 +1,14 @@
-"""Turn saved parts and inline parameters into physics parameters, remembering where each value came from.
+"""One power-system assembly: saved parts and inline parameters → physics parameters, and where each came from.
 
-Sources: ``part`` (a saved part's field), ``request`` (given in the request), ``default`` (the engine's
-documented default, physics.md reference model v1), ``calibrated`` (fitted from the team's bench runs).
+Every use of a part (predict, candidate evaluation for shortlists and compare, the ranking snapshot, the bench
+run's model curve, calibration start values) resolves it here, by one rule:
+
+1. the saved part's fields (source ``part``),
+2. replaced by the identified values of its active calibration (source ``calibrated``),
+3. replaced by what a request states (source ``request``; predict only),
+4. what is still missing takes the engine's documented default (source ``default``).
+
+:class:`PowerSystem` then turns four resolved parts into the physics engine's parameter objects.
 """
 
 from __future__ import annotations
@@ -15,17 +22,17 @@ from pydantic import BaseModel
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from server.errors import FieldError, InvalidInput
+from server.errors import FieldError, InvalidInput, NotFound
 from server.models import Calibration, PartColumns
 from server.physics._types import as_float_array
-from server.physics.battery import LIHV_FULL_V_PER_CELL, LIPO_FULL_V_PER_CELL
+from server.physics.battery import CELL_VOLTAGES_V, PackParams, full_voltage_per_cell_v, nominal_voltage_per_cell_v
 from server.physics.esc import EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H, MotorParams
 from server.physics.propeller import PropellerTable
 from server.services import parts as parts_service
 
 INCH_M = 0.0254
-FULL_VOLTAGE_PER_CELL_V = {"lipo": LIPO_FULL_V_PER_CELL, "lihv": LIHV_FULL_V_PER_CELL, "liion": LIPO_FULL_V_PER_CELL}
+FULL_VOLTAGE_PER_CELL_V = {chemistry: full for chemistry, (full, _) in CELL_VOLTAGES_V.items()}
 _ESC_DEFAULTS = EscParams()
 ESC_DEFAULTS: dict[str, float] = {
     "r_on_path_ohm": float(_ESC_DEFAULTS.on_path_resistance_ohm),
@@ -37,6 +44,11 @@ ESC_DEFAULTS: dict[str, float] = {
     "k_pwm": float(_ESC_DEFAULTS.pwm_loss_coefficient),
 }
 MOTOR_DEFAULTS: dict[str, float] = {"inductance_uh": DEFAULT_INDUCTANCE_H * 1e6}
+BATTERY_DEFAULTS: dict[str, Any] = {"cells_parallel": 1, "chemistry": "lipo"}
+DEFAULTS: dict[str, Mapping[str, Any]] = {
+    "escs": ESC_DEFAULTS, "motors": MOTOR_DEFAULTS, "propellers": {}, "batteries": BATTERY_DEFAULTS,
+}
+"""What a part kind takes when neither the part, a calibration nor a request gives a value."""
 UNITS = {
     "r_on_path_ohm": "Ω", "pwm_frequency_khz": "kHz", "switching_time_ns": "ns", "dead_time_ns": "ns",
     "diode_drop_v": "V", "input_esr_ohm": "Ω", "k_pwm": "", "continuous_current_a": "A",
@@ -46,6 +58,15 @@ UNITS = {
     "supply_voltage_v": "V", "chemistry": "", "wiring_resistance_ohm": "Ω", "packs_in_parallel": "packs",
     "state_of_charge": "", "blades": "blades", "static_table": "", "forward_table": "",
 }
+ESC_FIELDS = [*ESC_DEFAULTS, "continuous_current_a"]
+MOTOR_FIELDS = ["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh", "max_current_a"]
+PROP_FIELDS = ["diameter_in", "pitch_in", "blades", "ct", "cp", "static_table", "forward_table"]
+BATTERY_FIELDS = ["chemistry", "cells_series", "cells_parallel", "capacity_mah", "cell_resistance_mohm",
+                  "max_continuous_c"]
+MODEL_FIELDS: dict[str, list[str]] = {
+    "batteries": BATTERY_FIELDS, "escs": ESC_FIELDS, "motors": MOTOR_FIELDS, "propellers": PROP_FIELDS,
+}
+"""The fields of each part kind the physics reads."""
 
 
 @dataclass
@@ -72,6 +93,13 @@ class Resolved:
                 [FieldError(f"{where}.{n}", "required: not given, and the saved part has none (a bench run "
                             "calibration can supply it)") for n in missing],
             )
+
+    def fill_defaults(self) -> Resolved:
+        """Give every still-missing parameter its kind's default (source ``default``)."""
+        for name, value in DEFAULTS.get(self.kind, {}).items():
+            if self.values.get(name) is None:
+                self.values[name], self.sources[name] = value, "default"
+        return self
 
 
 def calibrated_values(session: Session, *, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
@@ -103,8 +131,15 @@ def from_part(session: Session, team_id: int, kind: str, part: PartColumns, fiel
     return values, sources
 
 
-def resolve(session: Session | None, team_id: int | None, kind: str, given: BaseModel, where: str,
-            fields: list[str], defaults: Mapping[str, object] | None = None) -> Resolved:
+def resolve_part(session: Session, team_id: int, kind: str, part: PartColumns, *, use_calibration: bool = True,
+                 extra_fields: list[str] | None = None) -> Resolved:
+    """A saved part's model parameters by the one rule of this module (part, calibration, default)."""
+    values, sources = from_part(session, team_id, kind, part, MODEL_FIELDS[kind] + (extra_fields or []),
+                                use_calibration)
+    return Resolved(kind, values, sources, part.id).fill_defaults()
+
+
+def resolve(session: Session | None, team_id: int | None, kind: str, given: BaseModel, where: str) -> Resolved:
     """Saved part (when ``given.id``; calibration wins) overlaid with the request's fields, then defaults."""
     values: dict[str, Any] = {}
     sources: dict[str, str] = {}
@@ -114,23 +149,13 @@ def resolve(session: Session | None, team_id: int | None, kind: str, given: Base
             raise InvalidInput("Parts by id need a team", [FieldError(f"{where}.id", "no team context for ids")])
         try:
             part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
-        except Exception as exc:
+        except NotFound as exc:
             raise InvalidInput("Unknown part", [FieldError(f"{where}.id", str(exc))]) from None
-        values, sources = from_part(session, team_id, kind, part, fields)
+        values, sources = from_part(session, team_id, kind, part, MODEL_FIELDS[kind])
     for name, value in given.model_dump(exclude_unset=True, exclude={"id"}, mode="json").items():
         if value is not None:
             values[name], sources[name] = value, "request"
-    for name, value in (defaults or {}).items():
-        if values.get(name) is None:
-            values[name], sources[name] = value, "default"
-    return Resolved(kind, values, sources, part_id)
-
-
-ESC_FIELDS = [*ESC_DEFAULTS, "continuous_current_a"]
-MOTOR_FIELDS = ["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh", "max_current_a"]
-PROP_FIELDS = ["diameter_in", "pitch_in", "blades", "ct", "cp", "static_table", "forward_table"]
-BATTERY_FIELDS = ["chemistry", "cells_series", "cells_parallel", "capacity_mah", "cell_resistance_mohm",
-                  "max_continuous_c"]
+    return Resolved(kind, values, sources, part_id).fill_defaults()
 
 
 def esc_params(esc: Resolved) -> EscParams:
@@ -153,24 +178,102 @@ def motor_params(motor: Resolved) -> MotorParams:
     )
 
 
+def table_rows(values: Mapping[str, Any], key: str) -> tuple[list[float], list[float], list[float]] | None:
+    """(abscissae, CT, CP) of a propeller's static (``rpm``) or forward (``j``) table; a static constant pair is
+    a one-point table; None when the propeller has no such data."""
+    axis_key = "rpm" if key == "static_table" else "j"
+    rows = values.get(key)
+    if rows:
+        return [r[axis_key] for r in rows], [r["ct"] for r in rows], [r["cp"] for r in rows]
+    if key == "static_table" and values.get("ct") is not None and values.get("cp") is not None:
+        return [0.0], [values["ct"]], [values["cp"]]
+    return None
+
+
 def propeller_tables(prop: Resolved) -> tuple[PropellerTable, PropellerTable | None]:
     """(static table vs rpm, forward table vs J or None); constants become a one-point table."""
     prop.require(["diameter_in"], "propeller")
     v = prop.values
     diameter_m = v["diameter_in"] * INCH_M
-    if v.get("static_table"):
-        table = v["static_table"]
-        columns = ([r["rpm"] for r in table], [r["ct"] for r in table], [r["cp"] for r in table])
-        static = PropellerTable.from_rows(diameter_m, [columns], axis="rpm")
-    elif v.get("ct") is not None and v.get("cp") is not None:
-        static = PropellerTable.constant(diameter_m, v["ct"], v["cp"])
-    else:
+    static_rows = table_rows(v, "static_table")
+    if static_rows is None:
         raise InvalidInput("Missing propeller data", [
             FieldError("propeller.ct", "give ct and cp, or a static_table (a bench run calibration can supply it)")
         ])
-    forward = None
-    if v.get("forward_table"):
-        table = v["forward_table"]
-        columns = ([r["j"] for r in table], [r["ct"] for r in table], [r["cp"] for r in table])
-        forward = PropellerTable.from_rows(diameter_m, [columns], axis="advance_ratio")
+    static = PropellerTable.from_rows(diameter_m, [static_rows], axis="rpm")
+    forward_rows = table_rows(v, "forward_table")
+    forward = None if forward_rows is None else PropellerTable.from_rows(diameter_m, [forward_rows],
+                                                                          axis="advance_ratio")
     return static, forward
+
+
+@dataclass
+class PowerSystem:
+    """Four resolved parts and the physics parameters built from them (one rotor's drive and the pack)."""
+
+    battery: Resolved
+    esc: Resolved
+    motor: Resolved
+    propeller: Resolved
+
+    @classmethod
+    def from_parts(cls, session: Session, team_id: int, battery: PartColumns, esc: PartColumns, motor: PartColumns,
+                   propeller: PartColumns) -> PowerSystem:
+        """The power system of four saved parts (calibrations win, defaults fill the rest)."""
+        return cls(*(resolve_part(session, team_id, kind, part) for kind, part in (
+            ("batteries", battery), ("escs", esc), ("motors", motor), ("propellers", propeller))))
+
+    @property
+    def motor_params(self) -> MotorParams:
+        return motor_params(self.motor)
+
+    @property
+    def esc_params(self) -> EscParams:
+        return esc_params(self.esc)
+
+    def tables(self) -> tuple[PropellerTable, PropellerTable | None]:
+        """(static table vs rpm, forward table vs J or None)."""
+        return propeller_tables(self.propeller)
+
+    def table_for(self, airspeed_m_s: float, where: str = "propeller.forward_table") -> PropellerTable:
+        """The table a flight at ``airspeed_m_s`` reads: static at 0, versus advance ratio above."""
+        static, forward = self.tables()
+        if airspeed_m_s <= 0:
+            return static
+        if forward is None:
+            raise InvalidInput("No forward-flight data", [FieldError(where, "flight at an airspeed needs CT/CP "
+                                                                            "versus advance ratio J")])
+        return forward
+
+    @property
+    def full_voltage_per_cell_v(self) -> float:
+        return full_voltage_per_cell_v(self.battery.values.get("chemistry") or "lipo")
+
+    @property
+    def nominal_voltage_v(self) -> float:
+        """The pack's label voltage ``S V_nom`` (display only). [V]"""
+        cells = float(self.battery.values["cells_series"])
+        return cells * float(nominal_voltage_per_cell_v(self.full_voltage_per_cell_v))
+
+    def pack(self, *, packs_in_parallel: int = 1, wiring_resistance_ohm: float = 0.0,
+             usable_fraction: float | None = None, cutoff_v_per_cell: float | None = None) -> PackParams:
+        """The pack (``k`` identical packs in parallel: capacity × k, resistance ÷ k)."""
+        self.battery.require(["cells_series", "capacity_mah", "cell_resistance_mohm"], "battery")
+        v = self.battery.values
+        k = packs_in_parallel
+        extra: dict[str, Any] = {}
+        if usable_fraction is not None:
+            extra["usable_fraction"] = as_float_array(usable_fraction)
+        if cutoff_v_per_cell is not None:
+            extra["cutoff_voltage_per_cell_v"] = as_float_array(cutoff_v_per_cell)
+        return PackParams(
+            cells_series=as_float_array(v["cells_series"]), capacity_ah=as_float_array(v["capacity_mah"] / 1000 * k),
+            cell_resistance_ohm=as_float_array(v["cell_resistance_mohm"] / 1000),
+            cells_parallel=as_float_array(v["cells_parallel"] * k),
+            wiring_resistance_ohm=as_float_array(wiring_resistance_ohm),
+            full_voltage_per_cell_v=as_float_array(self.full_voltage_per_cell_v), **extra,
+        )
+
+    def sources(self) -> dict[str, dict[str, str]]:
+        return {kind: r.sources for kind, r in (("batteries", self.battery), ("escs", self.esc),
+                                                 ("motors", self.motor), ("propellers", self.propeller))}

@@ -10,7 +10,7 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
 from server.physics import atmosphere, drive, endurance
-from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
 from server.physics.operating_point import OperatingPoint
 from server.physics.propeller import PropellerTable, tip_mach_number
@@ -38,15 +38,17 @@ class System:
 
     def __init__(self, session: Session | None, team_id: int | None, request: PredictRequest) -> None:
         self.request = request
-        self.esc = ps.resolve(session, team_id, "escs", request.esc, "esc", ps.ESC_FIELDS, ps.ESC_DEFAULTS)
-        self.motor = ps.resolve(session, team_id, "motors", request.motor, "motor", ps.MOTOR_FIELDS,
-                                ps.MOTOR_DEFAULTS)
-        self.prop = ps.resolve(session, team_id, "propellers", request.propeller, "propeller", ps.PROP_FIELDS)
-        self.battery = ps.resolve(session, team_id, "batteries", request.battery, "battery",
-                                  ps.BATTERY_FIELDS, {"cells_parallel": 1, "chemistry": "lipo"})
-        self.motor_params = ps.motor_params(self.motor)
-        self.esc_params = ps.esc_params(self.esc)
-        self.static_table, self.forward_table = ps.propeller_tables(self.prop)
+        self.system = ps.PowerSystem(
+            battery=ps.resolve(session, team_id, "batteries", request.battery, "battery"),
+            esc=ps.resolve(session, team_id, "escs", request.esc, "esc"),
+            motor=ps.resolve(session, team_id, "motors", request.motor, "motor"),
+            propeller=ps.resolve(session, team_id, "propellers", request.propeller, "propeller"),
+        )
+        self.esc, self.motor, self.prop, self.battery = (self.system.esc, self.system.motor, self.system.propeller,
+                                                         self.system.battery)
+        self.motor_params = self.system.motor_params
+        self.esc_params = self.system.esc_params
+        self.static_table, self.forward_table = self.system.tables()
         conditions = request.conditions
         outside_k = None if conditions.air_temperature_c is None else conditions.air_temperature_c + 273.15
         self.density = float(atmosphere.air_density_kg_m3(
@@ -58,29 +60,15 @@ class System:
             outside_air_temperature_k=outside_k,
         ))
         self.airspeed = conditions.airspeed_m_s
-        self.table: PropellerTable
-        if self.airspeed > 0:
-            if self.forward_table is None:
-                raise InvalidInput("No forward-flight data", [FieldError(
-                    "propeller.forward_table", "an airspeed above 0 needs CT/CP versus advance ratio J")])
-            self.table = self.forward_table
-        else:
-            self.table = self.static_table
+        self.table: PropellerTable = self.system.table_for(self.airspeed, "propeller.forward_table")
         b = request.battery
         if b.supply_voltage_v is not None:
             self.pack: PackParams | None = None
             self.open_circuit_v = b.supply_voltage_v
             self.pack_resistance = b.wiring_resistance_ohm
         else:
-            self.battery.require(["cells_series", "capacity_mah", "cell_resistance_mohm"], "battery")
-            v = self.battery.values
-            k = b.packs_in_parallel
-            self.pack = PackParams(
-                cells_series=v["cells_series"], capacity_ah=v["capacity_mah"] / 1000 * k,
-                cell_resistance_ohm=v["cell_resistance_mohm"] / 1000, cells_parallel=v["cells_parallel"] * k,
-                wiring_resistance_ohm=b.wiring_resistance_ohm,
-                full_voltage_per_cell_v=as_float_array(ps.FULL_VOLTAGE_PER_CELL_V[v["chemistry"]]),
-            )
+            self.pack = self.system.pack(packs_in_parallel=b.packs_in_parallel,
+                                         wiring_resistance_ohm=b.wiring_resistance_ohm)
             self.open_circuit_v = float(self.pack.open_circuit_voltage_v(b.state_of_charge))
             self.pack_resistance = float(self.pack.resistance_ohm)
 

@@ -87,8 +87,15 @@ MISSION_FIELDS = [
 AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel"]
 
 
+def mission_dicts(mission: Mission) -> tuple[dict[str, Any], dict[str, Any]]:
+    """The mission's and its airframe's fields the engine reads, as plain JSON values."""
+    return ({"id": mission.id, **{f: getattr(mission, f) for f in MISSION_FIELDS}},
+            {"id": mission.airframe.id, **{f: getattr(mission.airframe, f) for f in AIRFRAME_FIELDS}})
+
+
 def snapshot(session: Session, *, team_id: int, mission: Mission) -> dict[str, Any]:
-    """The mission, its airframe and every active part (calibrated values replace entered ones)."""
+    """The mission, its airframe and every active part, each resolved by :func:`power_system.resolve_part`
+    (calibrated values replace entered ones, defaults fill the rest), with the source of every value."""
     parts: dict[str, list[dict[str, Any]]] = {}
     for kind, model in PART_MODELS.items():
         rows = session.scalars(
@@ -96,19 +103,17 @@ def snapshot(session: Session, *, team_id: int, mission: Mission) -> dict[str, A
         )
         parts[kind] = []
         for part in rows:
-            values, sources = ps.from_part(session, team_id, kind, part, PART_FIELDS[kind])
+            resolved = ps.resolve_part(session, team_id, kind, part, extra_fields=PART_FIELDS[kind])
             parts[kind].append(
                 {
                     "id": part.id,
-                    **{f: values.get(f) for f in PART_FIELDS[kind]},
-                    "calibrated": sorted(k for k, s in sources.items() if s == "calibrated"),
+                    **{f: resolved.values.get(f) for f in PART_FIELDS[kind]},
+                    "calibrated": sorted(k for k, s in resolved.sources.items() if s == "calibrated"),
+                    "sources": {k: s for k, s in resolved.sources.items() if s != "part"},
                 }
             )
-    return {
-        "mission": {"id": mission.id, **{f: getattr(mission, f) for f in MISSION_FIELDS}},
-        "airframe": {"id": mission.airframe.id, **{f: getattr(mission.airframe, f) for f in AIRFRAME_FIELDS}},
-        "parts": parts,
-    }
+    mission_values, airframe_values = mission_dicts(mission)
+    return {"mission": mission_values, "airframe": airframe_values, "parts": parts}
 
 
 def _num(value: Any, missing: float = np.nan) -> float:
@@ -194,8 +199,14 @@ def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
         mass_kg=_column(pr, "mass_g", 1e-3),
         cost=_column(pr, "unit_cost"),
     )
-    ms, af = snap["mission"], snap["airframe"]
-    mission = MissionSpec(
+    mission = mission_spec(snap["mission"], snap["airframe"])
+    return PartsLibrary(packs, escs, motors, propellers), mission
+
+
+def mission_spec(ms: dict[str, Any], af: dict[str, Any]) -> MissionSpec:
+    """The engine's mission (SI) from the mission's and airframe's fields (:func:`mission_dicts`)."""
+    inf = np.inf
+    return MissionSpec(
         rotor_count=int(af["rotor_count"]),
         frame_mass_kg=af["frame_mass_g"] / 1000,
         kind=ms["kind"],
@@ -217,4 +228,8 @@ def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
         cruise_state_of_charge=ms["cruise_state_of_charge"],
         max_all_up_mass_kg=None if ms["max_all_up_mass_g"] is None else ms["max_all_up_mass_g"] / 1000,
     )
-    return PartsLibrary(packs, escs, motors, propellers), mission
+
+
+def mission_spec_of(mission: Mission) -> MissionSpec:
+    """The engine's mission for a saved mission (the same mapping a ranking snapshot goes through)."""
+    return mission_spec(*mission_dicts(mission))

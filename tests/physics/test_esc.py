@@ -22,12 +22,13 @@ def test_terms_at_esc_2_operating_point() -> None:
     ripple = esc_model.ripple_current_a(bus, duty, L_H, F_HZ)
     assert ripple == pytest.approx(3.5185, abs=1e-4)
     assert esc_model.rms_current_a(I_MOTOR, ripple) == pytest.approx(13.7546, abs=1e-4)
-    assert esc_model.ripple_copper_loss_w(ripple, 0.10 + 0.010) == pytest.approx(0.1135, abs=1e-4)
-    assert esc_model.switching_loss_w(bus, I_MOTOR, duty, F_HZ, 200e-9) == pytest.approx(0.3753, abs=1e-4)
-    assert esc_model.dead_time_loss_w(I_MOTOR, duty, F_HZ, 0.5e-6, 0.8) == pytest.approx(0.2634, abs=1e-4)
     assert esc_model.input_capacitor_rms_current_a(I_MOTOR, duty) == pytest.approx(6.4663, abs=1e-4)
-    assert esc_model.input_capacitor_loss_w(I_MOTOR, duty, 0.020) == pytest.approx(0.8363, abs=1e-4)
     losses = esc_model.partial_throttle_losses(bus, duty, I_MOTOR, 0.10, L_H, EscParams())
+    assert losses.pwm_ripple_w == pytest.approx(0.1135, abs=1e-4)  # (R + R_on) ΔI^2 / 12
+    assert losses.switching_w == pytest.approx(0.3753, abs=1e-4)  # 0.5 V I f (t_on + t_off)
+    assert losses.dead_time_w == pytest.approx(0.2634, abs=1e-4)  # V_SD I 2 t_dead f
+    assert losses.input_capacitor_w == pytest.approx(0.8363, abs=1e-4)  # ESR I^2 d (1 - d)
+    assert losses.calibrated_pwm_w == 0.0  # k_pwm = 0 in the worked example
     assert losses.total_w == pytest.approx(1.5884, abs=1e-4)
     assert esc_model.bus_current_a(bus, duty, I_MOTOR, losses.total_w) == pytest.approx(9.28402, rel=1e-4)
 
@@ -57,7 +58,8 @@ def test_every_partial_throttle_term_vanishes_at_full_throttle() -> None:
 
 def test_calibrated_pwm_term() -> None:
     # physics.md reference model v1 item 4: P_pwm = k_pwm V_bus I d (1 - d), default k_pwm = 0
-    assert esc_model.calibrated_pwm_loss_w(11.4, I_MOTOR, 0.5, 0.1) == pytest.approx(0.1 * 11.4 * I_MOTOR * 0.25)
+    losses = esc_model.partial_throttle_losses(11.4, 0.5, I_MOTOR, 0.1, L_H, EscParams(pwm_loss_coefficient=0.1))
+    assert losses.calibrated_pwm_w == pytest.approx(0.1 * 11.4 * I_MOTOR * 0.25)
     assert EscParams().pwm_loss_coefficient == 0.0
 
 

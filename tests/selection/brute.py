@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from server.physics import drive, endurance
+from server.physics import drive, endurance, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.esc import EscParams
@@ -74,9 +74,10 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
         if reason is not None:
             counts[reason] = counts.get(reason, 0) + 1
             continue
-        mass = (mission.frame_mass_kg + mission.payload_kg + k * float(pk.mass_kg[p])
-                + n_r * (float(es.mass_kg[e]) + float(mo.mass_kg[m]) + float(pr.mass_kg[q])))
-        thrust = mass * G0 * (1.0 if mission.kind == "hover" else 1.0 / mission.lift_to_drag) / n_r
+        mass = float(sizing.all_up_mass_kg(mission.frame_mass_kg + mission.payload_kg, k, float(pk.mass_kg[p]), n_r,
+                                           float(es.mass_kg[e]), float(mo.mass_kg[m]), float(pr.mass_kg[q])))
+        thrust = float(sizing.thrust_per_rotor_n(mass, n_r, 1.0 if mission.kind == "hover"
+                                                 else 1.0 / mission.lift_to_drag))
         motor = MotorParams(float(mo.kv_rpm_per_v[m]), float(mo.resistance_ohm[m]), float(mo.no_load_current_a[m]),
                             inductance_h=_or(float(mo.inductance_h[m]), 30e-6),
                             max_current_a=float(mo.max_current_a[m]))
@@ -124,7 +125,8 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
         if reason is not None:
             counts[reason] = counts.get(reason, 0) + 1
             continue
-        cost = k * float(pk.cost[p]) + n_r * (float(es.cost[e]) + float(mo.cost[m]) + float(pr.cost[q]))
+        cost = float(sizing.system_cost(k, float(pk.cost[p]), n_r, float(es.cost[e]), float(mo.cost[m]),
+                                        float(pr.cost[q])))
         feasible.append(Record((p, k, e, m, q), (pk.ids[p], es.ids[e], mo.ids[m], pr.ids[q]), {
             "electrical_power_w": float(op.craft_electrical_power_w[0]), "endurance_min": screening_endurance,
             "specific_thrust_g_per_w": float(op.specific_thrust_g_per_w[0]), "thrust_to_weight": tw,

@@ -8,14 +8,13 @@ import numpy as np
 import pytest
 
 from server.physics import drive
+from server.physics.drive_screen import cruise_point, full_throttle
 from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
 from server.physics.propeller import PropellerTable
 from server.selection import ENGINE_VERSION, PackLibrary, PartsLibrary, rank
 from server.selection.enumerate import batch_for
-from server.selection.evaluate import cruise_point, full_throttle
 from server.selection.library import MissionSpec
-from server.selection.propmodel import PropModel
 
 from . import parts
 
@@ -159,14 +158,14 @@ def test_cruise_point_near_full_throttle_matches_the_physics_engine() -> None:
     """Requests just below, at and above full-throttle thrust: saturated, exact d = 1 and unreachable."""
     lib = parts.library()
     mission = MissionSpec(rotor_count=4, frame_mass_kg=1.0, kind="hover", cruise_state_of_charge=0.5)
-    model = PropModel.build(lib.propellers, mission)
+    model = mission.propeller_model(lib.propellers)
     one = np.array([1])
     batch = batch_for(lib, mission, one, one, one, one, np.array([0]))
-    ft = full_throttle(batch, model, mission, batch.voc_cruise_v)
+    ft = full_throttle(batch, model, 4.0, batch.voc_cruise_v)
     full_mass = float(ft.thrust_n[0]) * 4 / 9.80665
     fractions = np.array([0.5, 0.99, 0.9999, 1.0 - 1e-7, 1.0 + 1e-6, 1.01])
     batch = replace(batch, mass_kg=full_mass * fractions)
-    got = cruise_point(batch, model, mission)
+    got = cruise_point(batch, model, 4.0, mission.thrust_per_rotor_n(batch.mass_kg))
     es, mo, pk = lib.escs, lib.motors, lib.packs
     op = drive.for_thrust(got.thrust_n, motor=MotorParams(mo.kv_rpm_per_v[1], mo.resistance_ohm[1],
                                                           mo.no_load_current_a[1], inductance_h=30e-6),

@@ -28,7 +28,6 @@ from server.selection import (
 )
 from server.selection.constraints import screen
 from server.selection.enumerate import batch_for, chunk_indices, chunks, plan
-from server.selection.propmodel import PropModel
 from server.selection.result import CandidateSet
 
 from . import brute, parts
@@ -141,7 +140,7 @@ def test_random_libraries_equal_brute_force(brute_small: list, case: int, object
     # The engine's documented data rules, applied to the oracle's list: a propeller whose table makes thrust
     # fall with rpm somewhere (random knots a few rpm apart can) is missing data, and a candidate whose refined
     # (discharge-simulated) endurance falls short is rejected after refinement.
-    usable = PropModel.build(library.propellers, mission).valid
+    usable = mission.propeller_model(library.propellers).valid
     good_props = {int(i) for i, ok in zip(library.propellers.ids, usable, strict=True) if ok}
     feasible = [r for r in screened if int(r.ids[3]) in good_props
                 and r.metrics["refined_endurance_min"] >= mission.min_endurance_min]
@@ -176,7 +175,7 @@ def test_two_processes_give_the_same_ranking() -> None:
 
 def _all_candidates(library: PartsLibrary, mission: MissionSpec) -> CandidateSet:
     """Every evaluated candidate of the plan with a reachable cruise point at a full pack (screening metrics)."""
-    model = PropModel.build(library.propellers, mission)
+    model = mission.propeller_model(library.propellers)
     sets = []
     the_plan = plan(library, mission, model)
     for chunk in chunks(the_plan, 10_000):
@@ -198,7 +197,7 @@ def _all_candidates(library: PartsLibrary, mission: MissionSpec) -> CandidateSet
 def test_fast_refinement_equals_constant_thrust(case: int, cutoff: float) -> None:
     library, mission = CASES[case]
     mission = replace(mission, cutoff_v_per_cell=cutoff, cruise_state_of_charge=1.0)
-    model = PropModel.build(library.propellers, mission)
+    model = mission.propeller_model(library.propellers)
     cs = _all_candidates(library, mission)
     assert len(cs) > 0
     fast_min, fast_reason = refine_module.refine(library, mission, model, cs)

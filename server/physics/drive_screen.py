@@ -1,7 +1,8 @@
 """Operating points of many candidates at once: the cruise (hover) point and the full-throttle points.
 
-This is the physics of :mod:`server.physics.drive` (reference model v1) rewritten for screening speed, with
-the same equations and no root bracketing:
+This is the screening form of :mod:`.drive` (reference model v1): the same equations (propeller segments of
+:mod:`.propeller_segments`, the motor of :mod:`.motor`, every ESC loss term through
+:func:`.esc.loss_coefficients`) solved with closed forms and Newton steps instead of bracketing:
 
 - **Cruise point** at ``cruise_state_of_charge``: the speed for the required thrust comes from the
   propeller's segment polynomial (:mod:`.propmodel`), then torque, motor current ``I = I0 + Kv Q``, motor
@@ -24,16 +25,14 @@ from dataclasses import dataclass, fields, replace
 
 import numpy as np
 
-from server.physics._types import STANDARD_GRAVITY_M_S2
-
-from .library import MissionSpec
-from .propmodel import PropModel
+from . import esc as esc_model
+from .propeller_segments import PropModel
 
 BUS_RTOL = 1e-14
 """Relative Newton step on the bus voltage at which the cruise solve stops."""
 BUS_MAX_ITER = 60
 FULL_THROTTLE_SLACK_RTOL = 1e-12
-"""Bus slack (relative to V_oc) treated as exactly full throttle, as :func:`server.physics.drive.for_thrust` does."""
+"""Bus slack (relative to V_oc) treated as exactly full throttle, as :func:`.drive.for_thrust` does."""
 
 
 @dataclass(frozen=True)
@@ -72,6 +71,19 @@ class Batch:
     def shape(self) -> tuple[int, ...]:
         return np.broadcast_shapes(*(np.shape(getattr(self, f.name)) for f in fields(self)))
 
+    @property
+    def esc_constants(self) -> esc_model.EscConstants:
+        """The ESC fields as :class:`.esc.EscConstants` (what the loss terms need)."""
+        return esc_model.EscConstants(
+            on_path_resistance_ohm=self.r_on_ohm, switching_per_v_a=self.switching_coef,
+            dead_time_v=self.dead_time_coef_v, ripple_s2=self.ripple_coef_s2, input_esr_ohm=self.esr_ohm,
+            pwm_loss_coefficient=self.k_pwm)
+
+    def loss_coefficients(self, motor_current_a: np.ndarray, motor_voltage_v: np.ndarray) -> esc_model.LossCoefficients:
+        """Coefficients of every partial-throttle loss term (:func:`.esc.loss_coefficients`)."""
+        return esc_model.loss_coefficients(self.esc_constants, self.motor_resistance_ohm, self.inductance_h,
+                                           motor_current_a, motor_voltage_v)
+
     def take(self, mask: np.ndarray) -> Batch:
         """The candidates where ``mask`` (batch shape) is true, as a flat batch."""
         shape = self.shape
@@ -106,9 +118,9 @@ class Cruise:
     reachable: np.ndarray
 
 
-def full_throttle(batch: Batch, model: PropModel, mission: MissionSpec, open_circuit_v: np.ndarray) -> FullThrottle:
-    """Full-throttle point (d = 1, sag from all rotors) at pack open-circuit voltage ``open_circuit_v``."""
-    n_r = float(mission.rotor_count)
+def full_throttle(batch: Batch, model: PropModel, rotor_count: float, open_circuit_v: np.ndarray) -> FullThrottle:
+    """Full-throttle point (d = 1, sag from ``rotor_count`` rotors) at pack open-circuit voltage ``open_circuit_v``."""
+    n_r = float(rotor_count)
     sag = n_r * batch.pack_resistance_ohm
     loop = (batch.motor_resistance_ohm + batch.r_on_ohm) + sag
     y, seg = model.full_throttle(open_circuit_v, loop, batch.kv_si, batch.no_load_current_a, batch.q)
@@ -119,7 +131,7 @@ def full_throttle(batch: Batch, model: PropModel, mission: MissionSpec, open_cir
                         motor_current_a=current, bus_voltage_v=open_circuit_v - sag * current)
 
 
-def full_throttle_points(batch: Batch, model: PropModel, mission: MissionSpec,
+def full_throttle_points(batch: Batch, model: PropModel, rotor_count: float,
                          open_circuit_v: tuple[np.ndarray, ...]) -> list[FullThrottle]:
     """Full-throttle points at several open-circuit voltages (e.g. low and full state of charge), solved together.
 
@@ -134,7 +146,7 @@ def full_throttle_points(batch: Batch, model: PropModel, mission: MissionSpec,
         if distinct.size < r_on.shape[1]:
             batch = replace(batch, r_on_ohm=distinct.reshape(1, -1, 1, 1))
             inverse = inv.ravel()
-    ft = full_throttle(batch, model, mission, np.stack(np.broadcast_arrays(*open_circuit_v)))
+    ft = full_throttle(batch, model, rotor_count, np.stack(np.broadcast_arrays(*open_circuit_v)))
     values = {}
     for f in fields(ft):
         value = np.asarray(getattr(ft, f.name))
@@ -144,31 +156,10 @@ def full_throttle_points(batch: Batch, model: PropModel, mission: MissionSpec,
     return [FullThrottle(**{name: value[i] for name, value in values.items()}) for i in range(len(open_circuit_v))]
 
 
-def _extra_loss(bus_v: np.ndarray, motor_v: np.ndarray, coefs: tuple[np.ndarray, ...]) -> np.ndarray:
-    """P_extra at bus voltage V for a motor voltage V_m (duty ``V_m / V < 1``). [W]"""
-    c_rip, c_sw, c_dt, c_cap, c_pwm = coefs
-    u = 1.0 - motor_v / bus_v  # 1 - d
-    extra: np.ndarray = (c_rip * u + c_cap * (1.0 - u) + c_pwm) * u + c_sw * bus_v + c_dt
-    return extra
-
-
-def loss_coefficients(batch: Batch, current: np.ndarray,
-                      motor_v: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Coefficients of ``P_extra = c_rip u^2 + c_sw V + c_dt + c_cap u (1 - u) + c_pwm u`` with ``u = 1 - d``.
-
-    From physics.md §5: ripple ``ΔI = V_m u / (L f)`` so ``P_rip = (R + R_on) V_m^2 u^2 / (12 L^2 f^2)``;
-    ``P_sw = 0.5 V I f t``; ``P_dt = 2 V_SD t_dt f I``; ``P_cap = ESR I^2 d u``; ``P_pwm = k_pwm I V_m u``.
-    """
-    series = batch.motor_resistance_ohm + batch.r_on_ohm
-    ripple = series * (batch.ripple_coef_s2 / (batch.inductance_h * batch.inductance_h))
-    return (ripple * (motor_v * motor_v), batch.switching_coef * current, batch.dead_time_coef_v * current,
-            batch.esr_ohm * (current * current), batch.k_pwm * (current * motor_v))
-
-
-def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise:
-    """Cruise (hover) point: duty for the required thrust on the sagged bus, with every ESC loss."""
-    n_r = float(mission.rotor_count)
-    thrust = batch.mass_kg * (STANDARD_GRAVITY_M_S2 * mission.thrust_per_weight / n_r)
+def cruise_point(batch: Batch, model: PropModel, rotor_count: float, thrust_n: np.ndarray) -> Cruise:
+    """Cruise (hover) point: duty for thrust ``thrust_n`` per rotor on the sagged bus, with every ESC loss."""
+    n_r = float(rotor_count)
+    thrust = thrust_n
     y, seg = model.speed_for_thrust(thrust, batch.q)
     _, cp = model.coefficients(batch.q, seg, y)
     torque = (model.kq[batch.q] * cp) * (y * y)
@@ -176,8 +167,9 @@ def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise
     motor_v = y * model.emf_per_y(batch.kv_si) + current * (batch.motor_resistance_ohm + batch.r_on_ohm)
     voc = batch.voc_cruise_v
     load = n_r * batch.pack_resistance_ohm
-    coefs = loss_coefficients(batch, current, motor_v)
-    c_rip, c_sw, c_dt, c_cap, c_pwm = coefs
+    coefs = batch.loss_coefficients(current, motor_v)
+    c_rip, c_sw, c_dt, c_cap, c_pwm = (coefs.ripple_w, coefs.switching_w_per_v, coefs.dead_time_w, coefs.capacitor_w,
+                                       coefs.pwm_w)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         slack = voc - motor_v - load * current
         # High root of V^2 - (V_oc - NR c_sw) V + NR (V_m I + c_dt) = 0 (the loss terms in u = 1 - d left out).
@@ -185,7 +177,8 @@ def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise
         c = load * (motor_v * current + c_dt)
         bus = 0.5 * (b + np.sqrt(b * b - 4.0 * c))
         # h(V) = V (V - b) + c + N R_pack (A u^2 + B u), u = 1 - V_m / V, with A = c_rip - c_cap and
-        # B = c_cap + c_pwm (the same P_extra as _extra_loss), so h'(V) = 2 V - b + N R_pack (2 A u + B) V_m / V^2.
+        # B = c_cap + c_pwm (the same P_extra as esc.extra_loss_below_full_w),
+        # so h'(V) = 2 V - b + N R_pack (2 A u + B) V_m / V^2.
         la, lb = load * (c_rip - c_cap), load * (c_cap + c_pwm)
         bus = np.array(np.broadcast_to(bus, np.broadcast_shapes(np.shape(bus), np.shape(la), np.shape(motor_v))))
         if bus.size:
@@ -223,22 +216,22 @@ def cruise_point(batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise
         bus = np.where(at_full, motor_v, bus)
         duty = motor_v / bus
         solved = feasible & ~jump & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
-        extra = np.where(at_full, 0.0, _extra_loss(bus, motor_v, coefs))
+        extra = np.where(at_full, 0.0, esc_model.extra_loss_below_full_w(coefs, bus, motor_v))
         bus_current = duty * current + extra / bus
     cruise = Cruise(thrust_n=thrust, speed=y, omega_rad_s=model.omega_rad_s(y), torque_nm=torque,
                     motor_current_a=current, motor_voltage_v=motor_v, bus_voltage_v=bus, duty=duty,
                     extra_loss_w=extra, bus_current_a=bus_current, reachable=solved | jump)
     if np.any(jump):
-        cruise = _saturate(cruise, jump, batch, model, mission)
+        cruise = _saturate(cruise, jump, batch, model, n_r)
     return cruise
 
 
-def _saturate(cruise: Cruise, jump: np.ndarray, batch: Batch, model: PropModel, mission: MissionSpec) -> Cruise:
+def _saturate(cruise: Cruise, jump: np.ndarray, batch: Batch, model: PropModel, rotor_count: float) -> Cruise:
     """Replace the candidates in the loss-step band just below d = 1 by their full-throttle point."""
     shape = np.broadcast_shapes(jump.shape, cruise.duty.shape)
     where = np.nonzero(np.broadcast_to(jump, shape))
     sub = Batch(**{f.name: np.broadcast_to(getattr(batch, f.name), shape)[where] for f in fields(batch)})
-    ft = full_throttle(sub, model, mission, sub.voc_cruise_v)
+    ft = full_throttle(sub, model, rotor_count, sub.voc_cruise_v)
     values = {}
     for f in fields(cruise):
         value = getattr(cruise, f.name)

@@ -1,6 +1,7 @@
-"""Propeller tables turned into exact per-segment polynomials for one mission (air density, airspeed).
+"""Propeller tables turned into exact per-segment polynomials for one flight condition (air density, airspeed).
 
-The reference model (physics.md v1 item 2) interpolates CT and CP linearly in a table versus rpm (static) or
+This is the screening form of :func:`.propeller.coefficients_at` (the reference interpolation): the reference
+model (physics.md v1 item 2) interpolates CT and CP linearly in a table versus rpm (static) or
 advance ratio J (forward flight), held constant outside. Between two knots CT and CP are therefore straight
 lines ``a + b x``, so within a segment:
 
@@ -27,9 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from server.physics.propeller import PropellerTable
-
-from .library import MissionSpec, PropellerLibrary
+from .propeller import PropellerTable
 
 NEWTON_RTOL = 1e-14
 """Relative step at which the per-segment Newton iterations stop (results then agree to rounding)."""
@@ -97,13 +96,24 @@ class PropModel:
         return int(self.thrust_knots.shape[1])
 
     @classmethod
-    def build(cls, props: PropellerLibrary, mission: MissionSpec) -> PropModel:
-        """Segment model of the static (hover) or forward (cruise) tables for this mission's air."""
-        rho, speed = mission.density_kg_m3, mission.airspeed_m_s
-        forward = mission.kind == "cruise"
-        table = props.forward if forward else props.static
-        n = len(props)
-        diameter = np.asarray(props.diameter_m, dtype=np.float64)
+    def build(cls, table: PropellerTable | None, diameter_m: np.ndarray, *, density_kg_m3: float,
+              airspeed_m_s: float, forward: bool) -> PropModel:
+        """Segment model of static tables (versus rpm) or, with ``forward``, tables versus advance ratio.
+
+        Parameters
+        ----------
+        table : PropellerTable or None
+            One row per propeller (None: no propeller has such a table).
+        diameter_m : ndarray, shape (Q,)
+            Diameters. [m]
+        density_kg_m3, airspeed_m_s : float
+            Air density [kg/m^3] and axial airspeed [m/s] of the flight condition.
+        forward : bool
+            Use the table versus advance ratio at ``airspeed_m_s`` (else the static table versus rpm).
+        """
+        rho, speed = float(density_kg_m3), float(airspeed_m_s)
+        diameter = np.asarray(diameter_m, dtype=np.float64)
+        n = diameter.shape[0]
         if table is None:
             table = PropellerTable(diameter, np.full((n, 1), np.nan), np.full((n, 1), np.nan),
                                    np.full((n, 1), np.nan), "advance_ratio" if forward else "rpm")
@@ -167,7 +177,7 @@ class PropModel:
         root_t = np.sqrt(np.where(np.isfinite(thrust_knots) & (thrust_knots > 0), thrust_knots, np.nan))
         seg_root_thrust_lo = np.concatenate([np.zeros((n, 1)), root_t], axis=1)
         seg_root_thrust_hi = np.concatenate([root_t, np.full((n, 1), np.nan)], axis=1)
-        valid = ok & props.valid()
+        valid = ok & np.isfinite(diameter) & (diameter > 0)
         return cls(seg_lo=seg_lo, seg_hi=seg_hi, seg_root_thrust_lo=seg_root_thrust_lo,
                    seg_root_thrust_hi=seg_root_thrust_hi,
                    axis="advance_ratio" if forward else "rpm", density_kg_m3=rho, airspeed_m_s=speed,
