@@ -32,7 +32,8 @@ def make_library(rng: np.random.Generator, props: int = 40, width: int = 16) -> 
     for _ in range(props):
         k = int(rng.integers(6, width + 1))
         rpm = np.sort(rng.uniform(1500.0, 9000.0, k))
-        # CP from a plausible static figure of merit 0.5-0.72 (physics.md §2 typical ranges), so FM < 1 everywhere
+        # CP from a plausible static figure of merit 0.5-0.72, so FM < 1
+        # (docs/model-reference.md#propeller-typical-values)
         ct0 = rng.uniform(0.09, 0.13)
         cp0 = np.sqrt(2.0 / np.pi) * ct0**1.5 / rng.uniform(0.5, 0.72)
         drift = np.linspace(0.0, 0.15, k)

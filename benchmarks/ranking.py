@@ -1,11 +1,11 @@
 """Benchmark: rank a generated library of >= 1 000 000 combinations end to end, and compare a scalar path.
 
 A seeded, invented library (packs 3-6S, ESCs with and without loss data, motors across the 8-18 in class,
-propellers with 6-16 point static tables; values in physics.md's typical ranges) is ranked for a 4-rotor hover
-mission by :func:`server.selection.rank` (screen, rank, Pareto, refine the top 50). Wall time, combinations per
-second and peak memory (max RSS above the baseline) are printed. A random sample of the evaluated candidates
-then goes through the scalar brentq path of ``tests/physics/scalar_reference.py`` (cruise point by thrust and
-the two full-throttle points, one candidate at a time) and its rate is extrapolated.
+propellers with 6-16 point static tables; values in the typical ranges of docs/model-reference.md) is ranked for
+a 4-rotor hover mission by :func:`server.selection.rank` (screen, rank, Pareto, refine the top 50). Wall time,
+combinations per second and peak memory (max RSS above the baseline) are printed. A random sample of the
+evaluated candidates then goes through the scalar brentq path of ``tests/physics/scalar_reference.py`` (cruise
+point by thrust and the two full-throttle points, one candidate at a time) and its rate is extrapolated.
 
     python benchmarks/ranking.py [--combinations N] [--processes P] [--scalar-sample S]
 

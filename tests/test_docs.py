@@ -33,3 +33,75 @@ def test_every_api_route_is_documented(tmp_path) -> None:  # type: ignore[no-unt
         short = re.sub(r"/parts/(batteries|escs|motors|propellers)", "/parts/{kind}", short)
         short = re.sub(r"\{\w+_id\}", "{id}", short)
         assert re.search(re.escape(short) + r"[`,? ]", DOCS), short
+
+
+# --- the model reference (docs/model-reference.md) ---------------------------------------------------------
+
+MODEL_REFERENCE = REPO_ROOT / "docs" / "model-reference.md"
+CITING = ("server", "tests", "benchmarks", "scripts", "seed_data", "web", "migrations", "README.md", "DEVELOPERS.md")
+"""Where code, tests and docs may cite check cases or sections of the model reference."""
+SKIP_DIRS = {".git", ".venv", "var", "test-output", ".hypothesis", "__pycache__", "node_modules", ".mypy_cache",
+             ".ruff_cache", ".pytest_cache", "build", "dist"}
+TEXT_SUFFIXES = {".py", ".md", ".html", ".txt", ".toml", ".sh", ".cfg", ".ini", ".yml", ".yaml", ".json", ".js",
+                 ".css", ".csv", ".mako"}
+NOT_CHECK_CASES = {"SHA", "UTF", "NS"}
+"""Upper-case ``XX-n`` tokens that are not check-case ids: SHA-256, UTF-8, invented part numbers (NS-1) in test CSV."""
+CHECK_ID = re.compile(r"\b([A-Z]{2,5})-(\d+)(?:\.\.(\d+))?\b")
+
+
+def _text_files(*roots: str) -> list[tuple[str, str]]:
+    out = []
+    for root in roots:
+        path = REPO_ROOT / root
+        candidates = [path] if path.is_file() else sorted(path.rglob("*")) if path.is_dir() else []
+        for p in candidates:
+            rel = p.relative_to(REPO_ROOT)
+            if not p.is_file() or p.suffix not in TEXT_SUFFIXES or SKIP_DIRS & set(rel.parts) \
+                    or any(part.endswith(".egg-info") for part in rel.parts):
+                continue
+            out.append((str(rel), p.read_text(encoding="utf-8", errors="replace")))
+    return out
+
+
+def _slug(heading: str) -> str:
+    """GitHub's anchor for a Markdown heading: lower case, punctuation dropped, spaces to hyphens."""
+    return re.sub(r"[^\w\- ]", "", heading.strip().lower()).replace(" ", "-")
+
+
+def _defined_check_cases() -> set[str]:
+    """Ids that have their own row in a check-case table of the model reference."""
+    return set(re.findall(r"^\| ([A-Z]{2,5}-\d+) \|", MODEL_REFERENCE.read_text(), flags=re.MULTILINE))
+
+
+def test_every_cited_check_case_is_defined_in_the_model_reference() -> None:
+    defined = _defined_check_cases()
+    prefixes = {d.split("-")[0] for d in defined}
+    assert {"ATM", "PROP", "MOT", "OP", "ESC", "BAT", "RULE"} <= prefixes
+    missing: list[str] = []
+    for name, text in _text_files(*CITING):
+        for prefix, first, last in CHECK_ID.findall(text):
+            if prefix in NOT_CHECK_CASES:
+                continue
+            # "ATM-1..11" cites ATM-1 to ATM-11
+            for number in range(int(first), int(last or first) + 1):
+                if f"{prefix}-{number}" not in defined:
+                    missing.append(f"{name}: {prefix}-{number}")
+    assert not missing, ("check cases cited but not defined in docs/model-reference.md (add a row to its check-case "
+                         "table, or add a non-id token to NOT_CHECK_CASES): " + ", ".join(sorted(set(missing))))
+
+
+def test_every_model_reference_anchor_exists() -> None:
+    doc = MODEL_REFERENCE.read_text()
+    headings = {_slug(h) for h in re.findall(r"^#{1,6} (.+)$", doc, flags=re.MULTILINE)}
+    assert len(headings) == len(re.findall(r"^#{1,6} ", doc, flags=re.MULTILINE)), "two headings share an anchor"
+    broken = [f"docs/model-reference.md: #{a}" for a in re.findall(r"\]\(#([\w-]+)\)", doc) if a not in headings]
+    for name, text in _text_files(*CITING):
+        broken += [f"{name}: #{a}" for a in re.findall(r"model-reference\.md#([\w-]+)", text) if a not in headings]
+    assert not broken, "links to sections of docs/model-reference.md that do not exist: " + ", ".join(broken)
+
+
+def test_nothing_points_to_a_model_document_outside_the_repository() -> None:
+    outside = "physics" + ".md"  # spelled in two parts so that this file does not match itself
+    roots = [p.name for p in REPO_ROOT.iterdir() if p.name not in SKIP_DIRS]
+    hits = [name for name, text in _text_files(*roots) if outside in text]
+    assert not hits, f"these files refer to {outside}, which is not in the repository: {hits}; cite the model reference"

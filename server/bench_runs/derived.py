@@ -1,9 +1,9 @@
 """Per-sample quantities of a bench run: air density, electrical power, CT, CP, shaft power, efficiencies.
 
-Definitions follow physics.md: ``CT = T / (rho n^2 D^4)``, ``CP = P / (rho n^3 D^5)`` with ``P = 2 pi n Q``
-(n in rev/s), drive efficiency = shaft power / electrical power (motor + ESC), specific thrust in gram-force
-per watt of electrical power. Quantities that need torque are NaN when the stand has no torque channel;
-coefficients are NaN where the shaft does not turn.
+Definitions follow docs/model-reference.md#propeller: ``CT = T / (rho n^2 D^4)``, ``CP = P / (rho n^3 D^5)``
+with ``P = 2 pi n Q`` (n in rev/s), drive efficiency = shaft power / electrical power (motor + ESC), specific
+thrust in gram-force per watt of electrical power. Quantities that need torque are NaN when the stand has no
+torque channel; coefficients are NaN where the shaft does not turn.
 """
 
 from __future__ import annotations
@@ -40,7 +40,7 @@ def run_air_density_kg_m3(*, altitude_m: float | None = None, pressure_pa: float
     Returns
     -------
     float
-        ``rho = p / (R T)`` (dry air, physics.md §1). [kg/m^3]
+        ``rho = p / (R T)`` (dry air, docs/model-reference.md#air). [kg/m^3]
     """
     altitude = 0.0 if altitude_m is None else float(altitude_m)
     if air_temperature_c is not None:

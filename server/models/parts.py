@@ -42,7 +42,7 @@ class Battery(PartColumns, Base):
 
 
 class Esc(PartColumns, Base):
-    """An ESC; null loss parameters take the engine defaults (physics.md §5)."""
+    """An ESC; null loss parameters take the engine defaults (docs/model-reference.md#esc)."""
 
     __tablename__ = "esc"
 

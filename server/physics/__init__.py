@@ -3,7 +3,7 @@
 One module per component (atmosphere, propeller, motor, esc, battery), the coupled operating point of N rotors
 on one pack (drive), discharge integration (endurance) and common-practice sizing rules (sizing). Every
 function broadcasts over candidates; batch solvers return a per-element :class:`Status` and never raise.
-The model and its check cases are specified in the shared physics.md ("Reference model v1").
+The model, its sources and its check cases are documented in docs/model-reference.md (reference model v1).
 """
 
 from ._types import FloatArray, Status

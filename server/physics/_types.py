@@ -1,6 +1,6 @@
 """Shared array aliases, physical constants and status codes of the physics engine.
 
-Every constant carries its unit in its name. Sources are the ones named in ``physics.md``:
+Every constant carries its unit in its name. Sources (``docs/model-reference.md``):
 ISO 2533:1975 / U.S. Standard Atmosphere 1976 for the air, and the trade conventions for rpm.
 """
 

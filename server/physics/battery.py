@@ -3,10 +3,10 @@
 Zeroth-order equivalent circuit: ``V_term = S OCV(SOC) - I R_pack`` with ``R_pack = S r_cell / P + R_wiring``.
 A stiff bench supply is a pack with zero resistance (pass its voltage as the open-circuit voltage).
 
-The default OCV curve is the commonly circulated hobby LiPo table (physics.md §6(a), [MEM]: no measurement
-protocol known). Other chemistries are represented by **scaling that table** so that 100 % SOC reads the
-chemistry's full-charge voltage (LiHV 4.35 V, Li-ion 4.20 V) — an approximation of our own [MEM] until a
-team measures its cells; pass a measured table to replace it.
+The default OCV curve is the commonly circulated hobby LiPo table (docs/model-reference.md#battery-pack-equations,
+[MEM]: no measurement protocol known). Other chemistries are represented by **scaling that table** so that
+100 % SOC reads the chemistry's full-charge voltage (LiHV 4.35 V, Li-ion 4.20 V) — an approximation of our own
+[MEM] until a team measures its cells; pass a measured table to replace it.
 
 References
 ----------

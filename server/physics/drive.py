@@ -13,8 +13,9 @@ where P_extra holds every partial-throttle ESC loss (:mod:`esc`, zero at d = 1).
   balanced duty below 1, the full-throttle point is returned, whose thrust exceeds the request slightly),
 - :func:`at_rpm`: the same bus solve at a given speed.
 
-Closed forms of physics.md §4 are used where they are exact (constant CT/CP and no partial-throttle loss);
-otherwise ``scipy.optimize.elementwise.find_root`` (bracketed, vectorised) solves every element at once.
+Closed forms of docs/model-reference.md#operating-point are used where they are exact (constant CT/CP and no
+partial-throttle loss); otherwise ``scipy.optimize.elementwise.find_root`` (bracketed, vectorised) solves every
+element at once.
 Nothing raises: each element carries a :class:`~._types.Status` and NaN where it has no solution.
 
 References
@@ -154,7 +155,10 @@ def _duty_residual(omega: FloatArray, q: Problem, duty: FloatArray) -> FloatArra
 
 
 def _closed_form_omega_for_duty(p: Problem, duty: FloatArray) -> FloatArray:
-    """Stiff-bus quadratic with the pack folded in (physics.md §4): V_m -> d V_oc, R' -> R' + N d^2 R_b."""
+    """Stiff-bus quadratic with the pack folded in: V_m -> d V_oc, R' -> R' + N d^2 R_b.
+
+    See docs/model-reference.md#operating-point-equations.
+    """
     ct, cp = coefficients_at(p.table, np.zeros(p.size), p.airspeed_m_s)  # one-point tables: any speed
     k_q = cp * p.density_kg_m3 * p.diameter_m**5 / (8.0 * math.pi**3)
     resistance = p.series_resistance_ohm + p.rotor_count * duty**2 * p.pack_resistance_ohm
@@ -240,7 +244,7 @@ _COMMON_DOC = """
     motor : MotorParams
         Motor parameters (broadcast over candidates).
     esc : EscParams
-        ESC parameters; ``EscParams()`` gives the physics.md defaults.
+        ESC parameters; ``EscParams()`` gives the defaults of docs/model-reference.md#reference-model-v1.
     propeller : PropellerTable
         CT, CP versus rpm (static) or versus advance ratio (forward flight).
     open_circuit_voltage_v : array_like

@@ -8,8 +8,8 @@ This is the screening form of :mod:`.drive` (reference model v1): the same equat
   propeller's segment polynomial (:mod:`.propmodel`), then torque, motor current ``I = I0 + Kv Q``, motor
   voltage ``V_m = E + I (R + R_on)``; the shared bus satisfies
   ``h(V) = V^2 - V_oc V + N R_pack (V_m I + P_extra(V)) = 0`` with every partial-throttle ESC loss of
-  physics.md §5 (``P_extra = P_rip + P_sw + P_dt + P_cap + P_pwm`` at ``d = V_m / V``). Newton's method from the
-  high root of the quadratic without the duty-dependent terms converges in a few steps.
+  docs/model-reference.md#esc (``P_extra = P_rip + P_sw + P_dt + P_cap + P_pwm`` at ``d = V_m / V``). Newton's method
+  from the high root of the quadratic without the duty-dependent terms converges in a few steps.
 - **Full throttle** (d = 1, no P_extra): ``V_oc - E - (R + R_on + N R_pack) I = 0`` on the propeller segment.
   :func:`full_throttle_points` solves the low and full states of charge in one call and, on a cube, each distinct
   ESC R_on once (ESCs without loss data share the default).

@@ -31,7 +31,7 @@ from ._types import ArrayLike, FloatArray, as_float_array
 
 @dataclass(frozen=True)
 class EscParams:
-    """ESC parameters (physics.md reference model v1 defaults); every field broadcasts.
+    """ESC parameters (docs/model-reference.md#reference-model-v1 defaults); every field broadcasts.
 
     Parameters
     ----------
@@ -69,7 +69,7 @@ class EscParams:
 
     @classmethod
     def lossless_switching(cls, on_path_resistance_ohm: ArrayLike = 0.0) -> EscParams:
-        """An ideal averaged switch: only the conduction resistance remains (physics.md §4 cases)."""
+        """An ideal averaged switch: only the conduction resistance remains (the OP check cases)."""
         return cls(on_path_resistance_ohm=as_float_array(on_path_resistance_ohm),
                    transition_time_s=as_float_array(0.0), dead_time_s=as_float_array(0.0),
                    body_diode_drop_v=as_float_array(0.0), input_esr_ohm=as_float_array(0.0))

@@ -26,7 +26,7 @@ from ._types import (
 )
 
 DEFAULT_INDUCTANCE_H = 30e-6
-"""Line-to-line inductance used when a motor does not state one (physics.md reference model v1)."""
+"""Line-to-line inductance used when a motor does not state one (docs/model-reference.md#reference-model-v1)."""
 
 
 @dataclass(frozen=True)

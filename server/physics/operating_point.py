@@ -2,7 +2,7 @@
 
 Kept apart from the solvers in :mod:`drive` so that the ranking engine can import the result type alone.
 Every quantity is recomputed here from the solved speed and bus voltage, so the reported numbers are
-mutually consistent (the energy balance of physics.md reference model v1 item 5 closes to rounding).
+mutually consistent (the energy balance of docs/model-reference.md#reference-model-v1 item 5 closes to rounding).
 """
 
 from __future__ import annotations

@@ -1,9 +1,9 @@
 """Propeller tables turned into exact per-segment polynomials for one flight condition (air density, airspeed).
 
 This is the screening form of :func:`.propeller.coefficients_at` (the reference interpolation): the reference
-model (physics.md v1 item 2) interpolates CT and CP linearly in a table versus rpm (static) or
-advance ratio J (forward flight), held constant outside. Between two knots CT and CP are therefore straight
-lines ``a + b x``, so within a segment:
+model (docs/model-reference.md#reference-model-v1 item 2) interpolates CT and CP linearly in a table versus rpm
+(static) or advance ratio J (forward flight), held constant outside. Between two knots CT and CP are therefore
+straight lines ``a + b x``, so within a segment:
 
 - thrust for a speed is a polynomial, and the speed for a thrust is the root of a cubic (rpm tables, a few
   Newton steps) or of a quadratic in J (closed form);
@@ -148,7 +148,8 @@ class PropModel:
                     ends = np.stack([2.0 * (a[:, 1:-1] + b[:, 1:-1] * xs[:, :-1]) + b[:, 1:-1] * xs[:, :-1],
                                      2.0 * (a[:, 1:-1] + b[:, 1:-1] * xs[:, 1:]) + b[:, 1:-1] * xs[:, 1:]])
                     ok &= np.all(~present[None, :, 1:] | (ends > 0), axis=(0, 2))
-                # Momentum bound at the knots (physics.md v1 item 8): FM > 1 means the data are wrong.
+                # Momentum bound at the knots (docs/model-reference.md#reference-model-v1 item 8): FM > 1 means the
+                # data are wrong.
                 fm = math.sqrt(2.0 / math.pi) * ct * np.sqrt(np.abs(ct)) / cp
                 ok &= np.all(~present | (fm <= 1.0), axis=1)
                 thrust_knots = np.where(present, ct * xs * xs, np.nan)

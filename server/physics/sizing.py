@@ -1,7 +1,7 @@
 """Mission sizing rules: weight, thrust-to-weight, hover fraction, fixed-wing thrust, ESC margins.
 
-These are common-practice rules (physics.md §7, [CP], no source) except the steady-flight equations, which
-are standard flight mechanics (J. D. Anderson, *Aircraft Performance and Design*, McGraw-Hill, 1999).
+These are common-practice rules (docs/model-reference.md#sizing-rules, [CP], no source) except the steady-flight
+equations, which are standard flight mechanics (J. D. Anderson, *Aircraft Performance and Design*, McGraw-Hill, 1999).
 Defaults here are what the UI shows as "rule of thumb"; users override them per airframe.
 """
 

@@ -5,7 +5,8 @@ field names follow ``server/models/parts.py`` converted to SI). Conventions for 
 
 - **NaN means unknown** and the part is rejected as ``missing_data`` (every combination using it), except
 - ESC loss fields (``r_on_path_ohm`` ... ``pwm_loss_coefficient``) and motor ``inductance_h``: NaN means
-  "use the physics.md reference-model default" (:class:`server.physics.esc.EscParams`, 30 µH);
+  "use the reference-model default" (:class:`server.physics.esc.EscParams`, 30 µH;
+  docs/model-reference.md#reference-model-v1);
 - ``inf`` means "no limit" (e.g. a motor without a stated ``max_cells`` or ``max_current_a``);
 - ``cost`` may be NaN (unknown price): it never rejects a part, sorts last for the cost objective and counts
   as the worst cost in the Pareto set.
@@ -118,7 +119,7 @@ class PackLibrary:
 
 @dataclass(frozen=True)
 class EscLibrary:
-    """ESCs (one row each). NaN loss parameters take the physics.md reference-model defaults.
+    """ESCs (one row each). NaN loss parameters take the reference-model defaults (docs/model-reference.md#esc).
 
     Parameters
     ----------

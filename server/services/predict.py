@@ -17,7 +17,7 @@ from server.physics.propeller import PropellerTable, tip_mach_number
 from server.schemas.predict import PredictRequest
 from server.services import power_system as ps
 
-TIP_MACH_LIMIT = 0.7  # common practice, no source (physics.md §2 typical range: keep ≲ 0.6–0.7)
+TIP_MACH_LIMIT = 0.7  # common practice, no source (docs/model-reference.md#propeller-typical-values)
 LOSS_FIELDS = {
     "motor_copper": "motor_copper_loss_w", "motor_no_load": "motor_no_load_loss_w",
     "esc_conduction": "esc_conduction_loss_w", "pwm_ripple": "pwm_ripple_loss_w", "switching": "switching_loss_w",

@@ -1,6 +1,6 @@
-"""POST /api/v1/predict and `liftmatch predict` reproduce the physics.md check cases, and agree exactly.
+"""POST /api/v1/predict and `liftmatch predict` reproduce the model reference's check cases, and agree exactly.
 
-Reference values: physics.md §4 (OP-*), §5 (ESC-*) and §6 (BAT-*), all [CALC] from the Drela (2007)
+Reference values (docs/model-reference.md): OP-*, ESC-* and BAT-*, all [CALC] from the Drela (2007)
 first-order motor model, the Mohan (2003) / Erickson (2001) converter loss formulas and the hobby OCV table.
 """
 
@@ -19,7 +19,7 @@ from server.cli import main
 from tests.conftest import TEST_SECRET
 from tests.factories import TeamFixture, make_team, part_payload
 
-# physics.md §4 motor (Kv 920, R 0.10 Ω, I0 0.5 A) and 10x7 propeller (CT 0.1564, CP 0.0763, D 0.254 m).
+# MOT check-case motor (Kv 920, R 0.10 Ω, I0 0.5 A) and 10x7 propeller (CT 0.1564, CP 0.0763, D 0.254 m).
 MOTOR = {"kv_rpm_per_v": 920, "winding_resistance_ohm": 0.1, "no_load_current_a": 0.5, "inductance_uh": 1e5}
 PROP = {"diameter_in": 10, "pitch_in": 7, "ct": 0.1564, "cp": 0.0763}
 LOSSLESS_ESC = {"r_on_path_ohm": 0, "switching_time_ns": 0, "dead_time_ns": 0, "diode_drop_v": 0, "input_esr_ohm": 0}
@@ -62,11 +62,11 @@ def cli(db_url: str, body: dict[str, Any], monkeypatch: pytest.MonkeyPatch,
 def test_op1_op2_stiff_bus(client: TestClient, team: TeamFixture) -> None:
     out = api(client, team, request(points=[{"throttle": 1.0}, {"throttle": 0.6}]))
     op1, op2 = out["points"]
-    # physics.md OP-1 [CALC]
+    # OP-1 [CALC]
     assert rel(op1["rpm"], 7806.35) < 1e-5 and rel(op1["motor_current_a"], 26.1484) < 1e-5
     assert rel(op1["thrust_n"], 13.4990) < 1e-5 and rel(op1["shaft_power_w"], 217.631) < 1e-5
     assert rel(op1["electrical_power_w"], 290.247) < 1e-5
-    # physics.md OP-2 [CALC]
+    # OP-2 [CALC]
     assert rel(op2["rpm"], 5081.39) < 1e-5 and rel(op2["motor_current_a"], 11.3675) < 1e-5
     assert rel(op2["thrust_n"], 5.71967) < 1e-5 and rel(op2["shaft_power_w"], 60.0238) < 1e-5
 
@@ -75,15 +75,15 @@ def test_op3_op4_op5_shared_sagging_bus(client: TestClient, team: TeamFixture) -
     body = request(battery={"supply_voltage_v": 12.0, "wiring_resistance_ohm": 0.030}, rotor_count=4,
                    all_up_mass_g=2000, points=[{"throttle": 0.7}, {"thrust_n": 4.90332}, {"throttle": 1.0}])
     op3, op4, op5 = api(client, team, body)["points"]
-    # physics.md OP-3 [CALC]
+    # OP-3 [CALC]
     assert rel(op3["rpm"], 5674.79) < 1e-5 and rel(op3["motor_current_a"], 14.0539) < 1e-5
     assert rel(op3["craft"]["bus_current_a"], 39.3508) < 1e-5 and rel(op3["bus_voltage_v"], 10.81948) < 1e-5
     assert rel(op3["thrust_n"], 7.13353) < 1e-5
-    # physics.md OP-4 [CALC]
+    # OP-4 [CALC]
     assert rel(op4["duty"], 0.536186) < 1e-5 and rel(op4["bus_voltage_v"], 11.36839) < 1e-5
     assert rel(op4["craft"]["bus_current_a"], 21.0537) < 1e-5
     assert rel(op4["craft"]["electrical_power_w"], 239.347) < 1e-5
-    # physics.md OP-5 / RULE-2 [CALC]: T/W 2.1460 for the 2.000 kg quad
+    # OP-5 / RULE-2 [CALC]: T/W 2.1460 for the 2.000 kg quad
     assert rel(op5["thrust_n"], 10.5226) < 1e-4 and rel(op5["craft"]["thrust_to_weight"], 2.1460) < 1e-4
 
 
@@ -91,13 +91,13 @@ def test_esc1_esc2_partial_throttle_costs_power(client: TestClient, team: TeamFi
     esc = {**ESC_DEFAULTS_CASE}
     two_s = api(client, team, request(battery={"supply_voltage_v": 7.6}, esc=esc,
                                       motor={**MOTOR, "inductance_uh": 30}))["points"][0]
-    # physics.md ESC-1 [CALC]
+    # ESC-1 [CALC]
     assert rel(two_s["rpm"], 5603.84) < 1e-5 and rel(two_s["motor_current_a"], 13.7170) < 1e-5
     assert rel(two_s["electrical_power_w"], 104.2495) < 1e-5
     three_s = api(client, team, request(battery={"supply_voltage_v": 11.4}, esc=esc,
                                         motor={**MOTOR, "inductance_uh": 30},
                                         points=[{"rpm": two_s["rpm"]}]))["points"][0]
-    # physics.md ESC-2 [PUB formulas + CALC]
+    # ESC-2 [PUB formulas + CALC]
     assert abs(three_s["duty"] - 0.666667) < 1e-4
     losses = three_s["losses_w"]
     assert abs(losses["pwm_ripple"] - 0.1135) < 1e-4 and abs(losses["switching"] - 0.3753) < 1e-4
@@ -107,13 +107,13 @@ def test_esc1_esc2_partial_throttle_costs_power(client: TestClient, team: TeamFi
 
 
 def test_bat7_constant_power_and_bat8_constant_thrust(client: TestClient, team: TeamFixture) -> None:
-    # physics.md BAT-7 [CALC]: 300 W, 4S 5000 mAh, 6 mΩ/cell → 729.08 s (tolerance 0.5 %)
+    # BAT-7 [CALC]: 300 W, 4S 5000 mAh, 6 mΩ/cell → 729.08 s (tolerance 0.5 %)
     bat7 = api(client, team, request(
         battery={"cells_series": 4, "capacity_mah": 5000, "cell_resistance_mohm": 6},
         endurance={"power_w": 300}))
     assert rel(bat7["endurance"]["seconds"], 729.08) < 0.005
     assert rel(bat7["endurance"]["start"]["bus_current_a"], 18.3375) < 1e-4
-    # physics.md BAT-8 [CALC]: OP-4 quad on 3S 5000 mAh, 10 mΩ/cell → 667.82 s
+    # BAT-8 [CALC]: OP-4 quad on 3S 5000 mAh, 10 mΩ/cell → 667.82 s
     bat8 = api(client, team, request(
         battery={"cells_series": 3, "capacity_mah": 5000, "cell_resistance_mohm": 10}, rotor_count=4,
         endurance={"thrust_n": 4.90332}))

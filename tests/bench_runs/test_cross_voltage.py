@@ -25,7 +25,7 @@ Data treatment (decided before comparing variants, all variants reported in the 
   with the model's full-throttle power at that bus voltage (what the ESC would do).
 
 Un-calibrated baseline: the same pooled calibration of motors and propellers, but the ESC left at the
-physics.md reference-model defaults (every §5 physical term at its default, k_pwm = 0 not fitted).
+reference-model defaults (docs/model-reference.md#esc: every physical term at its default, k_pwm = 0 not fitted).
 """
 
 from __future__ import annotations

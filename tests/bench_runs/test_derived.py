@@ -1,4 +1,4 @@
-"""Per-sample derived quantities (physics.md §1-§2 definitions)."""
+"""Per-sample derived quantities (definitions of docs/model-reference.md#air and #propeller)."""
 
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ from server.bench_runs.derived import derive_samples, run_air_density_kg_m3
 
 
 def test_density_from_altitude_temperature_or_pressure() -> None:
-    # ISA sea level 1.225 kg/m^3; 1000 m ISA 1.111659 (physics.md ATM-2, fluids 1.3.1)
+    # ISA sea level 1.225 kg/m^3; 1000 m ISA 1.111659 (ATM-2, fluids 1.3.1)
     assert run_air_density_kg_m3() == pytest.approx(1.225, rel=1e-5)
     assert run_air_density_kg_m3(altitude_m=1000.0) == pytest.approx(1.111659, rel=1e-5)
-    # physics.md ATM-9: pressure altitude 1000 m, OAT 30 °C -> 1.032822
+    # ATM-9: pressure altitude 1000 m, OAT 30 °C -> 1.032822
     assert run_air_density_kg_m3(altitude_m=1000.0, air_temperature_c=30.0) == pytest.approx(1.032822, rel=1e-5)
     # a measured pressure wins over the altitude: rho = p / (R T)
     rho = run_air_density_kg_m3(altitude_m=1000.0, pressure_pa=95_000.0, air_temperature_c=20.0)
@@ -22,7 +22,7 @@ def test_density_from_altitude_temperature_or_pressure() -> None:
 
 
 def test_coefficients_powers_and_efficiencies() -> None:
-    # PROP-1 of physics.md (UIUC sf_10x7 at 5015 rpm, Brandt & Selig 2011): CT 0.1564, CP 0.0763, D 0.254 m
+    # PROP-1 (UIUC sf_10x7 at 5015 rpm, Brandt & Selig 2011): CT 0.1564, CP 0.0763, D 0.254 m
     rho, d, rpm = 1.225, 0.254, np.array([5015.0, 0.0])
     n = rpm / 60
     thrust = 0.1564 * rho * n**2 * d**4

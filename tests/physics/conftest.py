@@ -1,4 +1,4 @@
-"""Shared fixtures: the illustrative motor/propeller of physics.md §3-§4 and the reference data folder."""
+"""Shared fixtures: the check-case motor and propeller (docs/model-reference.md) and the reference data folder."""
 
 from __future__ import annotations
 
@@ -17,13 +17,16 @@ REFERENCE_DIR = Path(__file__).resolve().parents[1] / "data" / "reference" / "pr
 
 @pytest.fixture
 def motor_920kv() -> MotorParams:
-    """physics.md §3 check-case motor (Kv 920, R 0.10 Ω, I0 0.5 A; illustrative, [MEM]-typical), L = 30 µH."""
+    """MOT check-case motor: Kv 920, R 0.10 Ω, I0 0.5 A (illustrative, [MEM]-typical), L = 30 µH.
+
+    See docs/model-reference.md#motor-check-cases.
+    """
     return MotorParams(kv_rpm_per_v=920.0, resistance_ohm=0.10, no_load_current_a=0.5)
 
 
 @pytest.fixture
 def motor_920kv_no_ripple() -> MotorParams:
-    """Same motor with L -> infinity: no PWM ripple (how physics.md §4 cases leave out §5 terms)."""
+    """Same motor with L -> infinity: no PWM ripple (how the OP check cases leave out the ESC ripple)."""
     return MotorParams(kv_rpm_per_v=920.0, resistance_ohm=0.10, no_load_current_a=0.5, inductance_h=np.inf)
 
 
@@ -35,7 +38,7 @@ def prop_10x7_5015() -> PropellerTable:
 
 @pytest.fixture
 def ideal_esc() -> EscParams:
-    """R_esc = 0 and no partial-throttle terms (physics.md §4 check cases)."""
+    """R_esc = 0 and no partial-throttle terms (docs/model-reference.md#operating-point-check-cases)."""
     return EscParams.lossless_switching(0.0)
 
 

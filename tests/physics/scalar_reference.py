@@ -1,9 +1,10 @@
 """Slow scalar reference path: the operating point re-derived with scipy.optimize.brentq, one point at a time.
 
-Written independently of ``server.physics.drive`` (it shares no code with it, only the physics.md §4/§5
-equations) so that the vectorised solvers can be cross-checked against it, as pvlib cross-checks its
-``'chandrupatla'`` path against ``'brentq'``. It follows the test recipe of physics.md §4: (i) Ω from the
-torque balance on ``[0, Kv V_m]``, (ii) V_bus from the bus balance, (iii) duty / speed for a thrust.
+Written independently of ``server.physics.drive`` (it shares no code with it, only the equations of
+docs/model-reference.md#operating-point and #esc) so that the vectorised solvers can be cross-checked against it,
+as pvlib cross-checks its ``'chandrupatla'`` path against ``'brentq'``. It follows
+docs/model-reference.md#operating-point-scalar-reference: (i) Ω from the torque balance on ``[0, Kv V_m]``, (ii) V_bus
+from the bus balance, (iii) duty / speed for a thrust.
 Used by tests and by ``benchmarks/operating_points.py`` only.
 """
 

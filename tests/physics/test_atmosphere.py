@@ -1,4 +1,4 @@
-"""Atmosphere: physics.md ATM-1..11 and the fluids package as the ISA reference."""
+"""Atmosphere: ATM-1..11 and the fluids package as the ISA reference."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from scipy.optimize import brentq
 
 from server.physics import atmosphere as atm
 
-# physics.md ATM-1..4 [LIB] fluids 1.3.1 ATMOSPHERE_1976(Z) / ambiance 1.3.1; ISO 2533 rho0 = 1.225
+# ATM-1..4 [LIB] fluids 1.3.1 ATMOSPHERE_1976(Z) / ambiance 1.3.1; ISO 2533 rho0 = 1.225
 ISA_ROWS = [  # Z [m], rho [kg/m3], T [K], p [Pa]
     (0.0, 1.224999, 288.1500, 101_325.000),
     (1000.0, 1.111659, 281.6510, 89_876.285),
@@ -20,14 +20,14 @@ ISA_ROWS = [  # Z [m], rho [kg/m3], T [K], p [Pa]
 
 @pytest.mark.parametrize(("z", "rho", "t", "p"), ISA_ROWS)
 def test_isa_rows_match_atm_1_to_4(z: float, rho: float, t: float, p: float) -> None:
-    # physics.md ATM-1..4 [LIB] fluids 1.3.1 ATMOSPHERE_1976; tol 1e-5
+    # ATM-1..4 [LIB] fluids 1.3.1 ATMOSPHERE_1976; tol 1e-5
     assert atm.air_density_kg_m3(z) == pytest.approx(rho, rel=1e-5)
     assert atm.standard_temperature_k(z) == pytest.approx(t, rel=1e-5)
     assert atm.standard_pressure_pa(z) == pytest.approx(p, rel=1e-5)
 
 
 def test_geopotential_pitfall_atm_5() -> None:
-    # physics.md ATM-5 [CALC]: treating geometric altitude as geopotential gives these (wrong) densities
+    # ATM-5 [CALC]: treating geometric altitude as geopotential gives these (wrong) densities
     rho = atm.air_density_kg_m3([1000.0, 2000.0, 3000.0], geopotential=True)
     np.testing.assert_allclose(rho, [1.111642, 1.006490, 0.909121], rtol=1e-6)
     # ... while the geometric default differs by 1.5e-5 .. 1.5e-4 rel (the size of the pitfall)
@@ -36,9 +36,9 @@ def test_geopotential_pitfall_atm_5() -> None:
 
 
 @pytest.mark.parametrize(("z", "dt", "rho", "da_geometric", "da_geopotential"), [
-    (1000.0, 20.0, 1.037954, 1693.2, 1692.7),  # physics.md ATM-6 [LIB] fluids ATMOSPHERE_1976(1000, dT=20)
-    (0.0, 15.0, 1.164386, 525.5, None),  # physics.md ATM-7 [LIB] + [CALC]
-    (2000.0, -10.0, 1.044514, 1630.0, None),  # physics.md ATM-8 [LIB] + [CALC]
+    (1000.0, 20.0, 1.037954, 1693.2, 1692.7),  # ATM-6 [LIB] fluids ATMOSPHERE_1976(1000, dT=20)
+    (0.0, 15.0, 1.164386, 525.5, None),  # ATM-7 [LIB] + [CALC]
+    (2000.0, -10.0, 1.044514, 1630.0, None),  # ATM-8 [LIB] + [CALC]
 ])
 def test_temperature_offset_and_density_altitude_atm_6_to_8(z: float, dt: float, rho: float, da_geometric: float,
                                                              da_geopotential: float | None) -> None:
@@ -51,26 +51,26 @@ def test_temperature_offset_and_density_altitude_atm_6_to_8(z: float, dt: float,
 
 
 def test_outside_air_temperature_atm_9() -> None:
-    # physics.md ATM-9 [CALC]: pressure altitude 1000 m, OAT 30 °C
+    # ATM-9 [CALC]: pressure altitude 1000 m, OAT 30 °C
     density = atm.air_density_kg_m3(1000.0, outside_air_temperature_k=atm.celsius_to_kelvin_k(30.0))
     assert density == pytest.approx(1.032822, rel=1e-5)
     assert atm.density_altitude_m(density) == pytest.approx(1742.8, abs=1.0)
 
 
 def test_density_altitude_closed_form_matches_brentq_on_fluids() -> None:
-    # physics.md ATM-6 method: brentq on fluids 1.3.1 ATMOSPHERE_1976(z).rho; agree to 0.1 m like for like
+    # ATM-6 method: brentq on fluids 1.3.1 ATMOSPHERE_1976(z).rho; agree to 0.1 m like for like
     for rho in (1.037954, 1.164386, 1.044514, 0.95):
         z = brentq(lambda zz, r=rho: ATMOSPHERE_1976(zz).rho - r, -1000.0, 8000.0, xtol=1e-6)
         assert atm.density_altitude_m(rho) == pytest.approx(z, abs=0.1)
 
 
 def test_thrust_ratio_at_altitude_atm_10() -> None:
-    # physics.md ATM-10 [CALC]: at fixed rpm thrust scales with rho
+    # ATM-10 [CALC]: at fixed rpm thrust scales with rho
     assert atm.air_density_kg_m3(2000.0) / 1.225 == pytest.approx(0.821676, rel=1e-5)
 
 
 def test_speed_of_sound_and_viscosity_atm_11() -> None:
-    # physics.md ATM-11 [LIB] ambiance .speed_of_sound; fluids .v_sonic, .mu (US 1976 Sutherland law)
+    # ATM-11 [LIB] ambiance .speed_of_sound; fluids .v_sonic, .mu (US 1976 Sutherland law)
     t0 = atm.standard_temperature_k(0.0)
     assert atm.speed_of_sound_m_s(t0) == pytest.approx(340.294, rel=1e-5)
     assert atm.dynamic_viscosity_pa_s(t0) == pytest.approx(1.78938e-5, rel=1e-5)
@@ -79,7 +79,7 @@ def test_speed_of_sound_and_viscosity_atm_11() -> None:
 @pytest.mark.parametrize("z", [0.0, 350.0, 1000.0, 2500.0, 4200.0, 6000.0, 10_500.0])
 @pytest.mark.parametrize("dt", [-15.0, 0.0, 10.0, 25.0])
 def test_matches_fluids_atmosphere_1976(z: float, dt: float) -> None:
-    # fluids 1.3.1 ATMOSPHERE_1976(Z, dT): same standard, same constants; physics.md reports ≤ 1e-6 agreement
+    # fluids 1.3.1 ATMOSPHERE_1976(Z, dT): same standard and constants (docs/model-reference.md#air-check-cases)
     ref = ATMOSPHERE_1976(z, dT=dt)
     t = atm.air_temperature_k(z, dt)
     assert atm.air_density_kg_m3(z, dt) == pytest.approx(ref.rho, rel=1e-9)
@@ -107,5 +107,5 @@ def test_nan_in_nan_out_and_stratosphere_is_not_modelled() -> None:
 def test_geopotential_round_trip() -> None:
     z = np.array([0.0, 1000.0, 3000.0, 10_000.0])
     np.testing.assert_allclose(atm.geometric_altitude_m(atm.geopotential_altitude_m(z)), z, atol=1e-9)
-    # physics.md §1: 1.5e-4 rel density difference at 3000 m comes from H < Z
+    # docs/model-reference.md#air: 1.5e-4 rel density difference at 3000 m comes from H < Z
     assert atm.geopotential_altitude_m(3000.0) == pytest.approx(2998.585, abs=1e-3)

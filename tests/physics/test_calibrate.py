@@ -46,7 +46,8 @@ UIUC = _uiuc()
 def test_uiuc_table_is_recovered_from_noisy_thrust_and_torque_samples(prop_id: str) -> None:
     # UIUC Propeller Database, Vols. 1-2 (Brandt & Selig 2011; Deters, Ananda & Selig 2014), static files:
     # 400 samples spread over the table's rpm range, thrust and torque from the table (linear in rpm between
-    # rows, physics.md §2) with 1 % noise; fitted at the table's rpm -> every row's CT and CP within 1 %.
+    # rows, docs/model-reference.md#propeller) with 1 % noise; fitted at the table's rpm -> every row's CT and CP
+    # within 1 %.
     diameter, rpm_rows, ct_rows, cp_rows = UIUC[prop_id]
     order = np.argsort(rpm_rows)
     rng = np.random.default_rng(7)

@@ -1,5 +1,5 @@
-"""Operating points: physics.md OP-1..5 (Drela 2007 model + §4 closed forms), bus consistency, statuses,
-and the vectorised solvers against the scalar brentq reference path (scalar_reference.py)."""
+"""Operating points: OP-1..5 (Drela 2007 model + the closed forms of docs/model-reference.md#operating-point), bus
+consistency, statuses, and the vectorised solvers against the scalar brentq reference path (scalar_reference.py)."""
 
 from __future__ import annotations
 
@@ -21,13 +21,13 @@ METHODS = ["auto", "root"]
 @pytest.fixture
 def op_system(motor_920kv_no_ripple: MotorParams, ideal_esc: EscParams,
               prop_10x7_5015: PropellerTable) -> dict[str, object]:
-    # physics.md §4 check cases: motor of §3, R_esc = 0, P_extra left out (L -> inf, no switching terms)
+    # docs/model-reference.md#operating-point-check-cases: MOT motor, R_esc = 0, no partial-throttle terms (L -> inf)
     return {"motor": motor_920kv_no_ripple, "esc": ideal_esc, "propeller": prop_10x7_5015}
 
 
 @pytest.mark.parametrize("method", METHODS)
 def test_stiff_bus_full_throttle_op_1(op_system: dict[str, object], method: str) -> None:
-    # physics.md OP-1 [CALC] closed form = brentq (817.479216); tol 1e-5
+    # OP-1 [CALC] closed form = brentq (817.479216); tol 1e-5
     op = drive.at_duty(1.0, open_circuit_voltage_v=11.1, method=method, **op_system)  # type: ignore[arg-type]
     assert op.status == Status.OK
     assert op.omega_rad_s == pytest.approx(817.4792, rel=1e-5)
@@ -40,7 +40,7 @@ def test_stiff_bus_full_throttle_op_1(op_system: dict[str, object], method: str)
 
 @pytest.mark.parametrize("method", METHODS)
 def test_stiff_bus_partial_duty_op_2(op_system: dict[str, object], method: str) -> None:
-    # physics.md OP-2 [CALC] closed form = brentq; tol 1e-5
+    # OP-2 [CALC] closed form = brentq; tol 1e-5
     op = drive.at_duty(0.6, open_circuit_voltage_v=11.1, method=method, **op_system)  # type: ignore[arg-type]
     assert op.omega_rad_s == pytest.approx(532.1221, rel=1e-5)
     assert op.rpm == pytest.approx(5081.39, rel=1e-5)
@@ -52,7 +52,7 @@ def test_stiff_bus_partial_duty_op_2(op_system: dict[str, object], method: str) 
 
 @pytest.mark.parametrize("method", METHODS)
 def test_four_rotors_on_a_sagging_pack_op_3(op_system: dict[str, object], method: str) -> None:
-    # physics.md OP-3 [CALC] closed form = brentq on V_bus (10.81948); tol 1e-5
+    # OP-3 [CALC] closed form = brentq on V_bus (10.81948); tol 1e-5
     op = drive.at_duty(0.7, open_circuit_voltage_v=12.0, pack_resistance_ohm=0.030, rotor_count=4, method=method,
                        **op_system)  # type: ignore[arg-type]
     assert 0.10 + 4 * 0.7**2 * 0.030 == pytest.approx(0.15880, rel=1e-5)  # R' seen by the motor
@@ -66,7 +66,7 @@ def test_four_rotors_on_a_sagging_pack_op_3(op_system: dict[str, object], method
 
 @pytest.mark.parametrize("method", METHODS)
 def test_duty_for_hover_thrust_op_4(op_system: dict[str, object], method: str) -> None:
-    # physics.md OP-4 [CALC]: 2.000 kg quad, T_req = 4.90332 N per rotor; tol 1e-5
+    # OP-4 [CALC]: 2.000 kg quad, T_req = 4.90332 N per rotor; tol 1e-5
     op = drive.for_thrust(2.0 * 9.80665 / 4, open_circuit_voltage_v=12.0, pack_resistance_ohm=[0.030, 0.0],
                           rotor_count=4, method=method, **op_system)  # type: ignore[arg-type]
     sag, stiff = 0, 1
@@ -84,7 +84,7 @@ def test_duty_for_hover_thrust_op_4(op_system: dict[str, object], method: str) -
 
 @pytest.mark.parametrize("method", METHODS)
 def test_full_throttle_headroom_op_5(op_system: dict[str, object], method: str) -> None:
-    # physics.md OP-5 [CALC]: as OP-3 at d = 1; tol 1e-4
+    # OP-5 [CALC]: as OP-3 at d = 1; tol 1e-4
     op = drive.full_throttle(open_circuit_voltage_v=12.0, pack_resistance_ohm=0.030, rotor_count=4, method=method,
                              **op_system)  # type: ignore[arg-type]
     assert op.thrust_n == pytest.approx(10.5226, rel=1e-4)
@@ -110,7 +110,7 @@ def _scalar(system: dict[str, object], **pack: float) -> ref.ScalarSystem:
 @pytest.fixture
 def full_system() -> dict[str, object]:
     # Default ESC losses, calibrated term on, and a measured static table versus rpm:
-    # UIUC sf_10x4.7 static rows (Vol. 1, Brandt & Selig 2011; physics.md §2 table)
+    # UIUC sf_10x4.7 static rows (Vol. 1, Brandt & Selig 2011; docs/model-reference.md#propeller-typical-values)
     table = PropellerTable.from_rows(0.254, [([2377.0, 4029.0, 5147.0, 6528.0], [0.1059, 0.1158, 0.1237, 0.1299],
                                               [0.0431, 0.0466, 0.0500, 0.0531])])
     return {"motor": MotorParams(920.0, 0.10, 0.5), "esc": EscParams(pwm_loss_coefficient=0.05),
@@ -120,7 +120,7 @@ def full_system() -> dict[str, object]:
 
 @pytest.mark.parametrize("duty", [0.35, 0.62, 0.9, 1.0])
 def test_duty_request_equals_scalar_brentq(full_system: dict[str, object], duty: float) -> None:
-    # physics.md §4 test recipe (i)+(ii) with brentq; vectorised == scalar to 1e-6 rel
+    # docs/model-reference.md#operating-point-scalar-reference (i)+(ii) with brentq; vectorised == scalar to 1e-6 rel
     pack = {"open_circuit_voltage_v": 16.0, "pack_resistance_ohm": 0.06, "rotor_count": 4.0}
     op = drive.at_duty(duty, **pack, **full_system)  # type: ignore[arg-type]
     expected = ref.at_duty(_scalar(full_system, **pack), duty)
@@ -133,7 +133,8 @@ def test_duty_request_equals_scalar_brentq(full_system: dict[str, object], duty:
 
 @pytest.mark.parametrize("thrust", [2.0, 4.9, 8.0])
 def test_thrust_request_equals_scalar_brentq(full_system: dict[str, object], thrust: float) -> None:
-    # physics.md §4 test recipe (iii): duty for a thrust by brentq; vectorised == scalar to 1e-6 rel
+    # docs/model-reference.md#operating-point-scalar-reference (iii): duty for a thrust by brentq; vectorised ==
+    # scalar to 1e-6 rel
     pack = {"open_circuit_voltage_v": 16.0, "pack_resistance_ohm": 0.06, "rotor_count": 4.0}
     op = drive.for_thrust(thrust, **pack, **full_system)  # type: ignore[arg-type]
     expected = ref.for_thrust(_scalar(full_system, **pack), thrust)
@@ -195,7 +196,7 @@ def test_over_current_keeps_values(op_system: dict[str, object]) -> None:
 
 
 def test_momentum_bound_violation_is_a_data_error(motor_920kv: MotorParams) -> None:
-    # physics.md reference model v1 item 8: FM > 1 is a data error; CT = 0.2, CP = 0.02 gives FM = 3.6
+    # docs/model-reference.md#reference-model-v1 item 8: FM > 1 is a data error; CT = 0.2, CP = 0.02 gives FM = 3.6
     bad = PropellerTable.constant(0.254, 0.2, 0.02)
     op = drive.for_thrust(3.0, open_circuit_voltage_v=11.1, motor=motor_920kv, esc=EscParams(), propeller=bad)
     assert op.status == Status.DATA_ERROR
@@ -204,7 +205,8 @@ def test_momentum_bound_violation_is_a_data_error(motor_920kv: MotorParams) -> N
 
 def test_broadcast_shape_and_padded_chunk_equal_one_by_one() -> None:
     # three candidates with different props in one padded chunk, against each evaluated alone
-    # (UIUC static rows of physics.md §2: 10x4.7 slow-flyer, 10x7 slow-flyer, 16x8 thin electric)
+    # (UIUC static rows of docs/model-reference.md#propeller-typical-values: 10x4.7 slow-flyer, 10x7 slow-flyer,
+    # 16x8 thin electric)
     rows = [([2377.0, 4029.0, 5147.0, 6528.0], [0.1059, 0.1158, 0.1237, 0.1299], [0.0431, 0.0466, 0.0500, 0.0531]),
             ([2283.0, 4034.0, 5015.0, 5987.0], [0.1409, 0.1512, 0.1564, 0.1606], [0.0678, 0.0725, 0.0763, 0.0797]),
             ([980.0, 2980.0, 4993.333], [0.077122, 0.091428, 0.095587], [0.029425, 0.027246, 0.028545])]
@@ -233,7 +235,7 @@ def test_rpm_request_round_trips_duty_request(full_system: dict[str, object]) ->
 
 
 def test_result_reports_every_loss_term_and_closes_energy(full_system: dict[str, object]) -> None:
-    # physics.md reference model v1 item 5: energy balance to 0.1 % (here it must close to rounding)
+    # docs/model-reference.md#reference-model-v1 item 5: energy balance to 0.1 % (here it must close to rounding)
     op = drive.at_duty(0.55, open_circuit_voltage_v=16.0, pack_resistance_ohm=0.06, rotor_count=4,
                        **full_system)  # type: ignore[arg-type]
     losses = (op.motor_copper_loss_w + op.motor_no_load_loss_w + op.esc_conduction_loss_w + op.pwm_ripple_loss_w
@@ -248,8 +250,8 @@ def test_result_reports_every_loss_term_and_closes_energy(full_system: dict[str,
 
 
 def test_request_in_the_loss_step_band_below_full_throttle_returns_full_throttle() -> None:
-    # P_sw and P_dt vanish only at d = 1 (physics.md §5), so just below the full-throttle thrust no duty < 1
-    # balances the bus; the solver must then report the d = 1 point (thrust >= request), with energy closed.
+    # P_sw and P_dt vanish only at d = 1 (docs/model-reference.md#known-limits), so just below the full-throttle thrust
+    # no duty < 1 balances the bus; the solver must then report the d = 1 point (thrust >= request), with energy closed.
     system = {"motor": MotorParams(920.0, 0.10, 0.5), "esc": EscParams(), "open_circuit_voltage_v": 12.6,
               "propeller": PropellerTable.constant(0.254, 0.1564, 0.0763), "pack_resistance_ohm": 0.03,
               "rotor_count": 4}

@@ -1,4 +1,4 @@
-"""Endurance: physics.md BAT-7 (constant power) and BAT-8 (constant-thrust hover), stop reasons, Peukert,
+"""Endurance: BAT-7 (constant power) and BAT-8 (constant-thrust hover), stop reasons, Peukert,
 checked against scipy.integrate.quad and a scalar solve_ivp reference in time."""
 
 from __future__ import annotations
@@ -27,7 +27,7 @@ def _power_rate(soc: float, power: float, pack: PackParams) -> float:
 
 
 def test_constant_power_bat_7() -> None:
-    # physics.md BAT-7 [CALC] solve_ivp(rtol=1e-10): t = 729.08 s (0.5 %); quad 729.077 s (1e-4)
+    # BAT-7 [CALC] solve_ivp(rtol=1e-10): t = 729.08 s (0.5 %); quad 729.077 s (1e-4)
     result = endurance.constant_power(300.0, pack=PACK_4S)
     assert result.stop_reason == StopReason.USABLE_CAPACITY
     assert result.time_s == pytest.approx(729.08, rel=5e-3)
@@ -58,13 +58,13 @@ def test_constant_power_cutoff_and_power_limit() -> None:
 
 
 def _hover_system() -> dict[str, object]:
-    # physics.md BAT-8: the OP-4 quad, R_esc = 0, P_extra ignored (L -> inf, no switching terms)
+    # BAT-8: the OP-4 quad, R_esc = 0, P_extra ignored (L -> inf, no switching terms)
     return {"motor": MotorParams(920.0, 0.10, 0.5, inductance_h=np.inf), "esc": EscParams.lossless_switching(0.0),
             "propeller": PropellerTable.constant(0.254, 0.1564, 0.0763), "rotor_count": 4}
 
 
 def test_constant_thrust_hover_bat_8() -> None:
-    # physics.md BAT-8 [CALC] solve_ivp + §4 closed form: 0.5 % on t, 1e-4 on start/end states
+    # BAT-8 [CALC] solve_ivp + OP closed form: 0.5 % on t, 1e-4 on start/end states
     result = endurance.constant_thrust(4.90332, pack=PACK_3S, **_hover_system())  # type: ignore[arg-type]
     assert result.stop_reason == StopReason.USABLE_CAPACITY
     assert result.time_s == pytest.approx(667.82, rel=5e-3)
@@ -104,7 +104,8 @@ def _ivp_reference(thrust: float, pack_soc_end: float, cutoff_v: float, system: 
 
 @pytest.mark.slow
 def test_cutoff_and_peukert_against_solve_ivp() -> None:
-    # scipy solve_ivp in time with terminal events (physics.md §6 method) vs our SOC march; 0.5 % like BAT-8
+    # scipy solve_ivp in time with terminal events (docs/model-reference.md#endurance-sources) vs our SOC march;
+    # 0.5 % like BAT-8
     system = _hover_system()
     scalar = ref.ScalarSystem(920.0, 0.10, 0.5, (0.0,), (0.1564,), (0.0763,), 0.254, 12.6, 0.030, 4.0,
                               inductance_h=np.inf, on_path_resistance_ohm=0.0, transition_time_s=0.0, dead_time_s=0.0,

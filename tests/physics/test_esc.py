@@ -1,4 +1,4 @@
-"""ESC partial-throttle losses: physics.md ESC-1..5 (Mohan 2003 / Erickson 2001 formulas) and their limits."""
+"""ESC partial-throttle losses: ESC-1..5 (Mohan 2003 / Erickson 2001 formulas) and their limits."""
 
 from __future__ import annotations
 
@@ -11,13 +11,13 @@ from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
 from server.physics.propeller import PropellerTable
 
-# physics.md ESC-1 [CALC]: the motor current and the 2S/3S duty of the worked comparison
+# ESC-1 [CALC]: the motor current and the 2S/3S duty of the worked comparison
 I_MOTOR = 13.7170
 L_H, F_HZ = 30e-6, 24e3
 
 
 def test_terms_at_esc_2_operating_point() -> None:
-    # physics.md ESC-2 [PUB] Mohan 2003 / Erickson 2001 formulas + [CALC]; absolute 1e-4 W on losses
+    # ESC-2 [PUB] Mohan 2003 / Erickson 2001 formulas + [CALC]; absolute 1e-4 W on losses
     duty, bus = 2.0 / 3.0, 11.4
     ripple = esc_model.ripple_current_a(bus, duty, L_H, F_HZ)
     assert ripple == pytest.approx(3.5185, abs=1e-4)
@@ -34,20 +34,20 @@ def test_terms_at_esc_2_operating_point() -> None:
 
 
 def test_worst_case_ripple_esc_4() -> None:
-    # physics.md ESC-4 [CALC]: V_bus/(4 L f) at d = 0.5
+    # ESC-4 [CALC]: V_bus/(4 L f) at d = 0.5
     assert esc_model.ripple_current_a(11.4, 0.5, L_H, F_HZ) == pytest.approx(3.9583, rel=1e-5)
     duties = np.linspace(0.05, 0.95, 19)
     assert np.argmax(esc_model.ripple_current_a(11.4, duties, L_H, F_HZ)) == 9  # d = 0.5
 
 
 def test_non_synchronous_freewheel_esc_5() -> None:
-    # physics.md ESC-5 [CALC]: V_F I (1 - d) at the ESC-2 point
+    # ESC-5 [CALC]: V_F I (1 - d) at the ESC-2 point
     assert esc_model.freewheel_diode_loss_w(I_MOTOR, 2.0 / 3.0, 0.8) == pytest.approx(3.6579, rel=1e-4)
     assert esc_model.freewheel_diode_loss_w(I_MOTOR, 1.0, 0.8) == 0.0
 
 
 def test_every_partial_throttle_term_vanishes_at_full_throttle() -> None:
-    # physics.md §5: at d = 1 the bridge does not chop, so P_sw = P_dt = P_rip = P_cap = P_pwm = 0
+    # docs/model-reference.md#esc: at d = 1 the bridge does not chop, so P_sw = P_dt = P_rip = P_cap = P_pwm = 0
     esc = EscParams(pwm_loss_coefficient=0.3)
     at_one = esc_model.partial_throttle_losses(11.4, 1.0, I_MOTOR, 0.1, L_H, esc)
     just_below = esc_model.partial_throttle_losses(11.4, 0.99, I_MOTOR, 0.1, L_H, esc)
@@ -57,14 +57,14 @@ def test_every_partial_throttle_term_vanishes_at_full_throttle() -> None:
 
 
 def test_calibrated_pwm_term() -> None:
-    # physics.md reference model v1 item 4: P_pwm = k_pwm V_bus I d (1 - d), default k_pwm = 0
+    # docs/model-reference.md#reference-model-v1 item 4: P_pwm = k_pwm V_bus I d (1 - d), default k_pwm = 0
     losses = esc_model.partial_throttle_losses(11.4, 0.5, I_MOTOR, 0.1, L_H, EscParams(pwm_loss_coefficient=0.1))
     assert losses.calibrated_pwm_w == pytest.approx(0.1 * 11.4 * I_MOTOR * 0.25)
     assert EscParams().pwm_loss_coefficient == 0.0
 
 
 def test_defaults_are_reference_model_v1() -> None:
-    # physics.md reference model v1 item 4
+    # docs/model-reference.md#reference-model-v1 item 4
     esc = EscParams()
     assert (float(esc.on_path_resistance_ohm), float(esc.switching_frequency_hz), float(esc.transition_time_s),
             float(esc.dead_time_s), float(esc.body_diode_drop_v), float(esc.input_esr_ohm)) == (
@@ -83,13 +83,13 @@ def test_loss_terms_broadcast_and_propagate_nan() -> None:
 
 @pytest.fixture
 def system() -> dict[str, object]:
-    # physics.md §5 worked comparison: motor of §3, prop of §4, L = 30 µH, ESC defaults
+    # docs/model-reference.md#esc-check-cases worked comparison: MOT motor, PROP-1 prop, L = 30 µH, ESC defaults
     return {"motor": MotorParams(920.0, 0.10, 0.5, inductance_h=L_H), "esc": EscParams(),
             "propeller": PropellerTable.constant(0.254, 0.1564, 0.0763)}
 
 
 def test_two_cell_full_throttle_esc_1(system: dict[str, object]) -> None:
-    # physics.md ESC-1 [CALC]: 2S, V_bus = 7.6 V, d = 1; tol 1e-5
+    # ESC-1 [CALC]: 2S, V_bus = 7.6 V, d = 1; tol 1e-5
     op = drive.at_duty(1.0, open_circuit_voltage_v=7.6, **system)  # type: ignore[arg-type]
     assert op.omega_rad_s == pytest.approx(586.8323, rel=1e-5)
     assert op.rpm == pytest.approx(5603.84, rel=1e-5)
@@ -104,7 +104,7 @@ def test_two_cell_full_throttle_esc_1(system: dict[str, object]) -> None:
 
 
 def test_three_cell_same_speed_esc_2(system: dict[str, object]) -> None:
-    # physics.md ESC-2 [PUB] Mohan 2003 / Erickson 2001 + [CALC]: 3S at the ESC-1 speed; 1e-4 (abs 1e-4 W losses)
+    # ESC-2 [PUB] Mohan 2003 / Erickson 2001 + [CALC]: 3S at the ESC-1 speed; 1e-4 (abs 1e-4 W losses)
     two_cell = drive.at_duty(1.0, open_circuit_voltage_v=7.6, **system)  # type: ignore[arg-type]
     op = drive.at_rpm(two_cell.rpm, open_circuit_voltage_v=11.4, **system)  # type: ignore[arg-type]
     assert op.duty == pytest.approx(0.666667, rel=1e-4)
@@ -119,12 +119,12 @@ def test_three_cell_same_speed_esc_2(system: dict[str, object]) -> None:
     assert op.bus_current_a == pytest.approx(9.28402, rel=1e-4)
     assert op.duty * op.motor_current_a == pytest.approx(9.14469, rel=1e-4)
     assert op.drive_efficiency == pytest.approx(0.7607, rel=1e-4)
-    # physics.md §5: P_bus(3S, partial d) - P_bus(2S, d = 1) = P_extra exactly
+    # docs/model-reference.md#esc: P_bus(3S, partial d) - P_bus(2S, d = 1) = P_extra exactly
     assert op.electrical_power_w - two_cell.electrical_power_w == pytest.approx(op.extra_loss_w, rel=1e-9)
 
 
 def test_pack_internal_loss_esc_3(system: dict[str, object]) -> None:
-    # physics.md ESC-3 [CALC], r = 10 mΩ/cell [MEM]: pack I^2 R at the ESC-1 / ESC-2 points
+    # ESC-3 [CALC], r = 10 mΩ/cell [MEM]: pack I^2 R at the ESC-1 / ESC-2 points
     two_cell = drive.at_duty(1.0, open_circuit_voltage_v=7.6, **system)  # type: ignore[arg-type]
     three_cell = drive.at_rpm(two_cell.rpm, open_circuit_voltage_v=11.4, **system)  # type: ignore[arg-type]
     loss_2s = 0.020 * two_cell.bus_current_a**2

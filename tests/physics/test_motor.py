@@ -1,4 +1,4 @@
-"""Motor: Drela's first-order model, physics.md MOT-1..6 (motor Kv 920 rpm/V, R 0.10 Ω, I0 0.5 A)."""
+"""Motor: Drela's first-order model, MOT-1..6 (motor Kv 920 rpm/V, R 0.10 Ω, I0 0.5 A)."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ KV, R, I0 = 920.0, 0.10, 0.5
 
 
 def test_unit_conversion_mot_1() -> None:
-    # physics.md MOT-1 [CALC]; tol 1e-6
+    # MOT-1 [CALC]; tol 1e-6
     assert mot.kv_rad_s_per_v(KV) == pytest.approx(96.34217, rel=1e-6)
     assert mot.torque_constant_nm_per_a(KV) == pytest.approx(9.5493 / 920, rel=1e-5)  # 9.5493 is rounded
     assert mot.torque_constant_nm_per_a(KV) == pytest.approx(0.010380, rel=1e-4)  # printed to 5 digits
@@ -22,7 +22,7 @@ def test_unit_conversion_mot_1() -> None:
 
 
 def test_operating_state_mot_2() -> None:
-    # physics.md MOT-2 [PUB] Drela 2007 model + [CALC]; tol 1e-5
+    # MOT-2 [PUB] Drela 2007 model + [CALC]; tol 1e-5
     omega = 8000 * 2 * np.pi / 60
     assert omega == pytest.approx(837.7580, rel=1e-6)
     assert mot.back_emf_v(omega, KV) == pytest.approx(8.69565, rel=1e-5)
@@ -38,7 +38,7 @@ def test_operating_state_mot_2() -> None:
 
 
 def test_peak_efficiency_mot_3() -> None:
-    # physics.md MOT-3 [CALC]; tol 1e-5
+    # MOT-3 [CALC]; tol 1e-5
     i_star = mot.max_efficiency_current_a(11.1, I0, R)
     assert i_star == pytest.approx(7.44983, rel=1e-5)
     assert mot.max_efficiency(11.1, I0, R) == pytest.approx(0.87027, rel=1e-5)
@@ -52,7 +52,7 @@ def test_peak_efficiency_mot_3() -> None:
 
 
 def test_no_load_stall_and_torque_mot_4() -> None:
-    # physics.md MOT-4 [CALC]; tol 1e-5
+    # MOT-4 [CALC]; tol 1e-5
     assert mot.no_load_speed_rad_s(11.1, KV, I0, R) * 60 / (2 * np.pi) == pytest.approx(10166.0, rel=1e-5)
     assert mot.stall_current_a(11.1, R) == pytest.approx(111.0, rel=1e-12)
     assert mot.torque_nm(20.0, I0, KV) == pytest.approx(0.202404, rel=1e-5)
@@ -60,7 +60,7 @@ def test_no_load_stall_and_torque_mot_4() -> None:
 
 
 def test_least_squares_round_trip_mot_5() -> None:
-    # physics.md MOT-5 [CALC] numpy.linalg.lstsq on synthetic points; tol 1e-9
+    # MOT-5 [CALC] numpy.linalg.lstsq on synthetic points; tol 1e-9
     volts = np.array([11.1, 11.1, 8.0])
     amps = np.array([10.0, 20.0, 5.0])
     omega = mot.speed_rad_s(volts, amps, KV, R)
@@ -71,7 +71,7 @@ def test_least_squares_round_trip_mot_5() -> None:
 
 
 def test_hot_resistance_mot_6() -> None:
-    # physics.md MOT-6 [CALC], alpha_Cu = 0.00393/K (IEC 60028 value, from memory [MEM])
+    # MOT-6 [CALC], alpha_Cu = 0.00393/K (IEC 60028 value, from memory [MEM])
     np.testing.assert_allclose(mot.resistance_at_temperature_ohm(0.100, [80.0, 100.0]), [0.12358, 0.13144], rtol=1e-4)
     assert mot.resistance_at_temperature_ohm(0.100, 20.0) == pytest.approx(0.100, rel=1e-15)
 
@@ -88,4 +88,4 @@ def test_arrays_broadcast_and_nan_propagates() -> None:
 def test_params_accept_arrays_per_candidate() -> None:
     params = MotorParams([920.0, 2300.0], [0.1, 0.05], 0.5)
     np.testing.assert_allclose(params.kv_rad_s_per_v, np.array([920.0, 2300.0]) * 2 * np.pi / 60)
-    assert params.inductance_h == pytest.approx(30e-6)  # physics.md reference model v1 default
+    assert params.inductance_h == pytest.approx(30e-6)  # docs/model-reference.md#reference-model-v1 default

@@ -1,4 +1,4 @@
-"""Propeller: coefficient algebra, momentum theory (physics.md PROP-1..9) and padded coefficient tables."""
+"""Propeller: coefficient algebra, momentum theory (PROP-1..9) and padded coefficient tables."""
 
 from __future__ import annotations
 
@@ -17,20 +17,20 @@ G0 = 9.80665
 
 
 def test_coefficient_form_prop_1() -> None:
-    # physics.md PROP-1 [DATA] UIUC sf_10x7_static_kt0827 (Brandt & Selig 2011) + [CALC]; tol 1e-4
+    # PROP-1 [DATA] UIUC sf_10x7_static_kt0827 (Brandt & Selig 2011) + [CALC]; tol 1e-4
     n = 5015.0 / 60.0
     assert n == pytest.approx(83.5833, rel=1e-4)
     assert prop.thrust_n(0.1564, RHO0, n, D_10IN_M) == pytest.approx(5.5712, rel=1e-4)
     assert prop.shaft_power_w(0.0763, RHO0, n, D_10IN_M) == pytest.approx(57.702, rel=1e-4)
     assert prop.torque_nm(0.0763, RHO0, n, D_10IN_M) == pytest.approx(0.10987, rel=1e-4)
     assert prop.torque_coefficient(0.0763) == pytest.approx(0.012144, rel=1e-4)
-    # P = 2πnQ, never nQ (physics.md §2 pitfall 3)
+    # P = 2πnQ, never nQ (docs/model-reference.md#conventions)
     assert prop.shaft_power_w(0.0763, RHO0, n, D_10IN_M) == pytest.approx(
         2 * math.pi * n * prop.torque_nm(0.0763, RHO0, n, D_10IN_M), rel=1e-12)
 
 
 def test_figure_of_merit_three_ways_prop_2() -> None:
-    # physics.md PROP-2 [PUB] Leishman 2006 momentum theory + [CALC]; tol 1e-4
+    # PROP-2 [PUB] Leishman 2006 momentum theory + [CALC]; tol 1e-4
     n = 5015.0 / 60.0
     thrust = prop.thrust_n(0.1564, RHO0, n, D_10IN_M)
     power = prop.shaft_power_w(0.0763, RHO0, n, D_10IN_M)
@@ -45,7 +45,7 @@ def test_figure_of_merit_three_ways_prop_2() -> None:
 
 
 def test_forward_point_prop_3() -> None:
-    # physics.md PROP-3 [DATA] UIUC sf_10x7_kt0833_6006 (Brandt & Selig 2011) + [CALC]
+    # PROP-3 [DATA] UIUC sf_10x7_kt0833_6006 (Brandt & Selig 2011) + [CALC]
     n = 6006.0 / 60.0
     eta = prop.propeller_efficiency(0.312, 0.1282, 0.0777)
     assert eta == pytest.approx(0.5148, abs=0.002)
@@ -58,7 +58,7 @@ def test_forward_point_prop_3() -> None:
 
 
 def test_hover_momentum_theory_prop_4() -> None:
-    # physics.md PROP-4 [PUB] Leishman 2006 + [CALC]: 2.000 kg quad, 10 in props, sea level; tol 1e-4
+    # PROP-4 [PUB] Leishman 2006 + [CALC]: 2.000 kg quad, 10 in props, sea level; tol 1e-4
     thrust = 2.0 * G0 / 4
     assert thrust == pytest.approx(4.90332, rel=1e-4)
     assert prop.induced_velocity_hover_m_s(thrust, RHO0, D_10IN_M) == pytest.approx(6.2847, rel=1e-4)
@@ -71,12 +71,12 @@ def test_hover_momentum_theory_prop_4() -> None:
 
 
 def test_hover_at_altitude_prop_5() -> None:
-    # physics.md PROP-5 [CALC] with [LIB] fluids density at 2000 m
+    # PROP-5 [CALC] with [LIB] fluids density at 2000 m
     assert prop.ideal_hover_power_w(4.90332, 1.006553, D_10IN_M) == pytest.approx(33.9957, rel=1e-4)
 
 
 def test_axial_climb_prop_6() -> None:
-    # physics.md PROP-6 [PUB] Leishman 2006 + [CALC]
+    # PROP-6 [PUB] Leishman 2006 + [CALC]
     power = prop.ideal_climb_power_w(4.90332, np.array([2.0, 5.0]), RHO0, D_10IN_M)
     np.testing.assert_allclose(power, [36.1068, 45.4228], rtol=1e-4)
     assert prop.ideal_climb_power_w(4.90332, 0.0, RHO0, D_10IN_M) == pytest.approx(
@@ -84,7 +84,7 @@ def test_axial_climb_prop_6() -> None:
 
 
 def test_froude_efficiency_prop_7() -> None:
-    # physics.md PROP-7 [PUB] momentum theory + [CALC]; also the coefficient form 2/(1+sqrt(1+8CT/(pi J^2)))
+    # PROP-7 [PUB] momentum theory + [CALC]; also the coefficient form 2/(1+sqrt(1+8CT/(pi J^2)))
     eta = prop.froude_efficiency(2.0, 10.0, RHO0, D_10IN_M)
     assert eta == pytest.approx(0.87629, rel=1e-4)
     n = 100.0
@@ -94,7 +94,7 @@ def test_froude_efficiency_prop_7() -> None:
 
 
 def test_tip_mach_and_reynolds_prop_8() -> None:
-    # physics.md PROP-8 [CALC] with [LIB] ambiance a = 340.294, fluids mu = 1.78938e-5; c = 0.197 R (UIUC geom)
+    # PROP-8 [CALC] with [LIB] ambiance a = 340.294, fluids mu = 1.78938e-5; c = 0.197 R (UIUC geom)
     omega = 817.479
     assert prop.tip_speed_m_s(omega, D_10IN_M) == pytest.approx(103.82, rel=1e-3)
     assert prop.tip_mach_number(omega, D_10IN_M, 340.294) == pytest.approx(0.3051, rel=1e-3)
@@ -108,12 +108,12 @@ def test_tip_mach_and_reynolds_prop_8() -> None:
     (0.125903, 0.110555, 0.3224),  # UIUC ff_4.2x4_static_0615rd @ 4006.667 rpm (Vol. 2, Deters et al. 2014)
 ])
 def test_figure_of_merit_of_uiuc_rows_prop_9(ct: float, cp: float, fm: float) -> None:
-    # physics.md PROP-9 [DATA] + [CALC]; tol 1e-3
+    # PROP-9 [DATA] + [CALC]; tol 1e-3
     assert prop.figure_of_merit(ct, cp) == pytest.approx(fm, rel=1e-3)
 
 
-def test_thrust_and_torque_constants_match_section_4() -> None:
-    # physics.md §4 header [CALC]: kT = 2.019984e-5, kQ = 3.983727e-7 for the 10x7 @ 5015 rpm coefficients
+def test_thrust_and_torque_constants_of_the_op_cases() -> None:
+    # docs/model-reference.md#operating-point-check-cases [CALC]: kT = 2.019984e-5, kQ = 3.983727e-7 (PROP-1)
     assert prop.thrust_constant_n_s2(0.1564, RHO0, D_10IN_M) == pytest.approx(2.019984e-5, rel=1e-6)
     assert prop.torque_constant_nm_s2(0.0763, RHO0, D_10IN_M) == pytest.approx(3.983727e-7, rel=1e-6)
 
@@ -144,7 +144,8 @@ def test_padded_interpolation_equals_numpy_interp_per_row() -> None:
     assert ct.shape == (6, 2)
     for row in range(2):
         valid = ~np.isnan(table.axis_values[row])
-        # numpy.interp holds the end values outside the table, like the reference model (physics.md v1 item 2)
+        # numpy.interp holds the end values outside the table, like the reference model
+        # (docs/model-reference.md#reference-model-v1 item 2)
         np.testing.assert_allclose(ct[:, row], np.interp(rpm[:, 0], table.axis_values[row, valid],
                                                          table.thrust_coefficient[row, valid]), rtol=1e-12)
         np.testing.assert_allclose(cp[:, row], np.interp(rpm[:, 0], table.axis_values[row, valid],

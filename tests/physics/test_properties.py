@@ -1,6 +1,6 @@
 """Hypothesis properties of the operating-point engine over random but plausible power systems.
 
-Parameter ranges follow the typical-parameter tables of physics.md §3 and §5 ([MEM]-typical values).
+Parameter ranges follow the typical-value tables of docs/model-reference.md#motor and #esc ([MEM]-typical values).
 """
 
 from __future__ import annotations
@@ -49,7 +49,8 @@ def systems(draw: st.DrawFn) -> dict[str, object]:
 @SETTINGS
 @given(system=systems(), duty=st.floats(0.2, 1.0))
 def test_energy_balance_closes(system: dict[str, object], duty: float) -> None:
-    # physics.md reference model v1 item 5: V_oc I = R I^2 + N (P_shaft + I^2 R + I0 E + I^2 R_on + P_extra) to 0.1 %
+    # docs/model-reference.md#reference-model-v1 item 5:
+    # V_oc I = R I^2 + N (P_shaft + I^2 R + I0 E + I^2 R_on + P_extra) to 0.1 %
     op = drive.at_duty(duty, **system)  # type: ignore[arg-type]
     if op.status != Status.OK:
         return
@@ -64,7 +65,7 @@ def test_energy_balance_closes(system: dict[str, object], duty: float) -> None:
 @SETTINGS
 @given(system=systems(), fraction=st.floats(0.05, 0.95))
 def test_no_hover_point_beats_the_momentum_ideal(system: dict[str, object], fraction: float) -> None:
-    # physics.md reference model v1 item 8 / Leishman 2006: P_shaft >= T^1.5 / sqrt(2 rho A)
+    # docs/model-reference.md#reference-model-v1 item 8 / Leishman 2006: P_shaft >= T^1.5 / sqrt(2 rho A)
     full = drive.full_throttle(**system)  # type: ignore[arg-type]
     if full.status != Status.OK:
         return
@@ -92,7 +93,7 @@ def test_thrust_rises_with_duty(system: dict[str, object], duties: list[float]) 
 @SETTINGS
 @given(system=systems(), ratio=st.floats(1.15, 2.5))
 def test_higher_voltage_at_partial_duty_costs_more_bus_power(system: dict[str, object], ratio: float) -> None:
-    # physics.md ESC-1/ESC-2 (Mohan 2003 / Erickson 2001): same rpm and thrust, stiff buses at V and ratio x V:
+    # ESC-1/ESC-2 (Mohan 2003 / Erickson 2001): same rpm and thrust, stiff buses at V and ratio x V:
     # P_bus(high V, d < 1) - P_bus(low V, d = 1) = P_extra > 0, and the drive efficiency is higher at d = 1
     stiff = {**system, "pack_resistance_ohm": 0.0}
     low = drive.full_throttle(**stiff)  # type: ignore[arg-type]
@@ -142,7 +143,8 @@ def test_vectorised_equals_scalar_brentq(system: dict[str, object], duty: float,
 
 def test_thrust_falls_with_duty_beyond_maximum_power_transfer() -> None:
     # The hypothesis counterexample above, kept as a regression: V_bus < V_oc / 2 at d = 1, so d = 0.5 gives more
-    # thrust than d = 1 (physics of a source with internal resistance; §4 closed form R' + N d^2 R_b).
+    # thrust than d = 1 (physics of a source with internal resistance; docs/model-reference.md#operating-point:
+    # R' + N d^2 R_b).
     data = read_csv(REFERENCE_DIR / PROPS["sf_10x4.7_b2"]["static_file"])
     system = {"motor": MotorParams(1695.0, 0.0625, 1.0, inductance_h=279.5e-6),
               "esc": EscParams(on_path_resistance_ohm=0.015625, switching_frequency_hz=8000.0),

@@ -59,7 +59,7 @@ def test_static_table_predicts_coefficient_thrust_and_power(prop_id: str) -> Non
 
 @pytest.mark.parametrize("prop_id", STATIC_IDS)
 def test_static_table_is_held_constant_outside_its_range(prop_id: str) -> None:
-    # physics.md reference model v1 item 2: held constant outside the table
+    # docs/model-reference.md#reference-model-v1 item 2: held constant outside the table
     table, data = _static_table(prop_id)
     lo, hi = np.argmin(data["rpm"]), np.argmax(data["rpm"])
     ct, cp = prop.coefficients_at(table, np.array([0.3, 3.0]) * np.array([data["rpm"][lo], data["rpm"][hi]])

@@ -1,4 +1,4 @@
-"""Sizing rules: physics.md RULE-1..5 (common practice [CP], flight mechanics per Anderson 1999)."""
+"""Sizing rules: RULE-1..5 (common practice [CP], flight mechanics per Anderson 1999)."""
 
 from __future__ import annotations
 
@@ -12,14 +12,14 @@ from server.physics.propeller import PropellerTable
 
 
 def test_thrust_floor_rule_1() -> None:
-    # physics.md RULE-1 [CP] T/W >= 2 (common practice, no source) + [CALC]; tol 1e-6
+    # RULE-1 [CP] T/W >= 2 (common practice, no source) + [CALC]; tol 1e-6
     assert sizing.weight_n(2.0) == pytest.approx(19.6133, rel=1e-6)
     assert sizing.required_max_thrust_per_rotor_n(2.0, 1) == pytest.approx(39.2266, rel=1e-6)
     assert sizing.required_max_thrust_per_rotor_n(2.0, 4) == pytest.approx(9.8066, rel=1e-5)  # printed 5 digits
 
 
 def test_op_5_system_rule_2() -> None:
-    # physics.md RULE-2 [CALC]: the OP-5 quad; T/W 2.1460, hover fraction 0.4660, hover duty 0.5362; tol 1e-4
+    # RULE-2 [CALC]: the OP-5 quad; T/W 2.1460, hover fraction 0.4660, hover duty 0.5362; tol 1e-4
     system = {"motor": MotorParams(920.0, 0.10, 0.5, inductance_h=np.inf), "esc": EscParams.lossless_switching(0.0),
               "propeller": PropellerTable.constant(0.254, 0.1564, 0.0763), "open_circuit_voltage_v": 12.0,
               "pack_resistance_ohm": 0.030, "rotor_count": 4}
@@ -30,12 +30,12 @@ def test_op_5_system_rule_2() -> None:
     assert ratio >= sizing.DEFAULT_THRUST_TO_WEIGHT
     assert hover.thrust_n / full.thrust_n == pytest.approx(0.4660, rel=1e-4)
     assert hover.duty == pytest.approx(0.5362, rel=1e-4)
-    # physics.md §7: the hover duty is neither the thrust fraction nor its square root
+    # docs/model-reference.md#sizing-rules: the hover duty is neither the thrust fraction nor its square root
     assert abs(hover.duty - 0.4660) > 0.05 and abs(hover.duty - np.sqrt(0.4660)) > 0.1
 
 
 def test_fixed_wing_rule_3() -> None:
-    # physics.md RULE-3 [PUB] flight mechanics (Anderson 1999) + [CALC]; tol 1e-4
+    # RULE-3 [PUB] flight mechanics (Anderson 1999) + [CALC]; tol 1e-4
     cruise = sizing.fixed_wing_cruise_thrust_n(20.0, 10.0)
     climb = sizing.fixed_wing_climb_thrust_n(20.0, 10.0, 3.0, 15.0)
     assert cruise == pytest.approx(2.000, rel=1e-4)
@@ -46,12 +46,12 @@ def test_fixed_wing_rule_3() -> None:
 
 
 def test_esc_margin_rule_4() -> None:
-    # physics.md RULE-4 [CP] ESC 1.2-1.3 x the d = 1 current (common practice, no source) + [CALC]
+    # RULE-4 [CP] ESC 1.2-1.3 x the d = 1 current (common practice, no source) + [CALC]
     low, high = sizing.esc_current_rating_a(26.1484, np.array(sizing.ESC_CURRENT_MARGIN_RANGE))
     assert low == pytest.approx(31.378, rel=1e-4)
     assert high == pytest.approx(33.993, rel=1e-4)
 
 
 def test_hover_fraction_rule_5() -> None:
-    # physics.md RULE-5 [CALC]; exact
+    # RULE-5 [CALC]; exact
     np.testing.assert_allclose(sizing.hover_thrust_fraction([2.0, 3.0, 4.0]), [0.5, 1 / 3, 0.25], rtol=1e-15)

@@ -13,7 +13,8 @@ from server.physics.propeller import PropellerTable
 
 
 def test_drive_efficiency_is_best_near_full_throttle() -> None:
-    # trade fact (common practice, no source); model per physics.md §5 (Mohan 2003 / Erickson 2001 loss terms).
+    # trade fact (common practice, no source); model per docs/model-reference.md#esc (Mohan 2003 / Erickson 2001
+    # loss terms).
     # Motor 920 Kv / 0.10 Ω / 0.5 A and the 10x7 prop (UIUC sf_10x7 @ 5015 rpm, Brandt & Selig 2011).
     motor = MotorParams(920.0, 0.10, 0.5)
     propeller = PropellerTable.constant(0.254, 0.1564, 0.0763)

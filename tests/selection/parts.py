@@ -1,7 +1,8 @@
-"""Small hand-made part libraries for the selection tests (values inside physics.md's typical ranges).
+"""Small hand-made part libraries for the selection tests (values inside the typical ranges of docs/model-reference.md).
 
 Invented parts, not from ``seed_data/``. Where a number comes from a published source it is named beside it;
-everything else is an illustrative value in the typical ranges of physics.md §2, §3, §5 and §6.
+everything else is an illustrative value inside the typical values of docs/model-reference.md (propeller, motor,
+ESC and battery-pack sections).
 """
 
 from __future__ import annotations
@@ -18,7 +19,10 @@ INF = float("inf")
 
 
 def packs() -> PackLibrary:
-    """3S 5.0 Ah, 4S 5.0 Ah and 6S 3.0 Ah LiPo packs (r per cell 4-8 mΩ, physics.md §6 typical)."""
+    """3S 5.0 Ah, 4S 5.0 Ah and 6S 3.0 Ah LiPo packs (r per cell 4-8 mΩ).
+
+    Typical values: docs/model-reference.md#battery-pack-typical-values.
+    """
     return PackLibrary(ids=np.array([11, 12, 13]), cells_series=[3, 4, 6], cells_parallel=[1, 1, 1],
                        capacity_ah=[5.0, 5.0, 3.0], cell_resistance_ohm=[0.006, 0.006, 0.008],
                        full_voltage_per_cell_v=[4.2, 4.2, 4.2], max_continuous_c=[25.0, 25.0, 30.0],
@@ -34,7 +38,7 @@ def escs() -> EscLibrary:
 
 
 def motors() -> MotorLibrary:
-    """Kv 920 / 700 / 400 rpm/V motors of the 8-15 in class (physics.md §3 typical R, I0, L)."""
+    """Kv 920 / 700 / 400 rpm/V motors of the 8-15 in class (docs/model-reference.md#motor-typical-values)."""
     return MotorLibrary(ids=np.array([31, 32, 33]), kv_rpm_per_v=[920.0, 700.0, 400.0],
                         resistance_ohm=[0.10, 0.12, 0.20], no_load_current_a=[0.5, 0.4, 0.3],
                         inductance_h=[30e-6, NAN, 60e-6], max_current_a=[30.0, 28.0, 20.0], max_cells=[4, 6, INF],
@@ -43,7 +47,8 @@ def motors() -> MotorLibrary:
 
 def static_rows() -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
     """Static tables: 10x4.7 rows of UIUC ``sf_10x4.7_static_kt0835.txt`` (Brandt & Selig 2011, as quoted in
-    physics.md §2); an invented constant 12 in pair; an invented 15 in table (CT up, CP down with rpm)."""
+    docs/model-reference.md#propeller-typical-values); an invented constant 12 in pair; an invented 15 in table
+    (CT up, CP down with rpm)."""
     return [
         (np.array([2377.0, 4029.0, 5147.0, 6528.0]), np.array([0.1059, 0.1158, 0.1237, 0.1299]),
          np.array([0.0431, 0.0466, 0.0500, 0.0531])),
@@ -53,7 +58,10 @@ def static_rows() -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
 
 
 def forward_rows() -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
-    """Invented forward tables versus J (CT falling with J, eta_p peaking near 0.6-0.7, physics.md §2)."""
+    """Invented forward tables versus J (CT falling with J, eta_p peaking near 0.6-0.7).
+
+    Typical values: docs/model-reference.md#propeller-typical-values.
+    """
     return [
         (np.array([0.0, 0.2, 0.4, 0.6, 0.8]), np.array([0.128, 0.118, 0.098, 0.070, 0.035]),
          np.array([0.052, 0.052, 0.048, 0.040, 0.027])),

@@ -43,7 +43,10 @@ METRICS = ("mass_kg", "electrical_power_w", "pack_current_a", "specific_thrust_g
 
 
 def random_library(seed: int, n_packs: int = 7, n_escs: int = 6, n_motors: int = 9, n_props: int = 10) -> PartsLibrary:
-    """Invented parts in physics.md's typical ranges; half the ESCs without loss data (repeated defaults)."""
+    """Invented parts in the typical ranges of docs/model-reference.md; half the ESCs without loss data.
+
+    (The ESCs without loss data repeat the defaults.)
+    """
     rng = np.random.default_rng(seed)
     cells = rng.integers(3, 7, n_packs).astype(float)
     cap = rng.uniform(1.5, 8.0, n_packs)

@@ -1,11 +1,11 @@
-"""Calibration: fit the reference model's parameters to measured bench runs (physics.md reference model v1).
+"""Calibration: fit the reference model's parameters to measured bench runs (docs/model-reference.md#calibration).
 
 Measured data wins over defaults: the fitted values replace the datasheet/default values of the motor
 (Kv, line-to-line R including the ESC conduction path, I0), the ESC (the calibrated partial-throttle
 coefficient ``k_pwm`` of ``P_pwm = k_pwm V_bus I d (1 - d)``) and the propeller (static CT and CP versus rpm).
 
-The model fitted is exactly the one :func:`~.drive.for_thrust` evaluates (averaged switch plus every §5
-partial-throttle term), per sample at the measured shaft speed and bus voltage:
+The model fitted is exactly the one :func:`~.drive.for_thrust` evaluates (averaged switch plus every
+partial-throttle term of docs/model-reference.md#esc), per sample at the measured shaft speed and bus voltage:
 
 ``Q = CP(rpm) rho n^2 D^5 / 2pi``, ``I = I0 + Kv Q``, ``V_m = Omega / Kv + I R'``, ``d = V_m / V_bus``,
 ``P_bus = V_m I + P_extra(V_bus, d, I)``.

@@ -355,7 +355,7 @@ def fit_joint(runs: Sequence[RunData], *, esc: EscParams | None = None,
     runs : sequence of RunData
         Usable samples of every run (any mix of motors, propellers and supply voltages; one ESC).
     esc : EscParams, optional
-        ESC defaults (physics.md) for every term not fitted.
+        ESC defaults (docs/model-reference.md#reference-model-v1) for every term not fitted.
     motor_priors : mapping motor id -> MotorPrior, optional
         Datasheet values: Kv label (prior sigma 15 %), R and I0 (50 %); also the values a non-identified
         parameter is kept at.
