@@ -1,4 +1,8 @@
-"""Shared fixtures: a migrated SQLite file per test (copied from one migrated template), app, clients."""
+"""Shared fixtures: a migrated SQLite file per test (copied from one migrated template), app, clients.
+
+A test marked ``demo_data`` starts from a copy of a template that already holds the invented demo scenario
+(seeded once per session: the bench sweeps and their calibrations take a few seconds).
+"""
 
 from __future__ import annotations
 
@@ -12,6 +16,7 @@ from fastapi.testclient import TestClient
 
 from server import migrate
 from server.config import Settings
+from server.db import make_engine, make_sessionmaker, transaction
 from server.main import create_app
 
 TEST_SECRET = "test-secret-key-0123456789abcdef"
@@ -36,10 +41,28 @@ def migrated_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return path
 
 
-@pytest.fixture
-def db_url(migrated_template: Path, tmp_path: Path) -> str:
-    path = tmp_path / "test.db"
+@pytest.fixture(scope="session")
+def demo_template(migrated_template: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    from server.services import seed
+
+    path = tmp_path_factory.mktemp("demo") / "demo.db"
     shutil.copy(migrated_template, path)
+    url = f"sqlite:///{path}"
+    engine = make_engine(url)
+    with transaction(make_sessionmaker(engine)) as session:
+        seed.load_demo(session, settings=make_settings(url))
+    with engine.connect() as connection:  # fold the WAL into the file so that a plain copy carries everything
+        connection.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
+    engine.dispose()
+    return path
+
+
+@pytest.fixture
+def db_url(request: pytest.FixtureRequest, migrated_template: Path, tmp_path: Path) -> str:
+    template = (request.getfixturevalue("demo_template") if request.node.get_closest_marker("demo_data")
+                else migrated_template)
+    path = tmp_path / "test.db"
+    shutil.copy(template, path)
     return f"sqlite:///{path}"
 
 

@@ -119,15 +119,13 @@ def make_library(client: TestClient, team: TeamFixture, rotors: int = 4) -> dict
     return ids
 
 
-def load_demo(app: FastAPI) -> tuple[dict[str, str], dict[str, int]]:
-    """Load the invented demo scenario; returns a write key's headers and the demo missions' ids by name."""
+def demo_key(app: FastAPI) -> tuple[dict[str, str], dict[str, int]]:
+    """A write key of the demo team (test marked ``demo_data``) and the demo missions' ids by name."""
     from sqlalchemy import select
 
     from server.models import Mission
-    from server.services import seed
 
     with transaction(app.state.sessionmaker) as session:
-        seed.load_demo(session, settings=app.state.settings)
         team = teams.get_team_by_name(session, name="Northfold Survey")
         _, key = teams.create_api_key(session, team_id=team.id, scope="write")
         missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}

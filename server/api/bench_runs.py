@@ -11,7 +11,7 @@ from pydantic import ValidationError
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.errors import FieldError, InvalidInput
-from server.schemas.bench_runs import BenchRunMeta
+from server.schemas.bench_runs import BenchRunDetail, BenchRunMeta, BenchRunSummary, BenchRunUploaded
 from server.services import bench_runs as bench_service
 from server.services._validation import field_errors
 from server.uploads import read_upload
@@ -32,7 +32,7 @@ def parse_meta(text: str) -> BenchRunMeta:
                                                 for e in field_errors(exc)]) from None
 
 
-@router.post("/bench-runs", status_code=201)
+@router.post("/bench-runs", status_code=201, response_model=BenchRunUploaded)
 def upload(
     caller: WriterDep, session: SessionDep,
     file: Annotated[UploadFile, File(description="Bench-run CSV (unit-suffixed headers)")],
@@ -53,7 +53,7 @@ def upload(
     return {**bench_service.run_summary(run), "flags": flags, "calibration": calibration}
 
 
-@router.get("/bench-runs")
+@router.get("/bench-runs", response_model=list[BenchRunSummary])
 def list_runs(caller: CallerDep, session: SessionDep,
               part_kind: Annotated[str | None, Query(pattern="^(batteries|escs|motors|propellers)$")] = None,
               part_id: Annotated[int | None, Query(ge=1, le=2**63 - 1)] = None) -> list[dict[str, Any]]:
@@ -62,7 +62,7 @@ def list_runs(caller: CallerDep, session: SessionDep,
                                                                            part_kind=part_kind, part_id=part_id)]
 
 
-@router.get("/bench-runs/{run_id}")
+@router.get("/bench-runs/{run_id}", response_model=BenchRunDetail)
 def read_run(caller: CallerDep, session: SessionDep, run_id: IdPath) -> dict[str, Any]:
     """A run with every sample, its derived quantities, flag, the model's prediction there, and calibrations."""
     return bench_service.run_detail(session, team_id=caller.team_id, run_id=run_id)

@@ -7,13 +7,13 @@ from typing import Any
 from fastapi import APIRouter, Request, Response
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
-from server.schemas.fleet import FleetPlanCreate
+from server.schemas.fleet import FleetPlanCreate, FleetPlanStarted, FleetPlanStatus
 from server.services import fleet as fleet_service
 
 router = APIRouter(prefix="/fleet-plans", tags=["fleet plans"])
 
 
-@router.post("", status_code=202)
+@router.post("", status_code=202, response_model=FleetPlanStarted)
 def start_plan(
     caller: WriterDep, session: SessionDep, request: Request, data: FleetPlanCreate, response: Response
 ) -> dict[str, Any]:
@@ -25,13 +25,13 @@ def start_plan(
     return {"id": row.id, "status": row.status}
 
 
-@router.get("")
+@router.get("", response_model=list[FleetPlanStatus])
 def list_plans(caller: CallerDep, session: SessionDep) -> list[dict[str, Any]]:
     """The team's fleet plans (newest first)."""
     return [fleet_service.status(p) for p in fleet_service.list_all(session, team_id=caller.team_id)]
 
 
-@router.get("/{plan_id}")
+@router.get("/{plan_id}", response_model=FleetPlanStatus)
 def read_plan(caller: CallerDep, session: SessionDep, plan_id: IdPath) -> dict[str, Any]:
     """Status, the optimal plan (objective, assignments, stocked part ids) and the trade-off curve."""
     return fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))

@@ -10,7 +10,7 @@ from pydantic import BaseModel
 
 from server.api._http import parse_if_match, set_etag
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
-from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS, UPDATE_SCHEMAS
+from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS, UPDATE_SCHEMAS, PartsImported
 from server.services import parts as parts_service
 from server.uploads import read_upload
 
@@ -91,7 +91,8 @@ def _add_kind_routes(kind: str) -> None:
             headers={"Content-Disposition": f'attachment; filename="{kind}.csv"'},
         )
 
-    @router.post(f"/{kind}/import", status_code=201, summary=f"Import {many.lower()} from CSV (all rows or none)")
+    @router.post(f"/{kind}/import", status_code=201, response_model=PartsImported,
+                 summary=f"Import {many.lower()} from CSV (all rows or none)")
     def import_kind(
         caller: WriterDep, session: SessionDep, file: Annotated[UploadFile, File(description="CSV file")]
     ) -> dict[str, Any]:

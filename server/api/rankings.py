@@ -7,7 +7,7 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Query, Request, Response
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
-from server.schemas.rankings import RankingCreate, RankingStarted
+from server.schemas.rankings import ParetoSet, RankingCreate, RankingResultsPage, RankingStarted, RankingStatus
 from server.services import rankings as rankings_service
 
 router = APIRouter(prefix="/rankings", tags=["rankings"])
@@ -38,7 +38,7 @@ def start_ranking(
     return {"id": row.id, "status": row.status}
 
 
-@router.get("")
+@router.get("", response_model=list[RankingStatus])
 def list_rankings(
     caller: CallerDep, session: SessionDep, mission_id: Annotated[int | None, Query(ge=1, le=2**63 - 1)] = None
 ) -> list[dict[str, Any]]:
@@ -49,7 +49,7 @@ def list_rankings(
     ]
 
 
-@router.get("/{ranking_id}")
+@router.get("/{ranking_id}", response_model=RankingStatus)
 def ranking_status(caller: CallerDep, session: SessionDep, ranking_id: IdPath) -> dict[str, Any]:
     """Status, progress 0–1, counts per rejection reason, engine version and elapsed time."""
     return rankings_service.status(rankings_service.get(session, team_id=caller.team_id, ranking_id=ranking_id))
@@ -71,7 +71,7 @@ def _filters(
     }
 
 
-@router.get("/{ranking_id}/results")
+@router.get("/{ranking_id}/results", response_model=RankingResultsPage)
 def ranking_results(
     caller: CallerDep,
     session: SessionDep,
@@ -98,7 +98,7 @@ def ranking_results(
     return {"items": items, "total": total, "page": page, "page_size": page_size}
 
 
-@router.get("/{ranking_id}/pareto")
+@router.get("/{ranking_id}/pareto", response_model=ParetoSet)
 def ranking_pareto(
     caller: CallerDep, session: SessionDep, ranking_id: IdPath, sort: SortQuery = "endurance_min"
 ) -> dict[str, Any]:
@@ -109,7 +109,7 @@ def ranking_pareto(
     return {"items": items, "total": total}
 
 
-@router.post("/{ranking_id}/cancel")
+@router.post("/{ranking_id}/cancel", response_model=RankingStatus)
 def cancel_ranking(caller: WriterDep, session: SessionDep, ranking_id: IdPath) -> dict[str, Any]:
     """Ask a queued or running ranking to stop."""
     row = rankings_service.cancel(session, team_id=caller.team_id, ranking_id=ranking_id)

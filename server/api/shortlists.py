@@ -8,9 +8,11 @@ from fastapi import APIRouter, Query, Response
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.shortlists import (
+    CompareRead,
     EntryCreate,
     EntryRead,
     EntryUpdate,
+    ReEvaluation,
     Reorder,
     ShortlistCreate,
     ShortlistRead,
@@ -103,7 +105,7 @@ def reorder(caller: WriterDep, session: SessionDep, shortlist_id: IdPath, data: 
     return shortlists_service.read(session, row)
 
 
-@router.post("/{shortlist_id}/re-evaluate")
+@router.post("/{shortlist_id}/re-evaluate", response_model=ReEvaluation)
 def re_evaluate(caller: WriterDep, session: SessionDep, shortlist_id: IdPath) -> dict[str, Any]:
     """Recompute every entry with the current engine and calibrations; says what changed."""
     changes = shortlists_service.re_evaluate(session, team_id=caller.team_id, shortlist_id=shortlist_id)
@@ -111,7 +113,7 @@ def re_evaluate(caller: WriterDep, session: SessionDep, shortlist_id: IdPath) ->
     return {"changes": changes}
 
 
-@router.get("/{shortlist_id}/compare.json")
+@router.get("/{shortlist_id}/compare.json", response_model=CompareRead)
 def compare(caller: CallerDep, session: SessionDep, shortlist_id: IdPath) -> dict[str, Any]:
     """Every number of the compare page, freshly evaluated, with the best value per row."""
     return shortlists_service.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)

@@ -17,7 +17,7 @@ def cmd_predict(args: argparse.Namespace, settings: Settings) -> int:
     """Predict from a JSON request (file or stdin); parts by id need --team. Invalid input exits 2."""
     import json
 
-    from server.schemas.predict import PredictRequest
+    from server.schemas.predict import PredictRequest, PredictResponse
     from server.services import predict as predict_service
     from server.services import teams
     from server.services._validation import field_errors
@@ -46,7 +46,8 @@ def cmd_predict(args: argparse.Namespace, settings: Settings) -> int:
         except DomainError as exc:
             print(f"liftmatch: invalid input: {exc}", file=sys.stderr)
             return 2
-    json.dump(result, sys.stdout, indent=2)
+    # the API's response document, field for field
+    json.dump(PredictResponse.model_validate(result).model_dump(mode="json"), sys.stdout, indent=2)
     sys.stdout.write("\n")
     return 0
 

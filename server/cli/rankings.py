@@ -8,6 +8,7 @@ import sys
 from server.cli._common import AddCommand, CliError, session_factory
 from server.config import Settings
 from server.db import transaction
+from server.selection.result import OBJECTIVES
 
 
 def cmd_rank(args: argparse.Namespace, settings: Settings) -> int:
@@ -100,7 +101,7 @@ def register(add: AddCommand) -> None:
     p = add("rank", cmd_rank, "rank every power system of the team's library for a mission")
     p.add_argument("--mission", type=int, required=True, help="mission id")
     p.add_argument(
-        "--objective", default="cruise_power", choices=["cruise_power", "endurance", "specific_thrust", "mass", "cost"]
+        "--objective", default="cruise_power", choices=OBJECTIVES
     )
     p.add_argument("--top", type=int, default=50, help="candidates to refine and list (1-500)")
     p.add_argument("--json", action="store_true", help="print the status and results as JSON")

@@ -82,12 +82,7 @@ def predict_page(request: Request, caller: PageCaller, session: SessionDep) -> H
             model = PredictRequest.model_validate(build_request(q))
             result = predict_service.predict(session, caller.team_id, model)
             system = predict_service.System(session, caller.team_id, model)
-            chart = {"curve": predict_service.curve(system), "points": [
-                {"thrust_n": p["thrust_n"], "electrical_power_w": p["electrical_power_w"],
-                 "specific_thrust_g_per_w": p["specific_thrust_g_per_w"], "label": next(iter(p["request"].items()))}
-                for p in result["points"] if p["thrust_n"] is not None],
-                "losses": [{"label": f"{k} {v:g}", **p["losses_w"]}
-                           for p in result["points"] for k, v in p["request"].items()]}
+            chart = predict_service.chart_data(system, result)
         except (ValidationError, DomainError) as exc:
             errors = error_lines(exc)
     return render(request, "pages/predict.html", {

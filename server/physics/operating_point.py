@@ -17,6 +17,18 @@ from ._problem import Problem
 from ._types import RPM_PER_RAD_S, ArrayLike, FloatArray, IntArray, Status
 from .propeller import coefficients_at, figure_of_merit, specific_thrust_g_per_w
 
+LOSS_TERMS: tuple[tuple[str, str, str], ...] = (
+    ("motor_copper_w", "motor_copper_loss_w", "motor copper"),
+    ("motor_no_load_w", "motor_no_load_loss_w", "motor no-load"),
+    ("esc_conduction_w", "esc_conduction_loss_w", "ESC conduction"),
+    ("pwm_ripple_w", "pwm_ripple_loss_w", "PWM ripple"),
+    ("switching_w", "switching_loss_w", "switching"),
+    ("dead_time_w", "dead_time_loss_w", "dead time"),
+    ("input_capacitor_w", "input_capacitor_loss_w", "input capacitor"),
+    ("calibrated_pwm_w", "calibrated_pwm_loss_w", "calibrated PWM"),
+)
+"""The loss terms of one rotor: (name in every API and page, :class:`OperatingPoint` attribute, label)."""
+
 
 @dataclass(frozen=True)
 class OperatingPoint:

@@ -1,12 +1,15 @@
-"""Request models for bench runs and calibrations."""
+"""Request and response models for bench runs."""
 
 from __future__ import annotations
 
+from datetime import datetime
 from typing import TYPE_CHECKING, TypeAlias
 
-from pydantic import BaseModel, ConfigDict, model_validator
+from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged, text
+from server.schemas.calibrations import CalibrationOutcome, CalibrationRead
+from server.schemas.evaluation import Result
 
 if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
     Id: TypeAlias = int
@@ -39,7 +42,63 @@ class BenchRunMeta(BaseModel):
         return self
 
 
-class CalibrationSwitch(BaseModel):
-    model_config = ConfigDict(extra="forbid")
+class BenchRunSummary(Result):
+    """A stored bench run (without its samples)."""
 
-    active: bool
+    id: int
+    name: str
+    motor_id: int
+    propeller_id: int
+    esc_id: int
+    pack_id: int | None = None
+    supply_voltage_v: float | None = None
+    altitude_m: float | None = None
+    air_temperature_c: float | None = None
+    air_pressure_pa: float | None = None
+    throttle_offset: float | None = None
+    throttle_scale: float | None = None
+    air_density_kg_m3: float = Field(description="Air density the run's coefficients use [kg/m^3]")
+    filename: str = ""
+    notes: str = ""
+    sample_count: int
+    flagged_count: int = Field(description="Samples kept but not fitted (e.g. a collapsed supply)")
+    created_at: datetime
+
+
+class BenchRunUploaded(BenchRunSummary):
+    """An upload's stored run, its flags per reason and what the calibration stored."""
+
+    flags: dict[str, int] = Field(default_factory=dict, description="Flagged samples per reason")
+    calibration: CalibrationOutcome | None = None
+
+
+class BenchSampleRead(Result):
+    """One sample with its derived quantities, flag and the (calibrated) model at its thrust."""
+
+    throttle: float | None = None
+    bus_voltage_v: float | None = None
+    bus_current_a: float | None = None
+    rpm: float | None = None
+    thrust_n: float | None = None
+    torque_nm: float | None = None
+    temperature_c: float | None = None
+    flag: str | None = None
+    flag_text: str | None = None
+    air_density_kg_m3: float | None = None
+    electrical_power_w: float | None = None
+    thrust_coefficient: float | None = None
+    power_coefficient: float | None = None
+    shaft_power_w: float | None = None
+    drive_efficiency: float | None = None
+    specific_thrust_g_per_w: float | None = None
+    model_electrical_power_w: float | None = None
+    model_bus_current_a: float | None = None
+    residual_power: float | None = Field(default=None, description="(model − measured) ÷ measured power")
+
+
+class BenchRunDetail(Result):
+    """A run, every sample, and the latest calibration of each of its parts."""
+
+    run: BenchRunSummary
+    samples: list[BenchSampleRead]
+    calibrations: dict[str, CalibrationRead | None]

@@ -180,3 +180,10 @@ class PartPage(BaseModel):
     total: int
     page: int
     page_size: int
+
+
+class PartsImported(BaseModel):
+    """What a CSV import created (all rows or none)."""
+
+    created: int
+    ids: list[int]

@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Any, Literal, TypeAlias
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged
+from server.schemas.evaluation import LossBreakdown
 from server.schemas.parts import ForwardRow, StaticRow
 
 if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
@@ -146,6 +147,8 @@ class PredictRequest(BaseModel):
 
 
 class Losses(BaseModel):
+    """``losses_w``: the first API version's names of :class:`LossBreakdown`'s values (kept for scripts)."""
+
     motor_copper: float | None
     motor_no_load: float | None
     esc_conduction: float | None
@@ -179,6 +182,7 @@ class PointOut(BaseModel):
     electrical_power_w: float | None
     drive_efficiency: float | None
     specific_thrust_g_per_w: float | None
+    losses: LossBreakdown = Field(description="Every loss term of one rotor at this point [W]")
     losses_w: Losses
     craft: Craft
     warnings: list[str]

@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING, Any, TypeAlias
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged, text
+from server.schemas.evaluation import CandidateEvaluation, Result
 
 if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
     Id: TypeAlias = int
@@ -95,3 +96,68 @@ class ShortlistRead(BaseModel):
     created_at: datetime
     updated_at: datetime
     entries: list[EntryRead]
+
+
+class ComparePart(Result):
+    id: int
+    name: str
+    maker: str | None = None
+    part_number: str | None = None
+    mass_g: float | None = None
+    unit_cost: float | None = None
+    currency: str | None = None
+    archived: bool = False
+
+
+class CompareEntry(Result):
+    """One candidate of the comparison, freshly evaluated with the current engine and calibrations."""
+
+    entry_id: int
+    position: int
+    note: str = ""
+    added_by: str | None = None
+    added_at: datetime
+    from_ranking: int | None = None
+    calibrated: dict[str, list[str]] = Field(default_factory=dict, description="Calibrated parameters per kind")
+    parts: dict[str, ComparePart | None]
+    packs_in_parallel: int
+    metrics: CandidateEvaluation
+    snapshot_engine_version: str | None = None
+    changed_since_snapshot: bool = False
+
+
+class CompareRow(Result):
+    """One compared quantity: a value per entry and which entries are best."""
+
+    group: str
+    key: str
+    label: str
+    unit: str
+    better: str | None = Field(default=None, description="low | high | None (not compared)")
+    values: list[Any]
+    best: list[int] = Field(default_factory=list, description="Positions (0-based) of the best entries")
+
+
+class CompareRead(Result):
+    """The side-by-side comparison of a shortlist."""
+
+    shortlist: dict[str, Any]
+    mission: dict[str, Any]
+    required_thrust_per_rotor_n: list[float | None]
+    engine_version: str
+    entries: list[CompareEntry]
+    rows: list[CompareRow]
+
+
+class EntryChange(Result):
+    """What a re-evaluation changed for one entry."""
+
+    entry_id: int
+    engine_version_before: str | None = None
+    engine_version_after: str
+    changed: dict[str, dict[str, Any]] = Field(default_factory=dict,
+                                               description="Per quantity: {before, after}")
+
+
+class ReEvaluation(Result):
+    changes: list[EntryChange]

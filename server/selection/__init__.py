@@ -9,10 +9,12 @@ Pure numpy/scipy on top of :mod:`server.physics` (no DB, no I/O). Layers, as in 
 - :mod:`.rank` the orchestrator :func:`rank`.
 """
 
+from server.physics import ENGINE_VERSION
+
 from .constraints import REASONS
 from .library import EscLibrary, MissionSpec, MotorLibrary, PackLibrary, PartsLibrary, PropellerLibrary
 from .rank import rank
-from .result import ENGINE_VERSION, OBJECTIVES, CandidateRow, RankingOutcome
+from .result import OBJECTIVES, CandidateRow, RankingOutcome
 
 __all__ = [
     "ENGINE_VERSION", "OBJECTIVES", "REASONS", "CandidateRow", "EscLibrary", "MissionSpec", "MotorLibrary",

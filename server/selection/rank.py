@@ -9,13 +9,14 @@ from multiprocessing import get_all_start_methods, get_context
 
 import numpy as np
 
+from server.physics import ENGINE_VERSION
 from server.physics.propeller_segments import PropModel
 
 from .constraints import REASONS
 from .enumerate import DEFAULT_CHUNK_SIZE, Chunk, Plan, chunks, plan
 from .library import MissionSpec, PartsLibrary
 from .refine import refine
-from .result import ENGINE_VERSION, OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
+from .result import OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
 from .rows import build_rows
 from .stream import Partial, run_chunks, screen_chunk
 

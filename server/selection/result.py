@@ -3,17 +3,15 @@
 from __future__ import annotations
 
 from dataclasses import asdict, dataclass, field, fields
-from typing import Any, Literal
+from typing import Any, Literal, get_args
 
 import numpy as np
 
-from server.physics import ENGINE_VERSION as PHYSICS_ENGINE_VERSION
-
-ENGINE_VERSION = f"{PHYSICS_ENGINE_VERSION}/rank-1.0"
-"""Stored with every ranking so that a stored result names the engine that produced it."""
+from server.physics import ENGINE_VERSION
 
 Objective = Literal["cruise_power", "endurance", "specific_thrust", "mass", "cost"]
-OBJECTIVES: tuple[str, ...] = ("cruise_power", "endurance", "specific_thrust", "mass", "cost")
+OBJECTIVES: tuple[str, ...] = get_args(Objective)
+"""The objectives a ranking may optimise (lowest cruise power, longest endurance, best g/W, lowest mass, cost)."""
 
 # Metric of each objective and its sense (+1: lower is better, -1: higher is better), in tie-break order.
 _METRIC_ORDER: tuple[tuple[str, str, float], ...] = (

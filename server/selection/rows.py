@@ -41,7 +41,7 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
                                      cr.bus_voltage_v, cr.duty)
         shaft = cr.torque_nm * cr.omega_rad_s
         per_rotor_power = cr.bus_voltage_v * cr.bus_current_a
-        losses = {
+        losses = {  # the names of operating_point.LOSS_TERMS
             "motor_copper_w": cr.motor_current_a**2 * batch.motor_resistance_ohm,
             "motor_no_load_w": batch.no_load_current_a * cr.omega_rad_s / batch.kv_si,
             "esc_conduction_w": cr.motor_current_a**2 * batch.r_on_ohm,

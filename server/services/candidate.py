@@ -19,22 +19,12 @@ from server.models import Battery, Esc, Mission, Motor, Propeller
 from server.physics import drive, endurance, fast, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
-from server.physics.operating_point import OperatingPoint
+from server.physics.operating_point import LOSS_TERMS, OperatingPoint
 from server.services import parts as parts_service
 from server.services import power_system as ps
 from server.services.ranking_inputs import mission_spec_of
 
 G0 = STANDARD_GRAVITY_M_S2
-LOSS_NAMES = [
-    "motor_copper",
-    "motor_no_load",
-    "esc_conduction",
-    "pwm_ripple",
-    "switching",
-    "dead_time",
-    "input_capacitor",
-    "calibrated_pwm",
-]
 
 
 @dataclass(frozen=True)
@@ -114,7 +104,7 @@ def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds)
 
 
 def _losses(op: OperatingPoint) -> dict[str, float | None]:
-    return {name: _f(getattr(op, f"{name}_loss_w")) for name in LOSS_NAMES}
+    return {name: _f(getattr(op, attr)) for name, attr, _ in LOSS_TERMS}
 
 
 def evaluate(
@@ -154,7 +144,9 @@ def evaluate(
             "shaft_power_w": _f(cruise.shaft_power_w),
             "specific_thrust_g_per_w": _f(cruise.specific_thrust_g_per_w),
             "drive_efficiency": _f(cruise.drive_efficiency),
-            "losses_w": _losses(cruise),
+            "losses": _losses(cruise) | {"pack_w": _f(cruise.pack_loss_w)},
+            # the same values under the names of the first API version (kept for scripts that read them)
+            "losses_w": {name.removesuffix("_w"): value for name, value in _losses(cruise).items()},
             "pack_loss_w": _f(cruise.pack_loss_w),
         },
         "full_throttle": {

@@ -12,18 +12,12 @@ from server.errors import FieldError, InvalidInput
 from server.physics import atmosphere, drive, endurance
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
-from server.physics.operating_point import OperatingPoint
+from server.physics.operating_point import LOSS_TERMS, OperatingPoint
 from server.physics.propeller import PropellerTable, tip_mach_number
 from server.schemas.predict import PredictRequest
 from server.services import power_system as ps
 
 TIP_MACH_LIMIT = 0.7  # common practice, no source (docs/model-reference.md#propeller-typical-values)
-LOSS_FIELDS = {
-    "motor_copper": "motor_copper_loss_w", "motor_no_load": "motor_no_load_loss_w",
-    "esc_conduction": "esc_conduction_loss_w", "pwm_ripple": "pwm_ripple_loss_w", "switching": "switching_loss_w",
-    "dead_time": "dead_time_loss_w", "input_capacitor": "input_capacitor_loss_w",
-    "calibrated_pwm": "calibrated_pwm_loss_w",
-}
 POINT_FIELDS = ["rpm", "thrust_n", "torque_nm", "shaft_power_w", "duty", "motor_current_a", "motor_voltage_v",
                 "bus_voltage_v", "bus_current_a", "electrical_power_w", "drive_efficiency", "specific_thrust_g_per_w"]
 
@@ -154,7 +148,9 @@ def _point(system: System, op: OperatingPoint, i: int, request: dict[str, float]
         "request": request,
         "status": Status(int(op.status[i])).name.lower(),
         **{name: _f(getattr(op, name)[i]) for name in POINT_FIELDS},
-        "losses_w": {key: _f(getattr(op, attr)[i]) for key, attr in LOSS_FIELDS.items()},
+        "losses": {name: _f(getattr(op, attr)[i]) for name, attr, _ in LOSS_TERMS},
+        # the same values under the names of the first API version (kept for scripts that read them)
+        "losses_w": {name.removesuffix("_w"): _f(getattr(op, attr)[i]) for name, attr, _ in LOSS_TERMS},
         "craft": craft,
         "warnings": _warnings(system, op, i),
     }
@@ -229,4 +225,16 @@ def curve(system: System, steps: int = 40) -> dict[str, list[float | None]]:
         "electrical_power_w": [float(p) for p in op.electrical_power_w[ok]],
         "specific_thrust_g_per_w": [float(g) for g in op.specific_thrust_g_per_w[ok]],
         "drive_efficiency": [float(e) for e in op.drive_efficiency[ok]],
+    }
+
+
+def chart_data(system: System, result: dict[str, Any]) -> dict[str, Any]:
+    """What the predict page's charts draw: the duty sweep, the requested points and each point's losses."""
+    return {
+        "curve": curve(system),
+        "points": [{"thrust_n": p["thrust_n"], "electrical_power_w": p["electrical_power_w"],
+                    "specific_thrust_g_per_w": p["specific_thrust_g_per_w"], "label": next(iter(p["request"].items()))}
+                   for p in result["points"] if p["thrust_n"] is not None],
+        "losses": [{"label": f"{k} {v:g}", **p["losses"]} for p in result["points"] for k, v in p["request"].items()],
+        "loss_terms": [{"name": name, "label": label} for name, _, label in LOSS_TERMS],
     }

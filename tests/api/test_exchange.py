@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from typing import Any
 
+import pytest
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
 from server.db import transaction
-from server.services import seed, teams
+from server.services import teams
 from tests.factories import make_team
 
 VOLATILE = {"exported_at", "team"}
@@ -26,9 +27,9 @@ def strip_refs(doc: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
+@pytest.mark.demo_data
 def test_round_trip_into_another_team_is_lossless(app: FastAPI, client: TestClient) -> None:
     with transaction(app.state.sessionmaker) as session:
-        seed.load_demo(session, settings=app.state.settings)
         team = teams.get_team_by_name(session, name="Northfold Survey")
         _, key = teams.create_api_key(session, team_id=team.id, scope="read")
     exported = client.get("/api/v1/export", headers={"Authorization": f"Bearer {key}"}).json()

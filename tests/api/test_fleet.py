@@ -11,14 +11,15 @@ import pytest
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
-from tests.factories import load_demo, make_team
+from tests.factories import demo_key, make_team
 
 Headers = dict[str, str]
+pytestmark = pytest.mark.demo_data
 
 
 @pytest.fixture
 def demo(app: FastAPI, client: TestClient) -> tuple[Headers, dict[str, int]]:
-    return load_demo(app)
+    return demo_key(app)
 
 
 def wait(client: TestClient, headers: Headers, plan_id: int) -> dict[str, Any]:

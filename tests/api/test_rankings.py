@@ -12,14 +12,15 @@ from fastapi.testclient import TestClient
 from server.models import Ranking
 from server.selection import ENGINE_VERSION, rank
 from server.services.ranking_inputs import engine_inputs
-from tests.factories import load_demo, make_team
+from tests.factories import demo_key, make_team
 
 Headers = dict[str, str]
+pytestmark = pytest.mark.demo_data
 
 
 @pytest.fixture
 def demo(app: FastAPI, client: TestClient) -> tuple[Headers, dict[str, int]]:
-    return load_demo(app)
+    return demo_key(app)
 
 
 def wait_done(client: TestClient, headers: Headers, ranking_id: int, timeout_s: float = 60) -> dict[str, Any]:
@@ -71,8 +72,14 @@ def test_results_sort_filter_page_and_pareto(client: TestClient, demo: Any) -> N
     cells = by_endurance["items"][0]["cells_series"]
     filtered = client.get(f"/api/v1/rankings/{rid}/results?cells={cells}", headers=headers).json()
     assert filtered["total"] >= 1 and all(r["cells_series"] == cells for r in filtered["items"])
-    cheap_escs = client.get(f"/api/v1/rankings/{rid}/results?esc_max_a=50", headers=headers).json()
-    assert all(r["esc_id"] for r in cheap_escs["items"])
+    ratings = {e["id"]: e["continuous_current_a"]
+               for e in client.get("/api/v1/parts/escs?page_size=100", headers=headers).json()["items"]}
+    everything = client.get(f"/api/v1/rankings/{rid}/results?page_size=500", headers=headers).json()["items"]
+    cheap_escs = client.get(f"/api/v1/rankings/{rid}/results?esc_max_a=50&page_size=500", headers=headers).json()
+    expected = sorted(r["rank"] for r in everything if ratings[r["esc_id"]] <= 50)
+    assert 0 < len(expected) < len(everything)  # the filter must keep some rows and drop others to mean anything
+    assert sorted(r["rank"] for r in cheap_escs["items"]) == expected
+    assert all(ratings[r["esc_id"]] <= 50 for r in cheap_escs["items"])
     pareto = client.get(f"/api/v1/rankings/{rid}/pareto", headers=headers).json()
     assert pareto["total"] >= 1 and all(r["pareto"] for r in pareto["items"])
     assert client.get(f"/api/v1/rankings/{rid}/results?sort=colour", headers=headers).status_code == 422

@@ -4,18 +4,17 @@ from __future__ import annotations
 
 import time
 
+import pytest
 from bs4 import BeautifulSoup
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
-from server.db import transaction
 from server.services import seed
 from tests.factories import login
 
 
+@pytest.mark.demo_data
 def test_demo_fleet_plan_in_the_browser(app: FastAPI, client: TestClient) -> None:
-    with transaction(app.state.sessionmaker) as session:
-        seed.load_demo(session, settings=app.state.settings)
     token = login(client, *seed.DEMO_LOGIN)
     index = BeautifulSoup(client.get("/fleet-plans").text, "html.parser")
     boxes = {row.select("td")[1].text: row.select_one("input[type=checkbox]")["name"]

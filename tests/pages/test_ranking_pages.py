@@ -4,18 +4,17 @@ from __future__ import annotations
 
 import time
 
+import pytest
 from bs4 import BeautifulSoup
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
-from server.db import transaction
 from server.services import seed
 from tests.factories import login
 
 
+@pytest.mark.demo_data
 def test_rank_in_the_browser_and_read_the_results(app: FastAPI, client: TestClient) -> None:
-    with transaction(app.state.sessionmaker) as session:
-        seed.load_demo(session, settings=app.state.settings)
     token = login(client, seed.DEMO_LOGIN[0], seed.DEMO_LOGIN[1])
     index = BeautifulSoup(client.get("/rankings").text, "html.parser")
     mission_id = next(o["value"] for o in index.select("#mission_id option") if o.text == "Q4 mapping survey")

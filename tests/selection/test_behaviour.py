@@ -184,3 +184,26 @@ def test_cruise_point_near_full_throttle_matches_the_physics_engine() -> None:
     np.testing.assert_allclose(got.bus_voltage_v[reachable], op.bus_voltage_v[reachable], rtol=1e-9)
     np.testing.assert_allclose(got.bus_current_a[reachable], op.bus_current_a[reachable], rtol=1e-9)
     assert pk.cells_series[1] == 4
+
+
+def test_result_rows_carry_every_loss_term_of_the_physics_engine() -> None:
+    """One loss vocabulary: a ranking row names exactly the terms of operating_point.LOSS_TERMS (+ the pack),
+    and their values equal the reference solver's breakdown of the same cruise point."""
+    from server.physics.operating_point import LOSS_TERMS
+
+    library, mission = parts.library(), parts.hover_mission()
+    row = rank(library, mission, top_n=1).top[0]
+    assert set(row.cruise["losses"]) == {name for name, _, _ in LOSS_TERMS} | {"pack_w"}
+    es, mo, pk = library.escs, library.motors, library.packs
+    e, m, p = (int(np.flatnonzero(x.ids == i)[0]) for x, i in ((es, row.esc_id), (mo, row.motor_id),
+                                                                 (pk, row.battery_id)))
+    q = int(np.flatnonzero(library.propellers.ids == row.propeller_id)[0])
+    batch = batch_for(library, mission, np.array([p]), np.array([row.packs_in_parallel]), np.array([e]),
+                      np.array([m]), np.array([q]))
+    op = drive.for_thrust(row.cruise["thrust_n"], motor=MotorParams(mo.kv_rpm_per_v[m], mo.resistance_ohm[m],
+                                                                     mo.no_load_current_a[m], mo.inductance_h[m]),
+                          esc=es.params(np.array([e])), propeller=library.propellers.static.take(np.array([q])),
+                          open_circuit_voltage_v=batch.voc_cruise_v, pack_resistance_ohm=batch.pack_resistance_ohm,
+                          rotor_count=mission.rotor_count, density_kg_m3=mission.density_kg_m3)
+    for name, attr, _ in LOSS_TERMS:
+        assert row.cruise["losses"][name] == pytest.approx(float(getattr(op, attr)[0]), rel=1e-6, abs=1e-9), name

@@ -32,11 +32,11 @@
         gw: { position: "right", title: { display: true, text: "specific thrust [g/W]" }, grid: { drawOnChartArea: false } },
       } },
     });
-    const terms = ["motor_copper", "motor_no_load", "esc_conduction", "pwm_ripple", "switching", "dead_time", "input_capacitor", "calibrated_pwm"];
+    // The loss terms and their labels come from the server (physics.operating_point.LOSS_TERMS): one list.
     draw("chart-losses", {
       type: "bar",
-      data: { labels: data.losses.map((l) => l.label), datasets: terms.map((t, i) => ({
-        label: t.replace("_", " ") + " [W]", data: data.losses.map((l) => l[t]), backgroundColor: PALETTE[i % PALETTE.length] })) },
+      data: { labels: data.losses.map((l) => l.label), datasets: data.loss_terms.map((t, i) => ({
+        label: t.label + " [W]", data: data.losses.map((l) => l[t.name]), backgroundColor: PALETTE[i % PALETTE.length] })) },
       options: { scales: { x: { stacked: true }, y: { stacked: true, title: { display: true, text: "loss per rotor [W]" } } } },
     });
   }

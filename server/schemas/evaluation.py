@@ -1,0 +1,156 @@
+"""Typed results of evaluating a power system: one loss breakdown and the shapes rankings and compare share.
+
+Response models keep unknown keys (``extra="allow"``): stored results written by an older engine version may
+carry fields this version no longer computes, and scripts that read them must keep working. Every field the
+engine writes today is declared here, so the OpenAPI document describes it.
+"""
+
+from __future__ import annotations
+
+from pydantic import BaseModel, ConfigDict, Field
+
+from server.physics.operating_point import LOSS_TERMS
+
+
+class Result(BaseModel):
+    """Base of response models: declared fields documented, other stored keys passed through."""
+
+    model_config = ConfigDict(extra="allow")
+
+
+class LossBreakdown(Result):
+    """Every loss term of one rotor at an operating point [W] (``pack_w``: the pack's loss, whole craft)."""
+
+    motor_copper_w: float | None = Field(default=None, description="I² R in the winding, per rotor [W]")
+    motor_no_load_w: float | None = Field(default=None, description="I0 E (iron, friction, windage), per rotor [W]")
+    esc_conduction_w: float | None = Field(default=None, description="I² R_on in the ESC switches, per rotor [W]")
+    pwm_ripple_w: float | None = Field(default=None, description="Copper loss of the PWM current ripple, per rotor [W]")
+    switching_w: float | None = Field(default=None, description="Hard-switching loss, per rotor [W]")
+    dead_time_w: float | None = Field(default=None, description="Body-diode conduction in dead time, per rotor [W]")
+    input_capacitor_w: float | None = Field(default=None, description="Input-capacitor ESR loss, per rotor [W]")
+    calibrated_pwm_w: float | None = Field(default=None, description="Calibrated k_pwm term, per rotor [W]")
+    pack_w: float | None = Field(default=None, description="Pack internal I² R, whole craft [W]")
+
+
+assert {name for name, _, _ in LOSS_TERMS} <= set(LossBreakdown.model_fields), "LOSS_TERMS and LossBreakdown differ"
+
+
+class Margins(Result):
+    """Ratings against the full-throttle point (fresh pack): below 1 (motor, pack) / above 1 (ESC) is inside."""
+
+    motor_current_ratio: float | None = Field(default=None, description="Full-throttle motor current ÷ motor rating")
+    esc_rating_ratio: float | None = Field(default=None, description="ESC rating ÷ full-throttle motor current")
+    pack_current_ratio: float | None = Field(default=None, description="Full-throttle ÷ allowed pack current")
+
+
+class RankedCruise(Result):
+    """The cruise (hover) point of a ranked candidate at the mission's cruise state of charge."""
+
+    duty: float | None = Field(default=None, description="PWM duty (hover/cruise throttle) [-]")
+    rpm: float | None = Field(default=None, description="Shaft speed [rpm]")
+    electrical_power_w: float | None = Field(default=None, description="ESC input power, whole craft [W]")
+    specific_thrust_g_per_w: float | None = Field(default=None, description="Thrust per electrical power [g/W]")
+    bus_current_a: float | None = Field(default=None, description="Pack current, whole craft [A]")
+    bus_voltage_v: float | None = Field(default=None, description="Pack terminal (bus) voltage [V]")
+    drive_efficiency: float | None = Field(default=None, description="Shaft ÷ electrical power (motor + ESC) [-]")
+    thrust_n: float | None = Field(default=None, description="Thrust per rotor [N]")
+    motor_current_a: float | None = Field(default=None, description="Motor current per rotor [A]")
+    shaft_power_w: float | None = Field(default=None, description="Shaft power per rotor [W]")
+    state_of_charge: float | None = Field(default=None, description="Pack state of charge of this point [-]")
+    losses: LossBreakdown = Field(default_factory=lambda: LossBreakdown())
+
+
+class RankedFullThrottle(Result):
+    """Full throttle (duty 1): thrust at the end of usable capacity, currents with a full pack."""
+
+    thrust_to_weight: float | None = Field(default=None, description="Full-throttle thrust ÷ weight (end of usable)")
+    thrust_n: float | None = Field(default=None, description="Thrust per rotor, end of usable capacity [N]")
+    motor_current_a: float | None = Field(default=None, description="Motor current per rotor, full pack [A]")
+    bus_current_a: float | None = Field(default=None, description="Pack current, whole craft, full pack [A]")
+    bus_voltage_v: float | None = Field(default=None, description="Bus voltage, full pack [V]")
+    rpm: float | None = Field(default=None, description="Shaft speed, full pack [rpm]")
+
+
+class RankedCandidate(Result):
+    """One ranked power system (craft totals unless a field says per rotor)."""
+
+    rank: int | None = Field(default=None, description="1 = best by the objective; None for a Pareto-only row")
+    battery_id: int
+    esc_id: int
+    motor_id: int
+    propeller_id: int
+    packs_in_parallel: int
+    all_up_mass_g: float
+    cruise: RankedCruise
+    full_throttle: RankedFullThrottle
+    endurance_min: float | None = Field(default=None, description="Flight time (discharge simulation) [min]")
+    endurance_stop_reason: str | None = None
+    endurance_refined: bool = False
+    screening_endurance_min: float | None = Field(default=None, description="Usable capacity ÷ cruise current [min]")
+    cost: float | None = Field(default=None, description="k packs + one ESC, motor and propeller per rotor [currency]")
+    margins: Margins = Field(default_factory=lambda: Margins())
+    pack_voltage_nominal_v: float | None = Field(default=None, description="S × nominal cell voltage [V]")
+    cells_series: int | None = None
+    pareto: bool = False
+    result_id: int | None = None
+
+
+class EvaluatedCruise(Result):
+    """The cruise (hover) point of one evaluated candidate (full physics engine)."""
+
+    status: str = Field(description="ok | over_current | infeasible_thrust | ...")
+    duty: float | None = None
+    rpm: float | None = None
+    thrust_n: float | None = Field(default=None, description="Thrust per rotor [N]")
+    electrical_power_w: float | None = Field(default=None, description="ESC input power, whole craft [W]")
+    electrical_power_per_rotor_w: float | None = Field(default=None, description="ESC input power per rotor [W]")
+    bus_current_a: float | None = Field(default=None, description="Pack current, whole craft [A]")
+    bus_voltage_v: float | None = None
+    motor_current_a: float | None = Field(default=None, description="Per rotor [A]")
+    shaft_power_w: float | None = Field(default=None, description="Per rotor [W]")
+    specific_thrust_g_per_w: float | None = None
+    drive_efficiency: float | None = None
+    losses: LossBreakdown = Field(default_factory=lambda: LossBreakdown())
+    losses_w: dict[str, float | None] = Field(default_factory=dict,
+                                              description="The same per-rotor losses under the first names")
+    pack_loss_w: float | None = Field(default=None, description="Pack internal loss, whole craft [W]")
+
+
+class EvaluatedFullThrottle(Result):
+    thrust_n: float | None = Field(default=None, description="Thrust per rotor, end of usable capacity [N]")
+    thrust_to_weight: float | None = None
+    motor_current_a: float | None = Field(default=None, description="Per rotor, full pack [A]")
+    bus_current_a: float | None = Field(default=None, description="Pack current, whole craft, full pack [A]")
+    bus_voltage_v: float | None = None
+    electrical_power_w: float | None = Field(default=None, description="Whole craft, full pack [W]")
+
+
+class Ratings(Result):
+    motor_max_current_a: float | None = None
+    esc_continuous_current_a: float | None = None
+    pack_allowed_current_a: float | None = None
+
+
+class CandidateEvaluation(Result):
+    """Every number of one power system for one mission (craft totals unless a field says per rotor)."""
+
+    battery_id: int
+    esc_id: int
+    motor_id: int
+    propeller_id: int
+    packs_in_parallel: int
+    cells_series: int | None = None
+    pack_nominal_voltage_v: float | None = None
+    all_up_mass_g: float | None = None
+    thrust_required_n: float | None = Field(default=None, description="Per rotor at the cruise point [N]")
+    cruise: EvaluatedCruise
+    full_throttle: EvaluatedFullThrottle
+    endurance_min: float | None = None
+    endurance_stop_reason: str | None = None
+    cost: float | None = None
+    currency: str | None = None
+    margins: Margins = Field(default_factory=lambda: Margins())
+    ratings: Ratings = Field(default_factory=lambda: Ratings())
+    sources: dict[str, dict[str, str]] = Field(
+        default_factory=dict, description="Per part kind, where each parameter came from")
+    curves: dict[str, list[float | None]] | None = None
