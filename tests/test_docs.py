@@ -90,6 +90,34 @@ def test_every_cited_check_case_is_defined_in_the_model_reference() -> None:
                          "table, or add a non-id token to NOT_CHECK_CASES): " + ", ".join(sorted(set(missing))))
 
 
+
+def _check_case_rows() -> list[tuple[str, str]]:
+    """(id, expected-values column) of every check-case row of the model reference."""
+    rows = re.findall(r"^\| ([A-Z]{2,5}-\d+) \| .*? \| (.*?) \| .*? \| .*? \|$", MODEL_REFERENCE.read_text(),
+                      flags=re.MULTILINE)
+    return [(cid, expected) for cid, expected in rows]
+
+
+def test_every_defined_check_case_is_asserted_by_a_test() -> None:
+    cited = {f"{p}-{n}" for _, text in _text_files("tests") for p, first, last in CHECK_ID.findall(text)
+             for n in range(int(first), int(last or first) + 1)}
+    unasserted = sorted(_defined_check_cases() - cited)
+    assert not unasserted, f"check cases in docs/model-reference.md that no test cites: {unasserted}"
+
+
+def test_check_case_values_are_numbers_the_tests_assert() -> None:
+    # Every decimal number of a row's "expected" column must appear in a test file (thousands separated by a
+    # space there, by "_" or nothing in Python); a value nobody asserts does not belong in a check case.
+    def numbers(text: str) -> set[str]:
+        joined = re.sub(r"(?<=\d)[ _](?=\d{3}\b)", "", text)
+        return set(re.findall(r"\d+\.\d+(?:e-?\d+)?|\d+e-?\d+", joined))
+
+    asserted = numbers("\n".join(text for _, text in _text_files("tests")))
+    rows = _check_case_rows()
+    assert len(rows) == len(_defined_check_cases()) >= 49  # every row parsed (ATM, PROP, MOT, OP, ESC, BAT, RULE)
+    stray = [f"{cid}: {n}" for cid, expected in rows for n in sorted(numbers(expected) - asserted)]
+    assert not stray, f"values in docs/model-reference.md check cases that no test asserts: {stray}"
+
 def test_every_model_reference_anchor_exists() -> None:
     doc = MODEL_REFERENCE.read_text()
     headings = {_slug(h) for h in re.findall(r"^#{1,6} (.+)$", doc, flags=re.MULTILINE)}
