@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import os
 import re
+from pathlib import Path
 
 from server.cli import build_parser
 from server.config import REPO_ROOT, Settings
@@ -50,16 +52,22 @@ CHECK_ID = re.compile(r"\b([A-Z]{2,5})-(\d+)(?:\.\.(\d+))?\b")
 
 
 def _text_files(*roots: str) -> list[tuple[str, str]]:
+    """(path relative to the repository, text) of the text files under ``roots``; caches, builds and any virtual
+    environment (a directory holding ``pyvenv.cfg``) are left out."""
     out = []
     for root in roots:
         path = REPO_ROOT / root
-        candidates = [path] if path.is_file() else sorted(path.rglob("*")) if path.is_dir() else []
-        for p in candidates:
-            rel = p.relative_to(REPO_ROOT)
-            if not p.is_file() or p.suffix not in TEXT_SUFFIXES or SKIP_DIRS & set(rel.parts) \
-                    or any(part.endswith(".egg-info") for part in rel.parts):
-                continue
-            out.append((str(rel), p.read_text(encoding="utf-8", errors="replace")))
+        if path.is_file():
+            found = [path]
+        else:
+            found = []
+            for folder, dirs, files in os.walk(path):
+                dirs[:] = sorted(d for d in dirs if d not in SKIP_DIRS and not d.endswith(".egg-info")
+                                 and not (Path(folder) / d / "pyvenv.cfg").exists())
+                found += [Path(folder) / f for f in sorted(files)]
+        for p in found:
+            if p.suffix in TEXT_SUFFIXES:
+                out.append((str(p.relative_to(REPO_ROOT)), p.read_text(encoding="utf-8", errors="replace")))
     return out
 
 
