@@ -55,12 +55,7 @@ def _extra_loss(p: Problem, bus_voltage: FloatArray, duty: FloatArray, current: 
 
 def _has_pwm_losses(p: Problem) -> np.ndarray:
     """Elements whose ESC/motor parameters give a non-zero P_extra below full throttle."""
-    e = p.esc
-    with np.errstate(divide="ignore"):
-        ripple = 1.0 / (p.inductance_h * e.switching_frequency_hz) > 0.0
-    terms = (ripple | (e.transition_time_s > 0) | ((e.dead_time_s > 0) & (e.body_diode_drop_v > 0))
-             | (e.input_esr_ohm > 0) | (e.pwm_loss_coefficient != 0))
-    return np.broadcast_to(terms, (p.size,))
+    return np.broadcast_to(esc_model.has_partial_throttle_losses(p.esc, p.inductance_h), (p.size,))
 
 
 def _constant_table(p: Problem) -> np.ndarray:

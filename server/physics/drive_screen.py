@@ -31,6 +31,8 @@ from .propeller_segments import PropModel
 BUS_RTOL = 1e-14
 """Relative Newton step on the bus voltage at which the cruise solve stops."""
 BUS_MAX_ITER = 60
+BUS_CONVERGED_RTOL = 1e-10
+"""Last Newton step (relative) below which a cruise bus voltage counts as solved."""
 FULL_THROTTLE_SLACK_RTOL = 1e-12
 """Bus slack (relative to V_oc) treated as exactly full throttle, as :func:`.drive.for_thrust` does."""
 
@@ -168,54 +170,33 @@ def cruise_point(batch: Batch, model: PropModel, rotor_count: float, thrust_n: n
     voc = batch.voc_cruise_v
     load = n_r * batch.pack_resistance_ohm
     coefs = batch.loss_coefficients(current, motor_v)
-    c_rip, c_sw, c_dt, c_cap, c_pwm = (coefs.ripple_w, coefs.switching_w_per_v, coefs.dead_time_w, coefs.capacitor_w,
-                                       coefs.pwm_w)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         slack = voc - motor_v - load * current
-        # High root of V^2 - (V_oc - NR c_sw) V + NR (V_m I + c_dt) = 0 (the loss terms in u = 1 - d left out).
-        b = voc - load * c_sw
-        c = load * (motor_v * current + c_dt)
-        bus = 0.5 * (b + np.sqrt(b * b - 4.0 * c))
-        # h(V) = V (V - b) + c + N R_pack (A u^2 + B u), u = 1 - V_m / V, with A = c_rip - c_cap and
-        # B = c_cap + c_pwm (the same P_extra as esc.extra_loss_below_full_w),
-        # so h'(V) = 2 V - b + N R_pack (2 A u + B) V_m / V^2.
-        la, lb = load * (c_rip - c_cap), load * (c_cap + c_pwm)
-        bus = np.array(np.broadcast_to(bus, np.broadcast_shapes(np.shape(bus), np.shape(la), np.shape(motor_v))))
-        if bus.size:
-            ratio, u, t, h, dh = (np.empty_like(bus) for _ in range(5))
-            for _ in range(BUS_MAX_ITER):
-                np.divide(motor_v, bus, out=ratio)
-                np.subtract(1.0, ratio, out=u)
-                np.multiply(la, u, out=t)
-                t += lb  # A' u + B'
-                np.subtract(bus, b, out=h)
-                h *= bus
-                h += c
-                np.multiply(u, t, out=dh)
-                h += dh  # h(V)
-                np.multiply(la, u, out=dh)
-                dh += t  # 2 A' u + B'
-                dh *= ratio
-                dh /= bus
-                dh += bus
-                dh += bus
-                dh -= b  # h'(V)
-                h /= dh  # Newton step
-                bus -= h
-                np.abs(h, out=h)
-                h /= bus
-                worst = np.nanmax(h, initial=0.0)
-                if not worst > BUS_RTOL:
-                    break
+        # h(V) = V^2 - V_oc V + N R_pack (V_m I + P_extra(V)) = 0 on the high root (esc.extra_loss_below_full_w,
+        # slope from esc.extra_loss_slope_w_per_v). Newton from the high root without P_extra, which lies above.
+        shape = np.broadcast_shapes(np.shape(voc), np.shape(load), np.shape(motor_v), np.shape(current))
+        drawn = load * (motor_v * current)
+        bus = np.array(np.broadcast_to(0.5 * (voc + np.sqrt(voc * voc - 4.0 * drawn)), shape))
+        change = np.zeros(shape)
+        for _ in range(BUS_MAX_ITER if bus.size else 0):
+            h = bus * (bus - voc) + drawn + load * esc_model.extra_loss_below_full_w(coefs, bus, motor_v)
+            dh = 2.0 * bus - voc + load * esc_model.extra_loss_slope_w_per_v(coefs, bus, motor_v)
+            step = h / dh
+            bus -= step
+            change = np.abs(step) / bus
+            if not np.nanmax(change, initial=0.0) > BUS_RTOL:
+                break
+        converged = change <= BUS_CONVERGED_RTOL  # where the bus has no balanced voltage Newton does not settle
         rounding = FULL_THROTTLE_SLACK_RTOL * voc
         feasible = np.isfinite(slack) & (slack >= -rounding)
         at_full = feasible & (slack <= rounding)
         # Just below full throttle the step of P_sw + P_dt at d = 1 can leave no balanced duty below 1:
         # the physics engine then reports the full-throttle point (thrust slightly above the request).
-        jump = feasible & ~at_full & (load * (c_sw * motor_v + c_dt) >= motor_v * slack) & (load > 0)
+        step_at_full = esc_model.extra_loss_below_full_w(coefs, motor_v, motor_v)  # the loss step at d = 1
+        jump = feasible & ~at_full & (load * step_at_full >= motor_v * slack) & (load > 0)
         bus = np.where(at_full, motor_v, bus)
         duty = motor_v / bus
-        solved = feasible & ~jump & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
+        solved = feasible & ~jump & converged & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
         extra = np.where(at_full, 0.0, esc_model.extra_loss_below_full_w(coefs, bus, motor_v))
         bus_current = duty * current + extra / bus
     cruise = Cruise(thrust_n=thrust, speed=y, omega_rad_s=model.omega_rad_s(y), torque_nm=torque,

@@ -274,7 +274,6 @@ def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams
                                       (StopReason.CUTOFF_VOLTAGE, StopReason.THRUST_UNREACHABLE))
     at_stop, at_last = solve(stop), solve(last_valid)
     solved_at_stop = np.isin(at_stop.status, (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR))
-    end = OperatingPoint(**{f.name: np.where(solved_at_stop, getattr(at_stop, f.name), getattr(at_last, f.name))
-                            for f in fields(OperatingPoint)})
+    end = at_stop.map(lambda stop, last: np.where(solved_at_stop, stop, last), at_last)
     return ThrustEnduranceResult(**{f.name: getattr(result, f.name) for f in fields(EnduranceResult)},
                                  start=start, end=end)

@@ -22,7 +22,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 
 import numpy as np
 
@@ -77,19 +77,28 @@ class EscParams:
 
 @dataclass(frozen=True)
 class PartialThrottleLosses:
-    """Partial-throttle loss terms per rotor, all zero at d = 1. [W]"""
+    """Partial-throttle loss terms per rotor, all zero at d = 1. [W]
 
-    pwm_ripple_w: FloatArray
-    switching_w: FloatArray
-    dead_time_w: FloatArray
-    input_capacitor_w: FloatArray
-    calibrated_pwm_w: FloatArray
+    This class is the list of ESC loss terms: every operating point, ranking row, compare column and API
+    loss breakdown reports each of its fields (with the label in its metadata) without naming them again.
+    """
+
+    pwm_ripple_w: FloatArray = field(metadata={"label": "PWM ripple"})
+    switching_w: FloatArray = field(metadata={"label": "switching"})
+    dead_time_w: FloatArray = field(metadata={"label": "dead time"})
+    input_capacitor_w: FloatArray = field(metadata={"label": "input capacitor"})
+    calibrated_pwm_w: FloatArray = field(metadata={"label": "calibrated PWM"})
 
     @property
     def total_w(self) -> FloatArray:
-        """``P_extra`` including the calibrated term. [W]"""
-        return (self.pwm_ripple_w + self.switching_w + self.dead_time_w + self.input_capacitor_w
-                + self.calibrated_pwm_w)
+        """``P_extra``: the sum of every term (including the calibrated one). [W]"""
+        total: FloatArray = sum((getattr(self, f.name) for f in fields(self)), start=np.zeros(()))
+        return total
+
+    @classmethod
+    def zeros_like(cls, a: ArrayLike) -> PartialThrottleLosses:
+        """Every term zero (full throttle), shaped like ``a``."""
+        return cls(**{f.name: np.zeros_like(as_float_array(a)) for f in fields(cls)})
 
 
 def _chopping(duty: ArrayLike) -> FloatArray:
@@ -175,7 +184,8 @@ def extra_loss_below_full_w(coefficients: LossCoefficients, bus_voltage_v: Array
                             motor_voltage_v: ArrayLike) -> FloatArray:
     """``P_extra`` at bus voltage V for a duty ``V_m / V`` below 1 (the switching terms do not drop out). [W]
 
-    The hot loops (bus Newton solves) call this; :func:`loss_terms` gives the breakdown with d = 1 handled.
+    The bus solves call this (and :func:`extra_loss_slope_w_per_v`); :func:`loss_terms` gives the breakdown
+    with d = 1 handled. Its value at ``V = V_m`` is the step the loss makes at full throttle.
     """
     c = coefficients
     bus = as_float_array(bus_voltage_v)
@@ -183,6 +193,18 @@ def extra_loss_below_full_w(coefficients: LossCoefficients, bus_voltage_v: Array
     extra: FloatArray = (c.ripple_w * u + c.capacitor_w * (1.0 - u) + c.pwm_w) * u + c.switching_w_per_v * bus \
         + c.dead_time_w
     return extra
+
+
+def extra_loss_slope_w_per_v(coefficients: LossCoefficients, bus_voltage_v: ArrayLike,
+                             motor_voltage_v: ArrayLike) -> FloatArray:
+    """``d P_extra / d V`` at fixed motor state (``du/dV = V_m / V^2``), for Newton steps on the bus. [W/V]"""
+    c = coefficients
+    bus = as_float_array(bus_voltage_v)
+    ratio = as_float_array(motor_voltage_v) / bus
+    u = 1.0 - ratio
+    slope: FloatArray = (2.0 * (c.ripple_w - c.capacitor_w) * u + c.capacitor_w + c.pwm_w) * ratio / bus \
+        + c.switching_w_per_v
+    return slope
 
 
 def loss_terms(coefficients: LossCoefficients, bus_voltage_v: ArrayLike, duty: ArrayLike) -> PartialThrottleLosses:
@@ -198,6 +220,16 @@ def loss_terms(coefficients: LossCoefficients, bus_voltage_v: ArrayLike, duty: A
         input_capacitor_w=c.capacitor_w * d * u * chopping,
         calibrated_pwm_w=c.pwm_w * u * chopping,
     )
+
+
+def has_partial_throttle_losses(esc: EscParams, inductance_h: ArrayLike) -> np.ndarray:
+    """Elements whose ESC (with this motor inductance) has any partial-throttle loss (closed forms are exact only
+    without one)."""
+    with np.errstate(divide="ignore"):
+        ripple = 1.0 / (as_float_array(inductance_h) * esc.switching_frequency_hz) > 0.0
+    terms: np.ndarray = (ripple | (esc.transition_time_s > 0) | ((esc.dead_time_s > 0) & (esc.body_diode_drop_v > 0))
+                         | (esc.input_esr_ohm > 0) | (esc.pwm_loss_coefficient != 0))
+    return terms
 
 
 def ripple_current_a(bus_voltage_v: ArrayLike, duty: ArrayLike, inductance_h: ArrayLike,

@@ -8,7 +8,8 @@ mutually consistent (the energy balance of docs/model-reference.md#reference-mod
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, fields
 
 import numpy as np
 
@@ -21,13 +22,21 @@ LOSS_TERMS: tuple[tuple[str, str, str], ...] = (
     ("motor_copper_w", "motor_copper_loss_w", "motor copper"),
     ("motor_no_load_w", "motor_no_load_loss_w", "motor no-load"),
     ("esc_conduction_w", "esc_conduction_loss_w", "ESC conduction"),
-    ("pwm_ripple_w", "pwm_ripple_loss_w", "PWM ripple"),
-    ("switching_w", "switching_loss_w", "switching"),
-    ("dead_time_w", "dead_time_loss_w", "dead time"),
-    ("input_capacitor_w", "input_capacitor_loss_w", "input capacitor"),
-    ("calibrated_pwm_w", "calibrated_pwm_loss_w", "calibrated PWM"),
+    *((f.name, f"esc_terms.{f.name}", f.metadata["label"]) for f in fields(esc_model.PartialThrottleLosses)),
 )
-"""The loss terms of one rotor: (name in every API and page, :class:`OperatingPoint` attribute, label)."""
+"""The loss terms of one rotor: (name in every API and page, where :func:`loss_value` reads it, label).
+
+The ESC's partial-throttle terms come from :class:`.esc.PartialThrottleLosses`, so a term added there shows up
+in predict, rankings and compare without another list to edit.
+"""
+
+
+def loss_value(op: OperatingPoint, where: str) -> FloatArray:
+    """The loss array named by the second element of a :data:`LOSS_TERMS` entry. [W]"""
+    value: object = op
+    for part in where.split("."):
+        value = getattr(value, part)
+    return np.asarray(value, dtype=np.float64)
 
 
 @dataclass(frozen=True)
@@ -54,11 +63,7 @@ class OperatingPoint:
     motor_copper_loss_w: FloatArray
     motor_no_load_loss_w: FloatArray
     esc_conduction_loss_w: FloatArray
-    pwm_ripple_loss_w: FloatArray
-    switching_loss_w: FloatArray
-    dead_time_loss_w: FloatArray
-    input_capacitor_loss_w: FloatArray
-    calibrated_pwm_loss_w: FloatArray
+    esc_terms: esc_model.PartialThrottleLosses
     drive_efficiency: FloatArray
     specific_thrust_g_per_w: FloatArray
     thrust_coefficient: FloatArray
@@ -69,11 +74,44 @@ class OperatingPoint:
     pack_loss_w: FloatArray
     status: IntArray
 
+    def map(self, fn: Callable[..., ArrayLike], *others: OperatingPoint) -> OperatingPoint:
+        """Apply ``fn(a, *b)`` to every array of this point (and the same arrays of ``others``)."""
+        values: dict[str, object] = {}
+        for f in fields(self):
+            if f.name == "esc_terms":
+                values[f.name] = esc_model.PartialThrottleLosses(**{
+                    t.name: np.asarray(fn(getattr(self.esc_terms, t.name), *(getattr(o.esc_terms, t.name)
+                                                                            for o in others)))
+                    for t in fields(esc_model.PartialThrottleLosses)})
+            else:
+                values[f.name] = np.asarray(fn(getattr(self, f.name), *(getattr(o, f.name) for o in others)))
+        return OperatingPoint(**values)  # type: ignore[arg-type]
+
     @property
     def extra_loss_w(self) -> FloatArray:
         """All partial-throttle ESC losses of one rotor (P_extra including P_pwm). [W]"""
-        return (self.pwm_ripple_loss_w + self.switching_loss_w + self.dead_time_loss_w
-                + self.input_capacitor_loss_w + self.calibrated_pwm_loss_w)
+        return self.esc_terms.total_w
+
+    # The terms of the first reference model under their attribute names (each is also in esc_terms).
+    @property
+    def pwm_ripple_loss_w(self) -> FloatArray:
+        return self.esc_terms.pwm_ripple_w
+
+    @property
+    def switching_loss_w(self) -> FloatArray:
+        return self.esc_terms.switching_w
+
+    @property
+    def dead_time_loss_w(self) -> FloatArray:
+        return self.esc_terms.dead_time_w
+
+    @property
+    def input_capacitor_loss_w(self) -> FloatArray:
+        return self.esc_terms.input_capacitor_w
+
+    @property
+    def calibrated_pwm_loss_w(self) -> FloatArray:
+        return self.esc_terms.calibrated_pwm_w
 
     @property
     def total_thrust_n(self) -> FloatArray:
@@ -137,9 +175,8 @@ def assemble(p: Problem, omega: FloatArray, bus: FloatArray, status: IntArray) -
         motor_copper_loss_w=out(current**2 * p.resistance_ohm),
         motor_no_load_loss_w=out(p.no_load_current_a * omega / p.kv_rad_s_per_v),
         esc_conduction_loss_w=out(current**2 * p.esc.on_path_resistance_ohm),
-        pwm_ripple_loss_w=out(losses.pwm_ripple_w), switching_loss_w=out(losses.switching_w),
-        dead_time_loss_w=out(losses.dead_time_w), input_capacitor_loss_w=out(losses.input_capacitor_w),
-        calibrated_pwm_loss_w=out(losses.calibrated_pwm_w),
+        esc_terms=esc_model.PartialThrottleLosses(**{f.name: out(getattr(losses, f.name))
+                                                     for f in fields(esc_model.PartialThrottleLosses)}),
         drive_efficiency=out(efficiency), specific_thrust_g_per_w=out(specific_thrust_g_per_w(thrust, electrical)),
         thrust_coefficient=out(ct), power_coefficient=out(cp),
         open_circuit_voltage_v=out(p.open_circuit_voltage_v), rotor_count=out(p.rotor_count),

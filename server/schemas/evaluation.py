@@ -7,7 +7,9 @@ engine writes today is declared here, so the OpenAPI document describes it.
 
 from __future__ import annotations
 
-from pydantic import BaseModel, ConfigDict, Field
+from typing import TYPE_CHECKING
+
+from pydantic import BaseModel, ConfigDict, Field, create_model
 
 from server.physics.operating_point import LOSS_TERMS
 
@@ -18,21 +20,22 @@ class Result(BaseModel):
     model_config = ConfigDict(extra="allow")
 
 
-class LossBreakdown(Result):
-    """Every loss term of one rotor at an operating point [W] (``pack_w``: the pack's loss, whole craft)."""
+if TYPE_CHECKING:  # mypy sees a plain model; the real one is built from the physics' list of terms below
 
-    motor_copper_w: float | None = Field(default=None, description="I² R in the winding, per rotor [W]")
-    motor_no_load_w: float | None = Field(default=None, description="I0 E (iron, friction, windage), per rotor [W]")
-    esc_conduction_w: float | None = Field(default=None, description="I² R_on in the ESC switches, per rotor [W]")
-    pwm_ripple_w: float | None = Field(default=None, description="Copper loss of the PWM current ripple, per rotor [W]")
-    switching_w: float | None = Field(default=None, description="Hard-switching loss, per rotor [W]")
-    dead_time_w: float | None = Field(default=None, description="Body-diode conduction in dead time, per rotor [W]")
-    input_capacitor_w: float | None = Field(default=None, description="Input-capacitor ESR loss, per rotor [W]")
-    calibrated_pwm_w: float | None = Field(default=None, description="Calibrated k_pwm term, per rotor [W]")
-    pack_w: float | None = Field(default=None, description="Pack internal I² R, whole craft [W]")
+    class LossBreakdown(Result):
+        """Every loss term of one rotor at an operating point [W] (``pack_w``: the pack's loss, whole craft)."""
 
+        pack_w: float | None = None
 
-assert {name for name, _, _ in LOSS_TERMS} <= set(LossBreakdown.model_fields), "LOSS_TERMS and LossBreakdown differ"
+else:
+    LossBreakdown = create_model(
+        "LossBreakdown",
+        __base__=Result,
+        __doc__="Every loss term of one rotor at an operating point [W] (``pack_w``: the pack's loss, whole craft).",
+        **{name: (float | None, Field(default=None, description=f"{label.capitalize()}, per rotor [W]"))
+           for name, _, label in LOSS_TERMS},
+        pack_w=(float | None, Field(default=None, description="Pack internal I² R, whole craft [W]")),
+    )
 
 
 class Margins(Result):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from dataclasses import fields
 
 import numpy as np
 
@@ -41,15 +42,11 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
                                      cr.bus_voltage_v, cr.duty)
         shaft = cr.torque_nm * cr.omega_rad_s
         per_rotor_power = cr.bus_voltage_v * cr.bus_current_a
-        losses = {  # the names of operating_point.LOSS_TERMS
+        losses = {  # the names of operating_point.LOSS_TERMS: the motor's and ESC conduction, then every ESC term
             "motor_copper_w": cr.motor_current_a**2 * batch.motor_resistance_ohm,
             "motor_no_load_w": batch.no_load_current_a * cr.omega_rad_s / batch.kv_si,
             "esc_conduction_w": cr.motor_current_a**2 * batch.r_on_ohm,
-            "pwm_ripple_w": terms.pwm_ripple_w,
-            "switching_w": terms.switching_w,
-            "dead_time_w": terms.dead_time_w,
-            "input_capacitor_w": terms.input_capacitor_w,
-            "calibrated_pwm_w": terms.calibrated_pwm_w,
+            **{f.name: getattr(terms, f.name) for f in fields(terms)},
         }
         pack_loss = batch.pack_resistance_ohm * sc.pack_current_a**2
         pack_limit = np.broadcast_to(batch.pack_limit_a, (n,))

@@ -19,7 +19,7 @@ from server.models import Battery, Esc, Mission, Motor, Propeller
 from server.physics import drive, endurance, fast, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
-from server.physics.operating_point import LOSS_TERMS, OperatingPoint
+from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.services import parts as parts_service
 from server.services import power_system as ps
 from server.services.ranking_inputs import mission_spec_of
@@ -104,7 +104,7 @@ def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds)
 
 
 def _losses(op: OperatingPoint) -> dict[str, float | None]:
-    return {name: _f(getattr(op, attr)) for name, attr, _ in LOSS_TERMS}
+    return {name: _f(loss_value(op, where)) for name, where, _ in LOSS_TERMS}
 
 
 def evaluate(

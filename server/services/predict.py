@@ -12,7 +12,7 @@ from server.errors import FieldError, InvalidInput
 from server.physics import atmosphere, drive, endurance
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
-from server.physics.operating_point import LOSS_TERMS, OperatingPoint
+from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.physics.propeller import PropellerTable, tip_mach_number
 from server.schemas.predict import PredictRequest
 from server.services import power_system as ps
@@ -81,18 +81,25 @@ class System:
 def solve_points(system: System, kinds: list[str], values: np.ndarray) -> OperatingPoint:
     """All requested points in one vectorised call per kind; results in request order."""
     n = len(kinds)
-    out: dict[str, np.ndarray] = {}
     kinds_arr = np.array(kinds)
+    merged: OperatingPoint | None = None
     for kind, fn in (("throttle", drive.at_duty), ("thrust_n", drive.for_thrust), ("rpm", drive.at_rpm)):
         mask = kinds_arr == kind
         if not mask.any():
             continue
         op = fn(values[mask], **system.solve_kwargs())
-        for name, array in vars(op).items():
-            full = out.setdefault(name, np.full(n, np.nan))
-            full[mask] = np.broadcast_to(np.asarray(array, dtype=float), (int(mask.sum()),))
-    out["status"] = out["status"].astype(np.int8)
-    return OperatingPoint(**out)
+        if merged is None:
+            merged = op.map(lambda a: np.zeros(n, dtype=np.asarray(a).dtype) if np.asarray(a).dtype.kind == "i"
+                            else np.full(n, np.nan))
+
+        def scatter(full: np.ndarray, part: np.ndarray, mask: np.ndarray = mask) -> np.ndarray:
+            out = np.array(full)
+            out[mask] = np.broadcast_to(np.asarray(part, dtype=out.dtype), (int(mask.sum()),))
+            return out
+
+        merged = merged.map(scatter, op)
+    assert merged is not None  # the request has at least one point (schema)
+    return merged
 
 
 def _warnings(system: System, op: OperatingPoint, i: int) -> list[str]:
@@ -148,9 +155,9 @@ def _point(system: System, op: OperatingPoint, i: int, request: dict[str, float]
         "request": request,
         "status": Status(int(op.status[i])).name.lower(),
         **{name: _f(getattr(op, name)[i]) for name in POINT_FIELDS},
-        "losses": {name: _f(getattr(op, attr)[i]) for name, attr, _ in LOSS_TERMS},
+        "losses": {name: _f(loss_value(op, where)[i]) for name, where, _ in LOSS_TERMS},
         # the same values under the names of the first API version (kept for scripts that read them)
-        "losses_w": {name.removesuffix("_w"): _f(getattr(op, attr)[i]) for name, attr, _ in LOSS_TERMS},
+        "losses_w": {name.removesuffix("_w"): _f(loss_value(op, where)[i]) for name, where, _ in LOSS_TERMS},
         "craft": craft,
         "warnings": _warnings(system, op, i),
     }

@@ -189,7 +189,7 @@ def test_cruise_point_near_full_throttle_matches_the_physics_engine() -> None:
 def test_result_rows_carry_every_loss_term_of_the_physics_engine() -> None:
     """One loss vocabulary: a ranking row names exactly the terms of operating_point.LOSS_TERMS (+ the pack),
     and their values equal the reference solver's breakdown of the same cruise point."""
-    from server.physics.operating_point import LOSS_TERMS
+    from server.physics.operating_point import LOSS_TERMS, loss_value
 
     library, mission = parts.library(), parts.hover_mission()
     row = rank(library, mission, top_n=1).top[0]
@@ -205,5 +205,5 @@ def test_result_rows_carry_every_loss_term_of_the_physics_engine() -> None:
                           esc=es.params(np.array([e])), propeller=library.propellers.static.take(np.array([q])),
                           open_circuit_voltage_v=batch.voc_cruise_v, pack_resistance_ohm=batch.pack_resistance_ohm,
                           rotor_count=mission.rotor_count, density_kg_m3=mission.density_kg_m3)
-    for name, attr, _ in LOSS_TERMS:
-        assert row.cruise["losses"][name] == pytest.approx(float(getattr(op, attr)[0]), rel=1e-6, abs=1e-9), name
+    for name, where, _ in LOSS_TERMS:
+        assert row.cruise["losses"][name] == pytest.approx(float(loss_value(op, where)[0]), rel=1e-6, abs=1e-9), name
