@@ -14,4 +14,5 @@ vendor() {  # vendor <pkg> <version> <license-file> <file-in-package>...
 }
 vendor htmx.org 2.0.11 LICENSE    dist/htmx.min.js
 vendor chart.js 4.6.1  LICENSE.md dist/chart.umd.min.js
-{ cat "$tmp/manifest"; (cd "$dest" && sha256sum -- *.js); } > "$dest/MANIFEST.txt"
+vendor swagger-ui-dist 5.35.0 LICENSE swagger-ui-bundle.js swagger-ui.css
+{ cat "$tmp/manifest"; (cd "$dest" && sha256sum -- *.js *.css); } > "$dest/MANIFEST.txt"

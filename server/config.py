@@ -32,6 +32,10 @@ class Settings(BaseSettings):
     session_max_age_s: int = 14 * 24 * 3600
     cookie_secure: bool = False
     ranking_workers: int = 1
+    # Log-in throttling: failures allowed per account and per client address within the window, then 429.
+    login_failures_per_account: int = 5
+    login_failures_per_client: int = 30
+    login_window_s: int = 15 * 60
 
     @model_validator(mode="after")
     def _demo_secret_when_unset(self) -> Settings:

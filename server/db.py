@@ -10,6 +10,9 @@ from typing import Any
 from sqlalchemy import Engine, MetaData, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import DeclarativeBase, Session, sessionmaker
+from sqlalchemy.orm.exc import StaleDataError
+
+from server.errors import FieldError, InvalidInput, VersionMismatch
 
 NAMING_CONVENTION = {
     "ix": "ix_%(column_0_label)s",
@@ -40,6 +43,17 @@ def _sqlite_pragmas(dbapi_conn: Any, _record: Any) -> None:
     cur.close()
 
 
+def _refuse_nul(_conn: Any, _cursor: Any, _statement: str, parameters: Any, _context: Any, executemany: bool) -> None:
+    """Text with a NUL character never reaches the database (PostgreSQL refuses it with an error; SQLite would store
+    it): a 422 on both backends, whatever the path in (form, query string, JSON, CSV, library file)."""
+    rows = parameters if executemany else (parameters,)
+    for row in rows:
+        values = row.values() if isinstance(row, dict) else row if isinstance(row, list | tuple) else (row,)
+        for value in values:
+            if isinstance(value, str) and "\x00" in value:
+                raise InvalidInput("Text with a NUL character", [FieldError("text", "must not contain NUL characters")])
+
+
 def make_engine(url: str) -> Engine:
     """Create an engine; SQLite files get their folder created and the pragmas above."""
     if url.startswith("sqlite"):
@@ -48,12 +62,30 @@ def make_engine(url: str) -> Engine:
             Path(database).parent.mkdir(parents=True, exist_ok=True)
         engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30})
         event.listen(engine, "connect", _sqlite_pragmas)
-        return engine
-    return create_engine(url, pool_pre_ping=True)
+    else:
+        engine = create_engine(url, pool_pre_ping=True)
+    event.listen(engine, "before_cursor_execute", _refuse_nul)
+    return engine
+
+
+class AppSession(Session):
+    """A session whose lost races surface as domain errors.
+
+    A versioned row (``models._common.Versioned``) whose UPDATE matched no row was saved by someone else after
+    this session read it: that is a :class:`VersionMismatch` (412 / a form conflict), never a 500.
+    """
+
+    def flush(self, objects: Any = None) -> None:
+        try:
+            super().flush(objects)
+        except StaleDataError as exc:
+            raise VersionMismatch(
+                "Someone else saved this record after you loaded it; reload it and apply your change again"
+            ) from exc
 
 
 def make_sessionmaker(engine: Engine) -> sessionmaker[Session]:
-    return sessionmaker(engine, expire_on_commit=False)
+    return sessionmaker(engine, class_=AppSession, expire_on_commit=False)
 
 
 @contextmanager

@@ -12,7 +12,7 @@ from sqlalchemy.orm import Session
 from server.config import Settings
 from server.errors import Forbidden, Unauthorized
 from server.security import csrf_matches
-from server.services import teams
+from server.services import sessions, teams
 
 UNSAFE_METHODS = {"POST", "PUT", "PATCH", "DELETE"}
 MAX_ID = 2**63 - 1
@@ -68,15 +68,14 @@ def _from_bearer(request: Request, session: Session) -> Caller | None:
 
 
 def _from_session(request: Request, session: Session) -> Caller | None:
-    user_id = request.session.get("user_id")
-    team_id = request.session.get("team_id")
-    if not user_id or not team_id:
+    token = request.session.get("sid")
+    if not isinstance(token, str) or not token:
         return None
-    membership = teams.membership(session, user_id=int(user_id), team_id=int(team_id))
-    if membership is None:
-        request.session.pop("user_id", None)
+    membership = sessions.resolve(session, token)
+    if membership is None:  # logged out, expired, deactivated or removed: the cookie is dead
+        request.session.pop("sid", None)
         return None
-    return Caller(team_id, membership.team.name, membership.role, "session", user_id=int(user_id))
+    return Caller(membership.team_id, membership.team.name, membership.role, "session", user_id=membership.user_id)
 
 
 def check_csrf(request: Request, form_token: str | None = None) -> None:
@@ -89,7 +88,11 @@ def check_csrf(request: Request, form_token: str | None = None) -> None:
 
 
 async def _form_csrf(request: Request) -> str | None:
+    # Only a browser session (which holds a CSRF token) needs the form's token: a request without one is not read
+    # before authentication.
     if request.method not in UNSAFE_METHODS or request.headers.get("x-csrf-token"):
+        return None
+    if not request.session.get("csrf"):
         return None
     content_type = request.headers.get("content-type", "")
     if "form" not in content_type:

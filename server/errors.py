@@ -76,6 +76,21 @@ class InvalidInput(DomainError):
         super().__init__(detail, errors or [], status=422, title="Invalid input")
 
 
+def check_version(stored: int, expected: int | None, label: str) -> None:
+    """The first half of optimistic concurrency: the client must name the version it edited, and it must be the
+    one read now (the second half is the conditional UPDATE of ``models._common.Versioned``)."""
+    if expected is None:
+        raise PreconditionRequired(
+            'Send the version you edited: the header If-Match: "<version>" (the ETag of your GET), '
+            "or the query parameter ?version=<version>"
+        )
+    if expected != stored:
+        raise VersionMismatch(
+            f"This {label} was changed by someone else (now version {stored}, you sent {expected}); "
+            "reload it and apply your change again"
+        )
+
+
 def problem(
     status: int, title: str, detail: str, errors: list[dict[str, Any]] | None = None, **extra: Any
 ) -> dict[str, Any]:

@@ -74,9 +74,14 @@ def install(app: FastAPI) -> None:
 
     @app.exception_handler(StarletteHTTPException)
     async def http_error(request: Request, exc: StarletteHTTPException) -> Response:
-        title = {404: "Not found", 405: "Method not allowed"}.get(exc.status_code, "Error")
+        title = {404: "Not found", 405: "Method not allowed", 413: "Content too large",
+                 429: "Too many requests"}.get(exc.status_code, "Error")
         detail = str(exc.detail)
-        if _is_api(request):
+        if exc.status_code == 413:
+            limit = request.scope.get("starlette.max_body_size")
+            detail = (f"The request body is larger than this route accepts ({limit} bytes); nothing was read or "
+                      "saved" if limit else "The request body is too large")
+        if exc.status_code == 413 or _is_api(request):
             body = problem(exc.status_code, title, detail)
             return JSONResponse(body, status_code=exc.status_code, media_type=PROBLEM, headers=exc.headers)
         return _page(request, exc.status_code, title, detail, headers=exc.headers)

@@ -6,20 +6,33 @@ from collections.abc import AsyncIterator
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import asynccontextmanager
 
-from fastapi import FastAPI
+from fastapi import FastAPI, Request
+from fastapi.responses import HTMLResponse
 from fastapi.staticfiles import StaticFiles
 from starlette.middleware.sessions import SessionMiddleware
+from starlette.types import ASGIApp
 
 from server import __version__, http_errors
 from server.api import api_router
 from server.config import REPO_ROOT, Settings, get_settings
 from server.db import make_engine, make_sessionmaker
+from server.limits import MAX_BODY_BYTES
+from server.middleware import SecurityHeaders
 from server.models import FleetPlan, Ranking
 from server.pages import page_router
 from server.pages._render import make_templates
 from server.services import fleet, jobs, rankings
 
 WEB = REPO_ROOT / "web"
+
+
+class App(FastAPI):
+    """FastAPI with :class:`SecurityHeaders` around its whole middleware stack (outside even the error handler)."""
+
+    https = False
+
+    def build_middleware_stack(self) -> ASGIApp:
+        return SecurityHeaders(super().build_middleware_stack(), https=self.https)
 
 
 def create_app(settings: Settings | None = None) -> FastAPI:
@@ -39,15 +52,17 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.state.jobs.shutdown(wait=True, cancel_futures=True)
         engine.dispose()
 
-    app = FastAPI(
+    app = App(
         title="liftmatch",
         version=__version__,
         summary="Rank drone power systems (pack × ESC × motor × propeller) from your own parts and bench runs.",
         lifespan=lifespan,
         openapi_url="/api/v1/openapi.json",
-        docs_url="/api/v1/docs",
+        docs_url=None,  # served below from vendored files (no CDN)
         redoc_url=None,
-        responses={400: {"description": "Malformed request body"}},
+        responses={400: {"description": "Malformed request body"},
+                   413: {"description": "Request body larger than the route's limit (rejected before parsing)"}},
+        max_body_size=MAX_BODY_BYTES,
     )
     app.state.settings = settings
     app.state.templates = make_templates(WEB / "templates")
@@ -59,10 +74,18 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         same_site="lax",
         https_only=settings.cookie_secure,
     )
+    app.https = settings.cookie_secure
     app.mount("/static", StaticFiles(directory=WEB / "static"), name="static")
     app.include_router(api_router)
     app.include_router(page_router)
     http_errors.install(app)
+
+    @app.get("/api/v1/docs", include_in_schema=False, response_class=HTMLResponse)
+    def api_docs(request: Request) -> HTMLResponse:
+        templates = app.state.templates
+        response: HTMLResponse = templates.TemplateResponse(request, "pages/api_docs.html",
+                                                            {"openapi_url": app.openapi_url})
+        return response
 
     @app.get("/healthz", include_in_schema=False)
     def healthz() -> dict[str, str]:

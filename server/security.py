@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import hashlib
 import hmac
+import os
 import secrets
+import threading
 from functools import lru_cache
 
 from argon2 import PasswordHasher
@@ -24,21 +26,30 @@ def hasher(settings: Settings) -> PasswordHasher:
     return _hasher(settings.password_time_cost, settings.password_memory_kib, settings.password_parallelism)
 
 
+# argon2 costs 64 MiB and ~250 ms of one core per hash by default: at most one per core at a time, so a burst of
+# log-ins queues instead of exhausting memory and starving every other request.
+_ARGON2_SLOTS = threading.BoundedSemaphore(max(1, os.cpu_count() or 1))
+
+
 def hash_password(settings: Settings, password: str) -> str:
-    return hasher(settings).hash(password)
+    with _ARGON2_SLOTS:
+        return hasher(settings).hash(password)
 
 
-# A hash of a throwaway password, verified when the user does not exist so both paths cost the same.
-_DUMMY_PASSWORD = "not-a-real-password"
+@lru_cache(maxsize=8)
+def _dummy_hash(time_cost: int, memory_kib: int, parallelism: int) -> str:
+    """A hash of a throwaway password with the current cost, verified when the user does not exist."""
+    return _hasher(time_cost, memory_kib, parallelism).hash(secrets.token_urlsafe(16))
 
 
 def verify_password(settings: Settings, password_hash: str | None, password: str) -> bool:
+    """Constant work: an unknown user costs one verification, exactly as a known one (no timing oracle)."""
     ph = hasher(settings)
+    target = password_hash or _dummy_hash(settings.password_time_cost, settings.password_memory_kib,
+                                          settings.password_parallelism)
     try:
-        if password_hash is None:
-            ph.verify(ph.hash(_DUMMY_PASSWORD), password + "x")
-            return False
-        return ph.verify(password_hash, password)
+        with _ARGON2_SLOTS:
+            return ph.verify(target, password) and password_hash is not None
     except (VerificationError, InvalidHashError):
         return False
 

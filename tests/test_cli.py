@@ -71,8 +71,10 @@ def test_short_password_is_refused(
 def test_load_demo_then_key_lists_demo_motors_and_other_team_sees_none(
     cli_env: str, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    assert main(["load-demo"]) == 0
-    assert main(["load-demo"]) == 1  # refuses to load twice
+    assert main(["load-demo"]) == 1  # not in demo mode: the demo's published passwords would work here
+    assert "refusing to load the demo outside demo mode" in capsys.readouterr().err
+    assert main(["load-demo", "--with-demo-logins"]) == 0
+    assert main(["load-demo", "--with-demo-logins"]) == 1  # refuses to load twice
     capsys.readouterr()
     main(["create-api-key", "--team", "Northfold Survey", "--scope", "read"])
     demo_key = capsys.readouterr().out.strip()
@@ -113,7 +115,7 @@ def test_import_bench_and_calibrate(cli_env: str, capsys: pytest.CaptureFixture[
 
     from tests.api.test_bench_runs import csv_of
 
-    assert main(["load-demo"]) == 0
+    assert main(["load-demo", "--with-demo-logins"]) == 0
     capsys.readouterr()
     sweep = tmp_path / "sweep.csv"
     sweep.write_text(csv_of("m_a_p_1_v7p4"))
@@ -133,7 +135,7 @@ def test_import_bench_and_calibrate(cli_env: str, capsys: pytest.CaptureFixture[
 def test_export_then_import_into_another_team(cli_env: str, capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     import json
 
-    assert main(["load-demo"]) == 0
+    assert main(["load-demo", "--with-demo-logins"]) == 0
     target = tmp_path / "library.json"
     assert main(["export", "--team", "Northfold Survey", str(target)]) == 0
     main(["create-team", "Second site"])

@@ -12,10 +12,11 @@ VENDOR = REPO_ROOT / "web" / "static" / "vendor"
 def test_vendored_files_match_manifest() -> None:
     lines = (VENDOR / "MANIFEST.txt").read_text().splitlines()
     sums = [line.split() for line in lines if len(line.split()) == 2 and len(line.split()[0]) == 64]
-    assert {name for _, name in sums} == {"htmx.min.js", "chart.umd.min.js"}
+    assert {name for _, name in sums} == {"htmx.min.js", "chart.umd.min.js", "swagger-ui-bundle.js", "swagger-ui.css"}
     for digest, name in sums:
         assert hashlib.sha256((VENDOR / name).read_bytes()).hexdigest() == digest, name
-    assert (VENDOR / "LICENSE.htmx.org.txt").exists() and (VENDOR / "LICENSE.chart.js.txt").exists()
+    for licence in ("LICENSE.htmx.org.txt", "LICENSE.chart.js.txt", "LICENSE.swagger-ui-dist.txt"):
+        assert (VENDOR / licence).exists()
 
 
 def test_pages_load_no_third_party_urls() -> None:

@@ -10,10 +10,10 @@ from server.errors import FieldError, InvalidInput
 
 
 def parse_if_match(header: str | None, body_version: Any = None) -> int | None:
-    """The version a client says it edited: ``If-Match: "3"`` (weak tags accepted) or a body ``version``."""
+    """The version a client says it edited: ``If-Match: "3"`` (weak tags accepted) or ``?version=3``."""
     if header:
         tag = header.strip().removeprefix("W/").strip('"')
-        if not tag.isdigit():
+        if not (tag.isascii() and tag.isdigit() and len(tag) <= 18):
             raise InvalidInput("Bad If-Match header", [FieldError("If-Match", 'must be a version tag like "3"')])
         return int(tag)
     if body_version is None:

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from typing import Annotated, Any
 
 from fastapi import APIRouter, File, Form, Query, UploadFile
@@ -11,9 +10,10 @@ from pydantic import ValidationError
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.errors import FieldError, InvalidInput
+from server.limits import UPLOAD_BODY_BYTES
 from server.schemas.bench_runs import BenchRunDetail, BenchRunMeta, BenchRunSummary, BenchRunUploaded
 from server.services import bench_runs as bench_service
-from server.services._validation import field_errors
+from server.services._validation import field_errors, parse_json
 from server.uploads import read_upload
 
 router = APIRouter(tags=["bench runs"])
@@ -21,10 +21,7 @@ MAX_UPLOAD = 2 * 1024 * 1024
 
 
 def parse_meta(text: str) -> BenchRunMeta:
-    try:
-        data = json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise InvalidInput("Bad metadata", [FieldError("metadata", f"not JSON: {exc.msg}")]) from None
+    data = parse_json(text, field="metadata")
     try:
         return BenchRunMeta.model_validate(data)
     except ValidationError as exc:
@@ -32,7 +29,7 @@ def parse_meta(text: str) -> BenchRunMeta:
                                                 for e in field_errors(exc)]) from None
 
 
-@router.post("/bench-runs", status_code=201, response_model=BenchRunUploaded)
+@router.post("/bench-runs", status_code=201, response_model=BenchRunUploaded, max_body_size=UPLOAD_BODY_BYTES)
 def upload(
     caller: WriterDep, session: SessionDep,
     file: Annotated[UploadFile, File(description="Bench-run CSV (unit-suffixed headers)")],

@@ -10,6 +10,7 @@ from pydantic import BaseModel
 
 from server.api._http import parse_if_match, set_etag
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
+from server.limits import UPLOAD_BODY_BYTES
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS, UPDATE_SCHEMAS, PartsImported
 from server.services import parts as parts_service
 from server.uploads import read_upload
@@ -92,7 +93,7 @@ def _add_kind_routes(kind: str) -> None:
         )
 
     @router.post(f"/{kind}/import", status_code=201, response_model=PartsImported,
-                 summary=f"Import {many.lower()} from CSV (all rows or none)")
+                 summary=f"Import {many.lower()} from CSV (all rows or none)", max_body_size=UPLOAD_BODY_BYTES)
     def import_kind(
         caller: WriterDep, session: SessionDep, file: Annotated[UploadFile, File(description="CSV file")]
     ) -> dict[str, Any]:

@@ -7,7 +7,6 @@ from typing import Any
 from fastapi import APIRouter
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
-from server.errors import Forbidden
 from server.models import ApiKey
 from server.schemas.teams import ApiKeyCreate, ApiKeyCreated, ApiKeyRead, Me, MemberRead
 from server.services import teams
@@ -45,8 +44,7 @@ def list_keys(caller: CallerDep, session: SessionDep) -> list[ApiKey]:
 @router.post("/team/api-keys", status_code=201, response_model=ApiKeyCreated)
 def create_key(caller: WriterDep, session: SessionDep, data: ApiKeyCreate) -> dict[str, Any]:
     """Create an API key; the response is the only time the key is shown."""
-    if caller.via == "key":
-        raise Forbidden("API keys cannot create further keys; log in to the team page")
+    teams.check_may_create_key(role=caller.role, via=caller.via, scope=data.scope)
     row, key = teams.create_api_key(
         session, team_id=caller.team_id, scope=data.scope, name=data.name, created_by_id=caller.user_id
     )
@@ -57,6 +55,7 @@ def create_key(caller: WriterDep, session: SessionDep, data: ApiKeyCreate) -> di
 @router.post("/team/api-keys/{key_id}/revoke", response_model=ApiKeyRead)
 def revoke_key(caller: WriterDep, session: SessionDep, key_id: IdPath) -> ApiKey:
     """Revoke an API key at once."""
-    row = teams.revoke_api_key(session, team_id=caller.team_id, key_id=key_id)
+    row = teams.revoke_api_key(session, team_id=caller.team_id, key_id=key_id, role=caller.role, via=caller.via,
+                               user_id=caller.user_id, api_key_id=caller.api_key_id)
     session.commit()
     return row

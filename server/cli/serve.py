@@ -21,6 +21,12 @@ def cmd_migrate(args: argparse.Namespace, settings: Settings) -> int:
 def cmd_load_demo(args: argparse.Namespace, settings: Settings) -> int:
     from server.services import seed
 
+    if not settings.demo and not args.with_demo_logins:
+        raise CliError(
+            "refusing to load the demo outside demo mode: it creates users whose passwords are published in the "
+            "README; run with LIFTMATCH_DEMO=1, or pass --with-demo-logins if that is really what you want"
+        )
+
     with transaction(session_factory(settings)) as session:
         summary = seed.load_demo(session, settings=settings)
     print(summary, file=sys.stderr)
@@ -79,4 +85,6 @@ def register(add: AddCommand) -> None:
             p.add_argument("--reload", action="store_true", help="restart on code changes (development)")
     p = add("migrate", cmd_migrate, "bring the database schema up to date")
     p.add_argument("--revision", default="head")
-    add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
+    p = add("load-demo", cmd_load_demo, "load the invented demo scenario (Northfold Survey)")
+    p.add_argument("--with-demo-logins", action="store_true",
+                   help="load it even outside demo mode (its users' passwords are published)")

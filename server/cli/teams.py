@@ -37,6 +37,7 @@ def cmd_create_user(args: argparse.Namespace, settings: Settings) -> int:
     password = _read_password(args)
     with transaction(session_factory(settings)) as session:
         team = teams.get_team_by_name(session, name=args.team)
+        existed = teams.find_user(session, email=args.email) is not None
         user = teams.create_user(
             session,
             settings=settings,
@@ -45,7 +46,11 @@ def cmd_create_user(args: argparse.Namespace, settings: Settings) -> int:
             team=team,
             role=args.role,
             display_name=args.name or "",
+            existing="add",
         )
+        if existed:
+            print(f"{args.email} already had an account: added to {args.team}; its password was not changed",
+                  file=sys.stderr)
         print(user.id)
     return 0
 
@@ -57,6 +62,26 @@ def cmd_create_api_key(args: argparse.Namespace, settings: Settings) -> int:
         team = teams.get_team_by_name(session, name=args.team)
         _, key = teams.create_api_key(session, team_id=team.id, scope=args.scope, name=args.name or "")
     print(key)  # alone on stdout: scripts capture it
+    return 0
+
+
+def cmd_set_password(args: argparse.Namespace, settings: Settings) -> int:
+    from server.services import teams
+
+    password = _read_password(args)
+    with transaction(session_factory(settings)) as session:
+        teams.set_password(session, settings=settings, email=args.email, password=password)
+    print(f"password of {args.email} changed; its sessions were ended", file=sys.stderr)
+    return 0
+
+
+def cmd_set_active(args: argparse.Namespace, settings: Settings) -> int:
+    from server.services import teams
+
+    active = args.command == "activate-user"
+    with transaction(session_factory(settings)) as session:
+        teams.set_active(session, email=args.email, active=active)
+    print(f"{args.email} {'activated' if active else 'deactivated; its sessions were ended'}", file=sys.stderr)
     return 0
 
 
@@ -74,3 +99,10 @@ def register(add: AddCommand) -> None:
     p.add_argument("--team", required=True)
     p.add_argument("--scope", required=True, choices=["read", "write"])
     p.add_argument("--name", help="what the key is for")
+    p = add("set-password", cmd_set_password, "reset a user's password (ends that user's sessions)")
+    p.add_argument("email")
+    p.add_argument("--password-stdin", action="store_true", help="read the password from the first stdin line")
+    for name, text in (("deactivate-user", "deactivate an account (its sessions end at once)"),
+                       ("activate-user", "activate an account again")):
+        p = add(name, cmd_set_active, text)
+        p.add_argument("email")

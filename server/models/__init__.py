@@ -7,7 +7,7 @@ from server.models.missions import Airframe, Mission
 from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
 from server.models.rankings import Ranking, RankingResult
 from server.models.shortlists import Shortlist, ShortlistEntry
-from server.models.teams import ApiKey, Membership, Team, User
+from server.models.teams import ApiKey, LoginFailure, LoginSession, Membership, Team, User
 
 __all__ = [
     "PART_MODELS",
@@ -19,6 +19,8 @@ __all__ = [
     "Calibration",
     "Esc",
     "FleetPlan",
+    "LoginFailure",
+    "LoginSession",
     "Membership",
     "Mission",
     "Motor",

@@ -6,10 +6,10 @@ from sqlalchemy import Float, ForeignKey, Integer, String, Text
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.db import Base
-from server.models._common import TeamOwned, Timestamped
+from server.models._common import TeamOwned, Timestamped, Versioned
 
 
-class Airframe(TeamOwned, Timestamped, Base):
+class Airframe(TeamOwned, Timestamped, Versioned, Base):
     """An airframe; frame mass excludes motors, ESCs, propellers and packs."""
 
     __tablename__ = "airframe"
@@ -20,12 +20,11 @@ class Airframe(TeamOwned, Timestamped, Base):
     max_prop_diameter_in: Mapped[float | None] = mapped_column(Float, nullable=True)
     max_packs_in_parallel: Mapped[int] = mapped_column(Integer, default=1)
     notes: Mapped[str] = mapped_column(Text, default="")
-    version: Mapped[int] = mapped_column(Integer, default=1)
 
     missions: Mapped[list[Mission]] = relationship(back_populates="airframe", passive_deletes=True)
 
 
-class Mission(TeamOwned, Timestamped, Base):
+class Mission(TeamOwned, Timestamped, Versioned, Base):
     """What an airframe must do: hover or cruise point, conditions, and the limits a system must keep."""
 
     __tablename__ = "mission"
@@ -49,6 +48,5 @@ class Mission(TeamOwned, Timestamped, Base):
     cruise_state_of_charge: Mapped[float] = mapped_column(Float, default=0.5)
     max_all_up_mass_g: Mapped[float | None] = mapped_column(Float, nullable=True)
     notes: Mapped[str] = mapped_column(Text, default="")
-    version: Mapped[int] = mapped_column(Integer, default=1)
 
     airframe: Mapped[Airframe] = relationship(back_populates="missions")

@@ -8,10 +8,10 @@ from sqlalchemy import JSON, Boolean, Float, ForeignKey, Integer, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
 from server.db import Base
-from server.models._common import TeamOwned, Timestamped
+from server.models._common import TeamOwned, Timestamped, Versioned
 
 
-class PartColumns(TeamOwned, Timestamped):
+class PartColumns(TeamOwned, Timestamped, Versioned):
     """Columns every part kind has."""
 
     name: Mapped[str] = mapped_column(String(120))
@@ -22,7 +22,6 @@ class PartColumns(TeamOwned, Timestamped):
     mass_g: Mapped[float] = mapped_column(Float)
     notes: Mapped[str] = mapped_column(Text, default="")
     archived: Mapped[bool] = mapped_column(Boolean, default=False)
-    version: Mapped[int] = mapped_column(Integer, default=1)
     created_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id", ondelete="SET NULL"), nullable=True)
     updated_by_id: Mapped[int | None] = mapped_column(ForeignKey("user_account.id", ondelete="SET NULL"), nullable=True)
 

@@ -10,6 +10,7 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
+from server.limits import UPLOAD_BODY_BYTES
 from server.pages._render import error_lines, form_values, render
 from server.schemas.bench_runs import BenchRunMeta
 from server.services import bench_runs as bench_service
@@ -56,7 +57,7 @@ async def _read_form(request: Request) -> tuple[dict[str, str], bytes, str]:
         return form_values(form), raw, filename
 
 
-@router.post("/preview", response_class=HTMLResponse)
+@router.post("/preview", response_class=HTMLResponse, max_body_size=UPLOAD_BODY_BYTES)
 async def preview(request: Request, caller: PageWriter, session: SessionDep) -> HTMLResponse:
     values, raw, _ = await _read_form(request)
     try:
@@ -66,7 +67,7 @@ async def preview(request: Request, caller: PageWriter, session: SessionDep) -> 
     return _list(request, session, caller, preview=result, values=values)
 
 
-@router.post("", response_class=HTMLResponse)
+@router.post("", response_class=HTMLResponse, max_body_size=UPLOAD_BODY_BYTES)
 async def upload(request: Request, caller: PageWriter, session: SessionDep) -> Response:
     values, raw, filename = await _read_form(request)
     try:

@@ -11,6 +11,7 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import InvalidInput
+from server.limits import UPLOAD_BODY_BYTES
 from server.pages._forms import FormField, form_fields, form_to_data, values_of
 from server.pages._render import form_values, form_version, render, save_edit
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS
@@ -237,7 +238,7 @@ async def archive(request: Request, caller: PageWriter, session: SessionDep, kin
     return RedirectResponse(f"/parts/{kind}", status_code=303)
 
 
-@router.post("/{kind}/import", response_class=HTMLResponse)
+@router.post("/{kind}/import", response_class=HTMLResponse, max_body_size=UPLOAD_BODY_BYTES)
 def import_csv(
     request: Request,
     caller: PageWriter,

@@ -12,7 +12,14 @@ from pydantic.fields import FieldInfo
 
 
 def _fmt(value: float) -> str:
+    if isinstance(value, int) and value.bit_length() > 53:  # beyond a float: do not convert (it may overflow)
+        return f"a number of about {int(value.bit_length() * 0.30103) + 1} digits"
     return f"{value:g}"
+
+
+# C0 control characters other than tab, newline and carriage return: never meaningful in our text, and
+# PostgreSQL refuses NUL in text columns (a 500 before this check).
+_CONTROL = {chr(c) for c in range(32)} - {"\t", "\n", "\r"}
 
 
 def ranged(tp: type, lo: float, hi: float, unit: str, *, description: str = "", title: str | None = None) -> Any:
@@ -40,6 +47,8 @@ def text(max_length: int, *, description: str = "", min_length: int = 0) -> Any:
         if value is None:  # only reachable through the partial (update) schemas, where None = unchanged
             return value
         value = value.strip()
+        if not _CONTROL.isdisjoint(value):
+            raise ValueError("must not contain control characters (such as NUL)")
         if len(value) < min_length:
             raise ValueError("must not be empty" if min_length == 1 else f"needs at least {min_length} characters")
         return value

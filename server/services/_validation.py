@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 from typing import Any
 
 from pydantic import BaseModel, ValidationError
@@ -26,3 +27,16 @@ def validate(model: type[BaseModel], data: dict[str, Any], *, what: str) -> Any:
         return model.model_validate(data)
     except ValidationError as exc:
         raise InvalidInput(f"Invalid {what}", field_errors(exc)) from exc
+
+
+def parse_json(text: str | bytes, *, field: str, row: int | None = None) -> Any:
+    """JSON text from a user (a form field, a CSV cell, a file); any failure, including nesting too deep for the
+    parser (RecursionError), is a 422 naming ``field``."""
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise InvalidInput("Invalid JSON", [FieldError(field, f"not JSON: {exc.msg} (position {exc.pos})", row)]) \
+            from None
+    except (RecursionError, ValueError) as exc:  # too deeply nested, or bytes that are not UTF-8
+        message = "nested too deeply" if isinstance(exc, RecursionError) else "not UTF-8 JSON text"
+        raise InvalidInput("Invalid JSON", [FieldError(field, message, row)]) from None

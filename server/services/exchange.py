@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
 from server.models import PART_MODELS, Airframe, BenchRun, BenchSample, Calibration, Mission
-from server.schemas.bench_runs import BenchRunMeta
+from server.schemas.exchange import ImportFile
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.schemas.parts import CREATE_SCHEMAS
 from server.services import parts as parts_service
@@ -28,6 +28,7 @@ SAMPLE_FIELDS = ["position", "throttle", "bus_voltage_v", "bus_current_a", "rpm"
                  "temperature_c", "flag"]
 RUN_FIELDS = ["name", "altitude_m", "air_temperature_c", "air_pressure_pa", "throttle_offset", "throttle_scale",
               "air_density_kg_m3", "filename", "notes", "sample_count", "flagged_count", "supply_voltage_v"]
+MAX_REPORTED = 200
 CALIBRATION_FIELDS = ["part_kind", "parameters", "residual_rms", "residual_unit", "sample_count", "notes",
                       "engine_version", "active"]
 
@@ -56,92 +57,110 @@ def export(session: Session, *, team_id: int, team_name: str) -> dict[str, Any]:
             "calibrations": calibrations}
 
 
-def _validate(schema: Any, data: dict[str, Any], where: str, errors: list[FieldError]) -> Any:
-    try:
-        return schema.model_validate(data)
-    except ValidationError as exc:
-        errors.extend(FieldError(f"{where}.{e.field}", e.message) for e in field_errors(exc))
-        return None
+def _ref(mapping: dict[int | None, int], ref: int | None) -> int | None:
+    return None if ref is None else mapping[ref]
 
 
-def _ref(mapping: dict[Any, int], ref: Any, where: str, errors: list[FieldError]) -> int | None:
-    if ref is None:
-        return None
-    if ref not in mapping:
-        errors.append(FieldError(where, f"refers to {ref!r}, which is not in the file"))
-        return None
-    return mapping[ref]
+def _items(value: Any) -> list[tuple[int, dict[str, Any]]]:
+    return [(i, row) for i, row in enumerate(value) if isinstance(row, dict)] if isinstance(value, list) else []
 
 
-def import_library(session: Session, *, team_id: int, user_id: int | None, data: Any) -> dict[str, int]:
-    """Create everything in the file in the caller's team, or nothing (errors name the path in the file)."""
+def _reference_errors(data: dict[str, Any]) -> list[FieldError]:
+    """Refs that appear twice or point at nothing in the file (checked on the raw file, so these are reported
+    together with any type errors)."""
+    errors: list[FieldError] = []
+
+    def known(rows: Any, where: str) -> set[Any]:
+        seen: set[Any] = set()
+        for i, row in _items(rows):
+            ref = row.get("ref", i)
+            if not isinstance(ref, int | str):  # a type error, reported by the schema
+                continue
+            if ref in seen:
+                errors.append(FieldError(f"{where}.{i}.ref", f"ref {ref!r} appears twice"))
+            seen.add(ref)
+        return seen
+
+    def check(refs: set[Any], value: Any, where: str) -> None:
+        if isinstance(value, int | str) and value not in refs:
+            errors.append(FieldError(where, f"refers to {value!r}, which is not in the file"))
+
+    parts: dict[str, Any] = data["parts"] if isinstance(data.get("parts"), dict) else {}
+    part_refs = {kind: known(parts.get(kind), f"parts.{kind}") for kind in CREATE_SCHEMAS}
+    airframes = known(data.get("airframes"), "airframes")
+    for i, row in _items(data.get("missions")):
+        check(airframes, row.get("airframe_id"), f"missions.{i}.airframe_id")
+    runs = known(data.get("bench_runs"), "bench_runs")
+    for i, row in _items(data.get("bench_runs")):
+        for name, kind in (("motor", "motors"), ("propeller", "propellers"), ("esc", "escs"), ("pack", "batteries")):
+            check(part_refs[kind], row.get(f"{name}_ref"), f"bench_runs.{i}.{name}_ref")
+    for i, row in _items(data.get("calibrations")):
+        if isinstance(row.get("part_kind"), str) and row["part_kind"] in part_refs:
+            check(part_refs[row["part_kind"]], row.get("part_ref"), f"calibrations.{i}.part_ref")
+        for j, ref in enumerate(row.get("run_refs") or [] if isinstance(row.get("run_refs"), list) else []):
+            check(runs, ref, f"calibrations.{i}.run_refs.{j}")
+    return errors
+
+
+def parse_library(data: Any) -> ImportFile:
+    """The file validated as a whole (every nested value typed and bounded, every ref resolvable); a 422 naming
+    each path in the file otherwise."""
     if not isinstance(data, dict) or data.get("format") != FORMAT:
         raise InvalidInput("Not a library file", [FieldError("format", f"must be {FORMAT!r}")])
     if data.get("version") != VERSION:
         raise InvalidInput("Unknown version", [FieldError("version", f"this server reads version {VERSION}")])
-    errors: list[FieldError] = []
-    part_ids: dict[str, dict[Any, int]] = {}
+    errors = []
+    library = None
+    try:
+        library = ImportFile.model_validate(data)
+    except ValidationError as exc:
+        errors = field_errors(exc)
+    errors += _reference_errors(data)
+    if errors or library is None:
+        raise InvalidInput(f"{len(errors)} problem(s) in the library file; nothing was imported",
+                           errors[:MAX_REPORTED])
+    return library
+
+
+def import_library(session: Session, *, team_id: int, user_id: int | None, data: Any) -> dict[str, int]:
+    """Create everything in the file in the caller's team, or nothing (errors name the path in the file)."""
+    library = parse_library(data)
+    part_ids: dict[str, dict[int | None, int]] = {}
     counts: dict[str, int] = {}
     for kind, schema in CREATE_SCHEMAS.items():
         part_ids[kind] = {}
-        rows = data.get("parts", {}).get(kind, [])
+        rows = getattr(library.parts, kind)
         for i, row in enumerate(rows):
-            fields = {k: v for k, v in row.items() if k not in ("ref", "archived")}
-            model = _validate(schema, fields, f"parts.{kind}.{i}", errors)
-            if model is not None:
-                part = parts_service.create_part(session, team_id=team_id, user_id=user_id, kind=kind, data=model)
-                part.archived = bool(row.get("archived", False))
-                part_ids[kind][row.get("ref", i)] = part.id
+            model = schema.model_validate(row.model_dump(exclude={"ref", "archived"}))
+            part = parts_service.create_part(session, team_id=team_id, user_id=user_id, kind=kind, data=model)
+            part.archived = row.archived
+            part_ids[kind][row.ref if row.ref is not None else i] = part.id
         counts[kind] = len(rows)
-    airframe_ids: dict[Any, int] = {}
-    for i, row in enumerate(data.get("airframes", [])):
-        model = _validate(AirframeCreate, {k: v for k, v in row.items() if k != "ref"}, f"airframes.{i}", errors)
-        if model is not None:
-            airframe = Airframe(team_id=team_id, version=1, **model.model_dump())
-            session.add(airframe)
-            session.flush()
-            airframe_ids[row.get("ref", i)] = airframe.id
-    for i, row in enumerate(data.get("missions", [])):
-        airframe_id = _ref(airframe_ids, row.get("airframe_id"), f"missions.{i}.airframe_id", errors)
-        fields = {k: v for k, v in row.items() if k != "ref"} | {"airframe_id": airframe_id or 1}
-        model = _validate(MissionCreate, fields, f"missions.{i}", errors)
-        if model is not None and airframe_id is not None:
-            session.add(Mission(team_id=team_id, version=1, **model.model_dump()))
-    run_ids: dict[Any, int] = {}
-    for i, row in enumerate(data.get("bench_runs", [])):
-        refs = {name: _ref(part_ids[kind], row.get(f"{name}_ref"), f"bench_runs.{i}.{name}_ref", errors)
+    airframe_ids: dict[int | None, int] = {}
+    for i, airframe_row in enumerate(library.airframes):
+        airframe = Airframe(team_id=team_id, **airframe_row.model_dump(exclude={"ref"}))
+        session.add(airframe)
+        session.flush()
+        airframe_ids[airframe_row.ref if airframe_row.ref is not None else i] = airframe.id
+    for mission_row in library.missions:
+        session.add(Mission(team_id=team_id, **mission_row.model_dump(exclude={"ref"}) | {
+            "airframe_id": airframe_ids[mission_row.airframe_id]}))
+    run_ids: dict[int | None, int] = {}
+    for i, run_row in enumerate(library.bench_runs):
+        refs = {name: _ref(part_ids[kind], getattr(run_row, f"{name}_ref"))
                 for name, kind in (("motor", "motors"), ("propeller", "propellers"), ("esc", "escs"),
                                    ("pack", "batteries"))}
-        meta = _validate(BenchRunMeta, {
-            "name": row.get("name", ""), "motor_id": refs["motor"] or 1, "propeller_id": refs["propeller"] or 1,
-            "esc_id": refs["esc"] or 1, "pack_id": refs["pack"], "supply_voltage_v": row.get("supply_voltage_v"),
-            "altitude_m": row.get("altitude_m", 0.0), "air_temperature_c": row.get("air_temperature_c"),
-            "air_pressure_pa": row.get("air_pressure_pa"), "throttle_offset": row.get("throttle_offset", 0.0),
-            "throttle_scale": row.get("throttle_scale", 1.0), "notes": row.get("notes", ""),
-        }, f"bench_runs.{i}", errors)
-        if meta is None or None in (refs["motor"], refs["propeller"], refs["esc"]):
-            continue
-        run = BenchRun(team_id=team_id, created_by_id=user_id, **meta.model_dump(),
-                       air_density_kg_m3=float(row["air_density_kg_m3"]), filename=row.get("filename", ""),
-                       sample_count=len(row.get("samples", [])), flagged_count=int(row.get("flagged_count", 0)))
+        fields = run_row.model_dump(exclude={"ref", "motor_ref", "propeller_ref", "esc_ref", "pack_ref", "samples"})
+        run = BenchRun(team_id=team_id, created_by_id=user_id, motor_id=refs["motor"], propeller_id=refs["propeller"],
+                       esc_id=refs["esc"], pack_id=refs["pack"], **fields | {"sample_count": len(run_row.samples)})
         session.add(run)
         session.flush()
-        run_ids[row.get("ref", i)] = run.id
-        session.add_all(BenchSample(run_id=run.id, **{f: s.get(f) for f in SAMPLE_FIELDS})
-                        for s in row.get("samples", []))
-    for i, row in enumerate(data.get("calibrations", [])):
-        kind = row.get("part_kind")
-        if kind not in part_ids:
-            errors.append(FieldError(f"calibrations.{i}.part_kind", "must be escs, motors or propellers"))
-            continue
-        part_id = _ref(part_ids[kind], row.get("part_ref"), f"calibrations.{i}.part_ref", errors)
-        if part_id is None:
-            continue
-        session.add(Calibration(team_id=team_id, part_id=part_id,
-                                run_ids=[run_ids[r] for r in row.get("run_refs", []) if r in run_ids],
-                                **{f: row.get(f) for f in CALIBRATION_FIELDS}))
-    if errors:
-        raise InvalidInput(f"{len(errors)} problem(s) in the library file; nothing was imported", errors[:200])
+        run_ids[run_row.ref if run_row.ref is not None else i] = run.id
+        session.add_all(BenchSample(run_id=run.id, **s.model_dump()) for s in run_row.samples)
+    for cal_row in library.calibrations:
+        session.add(Calibration(team_id=team_id, part_id=part_ids[cal_row.part_kind][cal_row.part_ref],
+                                run_ids=[run_ids[r] for r in cal_row.run_refs],
+                                **cal_row.model_dump(mode="json", exclude={"part_ref", "run_refs"})))
     session.flush()
-    return {**counts, "airframes": len(airframe_ids), "missions": len(data.get("missions", [])),
-            "bench_runs": len(run_ids), "calibrations": len(data.get("calibrations", []))}
+    return {**counts, "airframes": len(airframe_ids), "missions": len(library.missions),
+            "bench_runs": len(run_ids), "calibrations": len(library.calibrations)}

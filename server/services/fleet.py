@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import csv
 import io
 import logging
 import math
@@ -13,6 +12,7 @@ from typing import Any
 from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
+from server.csv_cells import csv_writer
 from server.errors import FieldError, InvalidInput, NotFound
 from server.models import PART_MODELS, FleetPlan
 from server.schemas.fleet import FleetPlanCreate
@@ -226,7 +226,7 @@ def bom_csv(session: Session, *, team_id: int, plan_id: int) -> str:
             entry["quantity"] += count * snap["airframes"]
             entry["missions"].append(snap["mission"]["name"])
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = csv_writer(out)
     writer.writerow(
         ["kind", "name", "maker", "part_number", "quantity", "unit_cost", "currency", "total_cost", "missions"]
     )

@@ -8,7 +8,7 @@ from pydantic import BaseModel
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from server.errors import Conflict, FieldError, InvalidInput, NotFound, PreconditionRequired, VersionMismatch
+from server.errors import Conflict, FieldError, InvalidInput, NotFound, check_version
 from server.models import Airframe, Mission, Shortlist
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.services._validation import validate
@@ -54,7 +54,7 @@ def _apply(row: Airframe | Mission, data: BaseModel) -> None:
 
 
 def create_airframe(session: Session, *, team_id: int, data: AirframeCreate) -> Airframe:
-    row = Airframe(team_id=team_id, version=1)
+    row = Airframe(team_id=team_id)
     _apply(row, data)
     session.add(row)
     session.flush()
@@ -63,30 +63,20 @@ def create_airframe(session: Session, *, team_id: int, data: AirframeCreate) -> 
 
 def create_mission(session: Session, *, team_id: int, data: MissionCreate) -> Mission:
     _check_airframe(session, team_id=team_id, airframe_id=data.airframe_id)
-    row = Mission(team_id=team_id, version=1)
+    row = Mission(team_id=team_id)
     _apply(row, data)
     session.add(row)
     session.flush()
     return row
 
 
-def _check_version(row: Airframe | Mission, expected: int | None, label: str) -> None:
-    if expected is None:
-        raise PreconditionRequired("Send If-Match: \"<version>\" (or a 'version' field) to update")
-    if expected != row.version:
-        raise VersionMismatch(
-            f"This {label} was changed by someone else (now version {row.version}, you sent {expected})"
-        )
-
-
 def update_airframe(
     session: Session, *, team_id: int, airframe_id: int, changes: dict[str, Any], expected_version: int | None
 ) -> Airframe:
     row = get_airframe(session, team_id=team_id, airframe_id=airframe_id)
-    _check_version(row, expected_version, "airframe")
+    check_version(row.version, expected_version, "airframe")
     merged = {name: getattr(row, name) for name in AirframeCreate.model_fields} | changes
     _apply(row, validate(AirframeCreate, merged, what="airframe"))
-    row.version += 1
     session.flush()
     return row
 
@@ -95,12 +85,11 @@ def update_mission(
     session: Session, *, team_id: int, mission_id: int, changes: dict[str, Any], expected_version: int | None
 ) -> Mission:
     row = get_mission(session, team_id=team_id, mission_id=mission_id)
-    _check_version(row, expected_version, "mission")
+    check_version(row.version, expected_version, "mission")
     merged = {name: getattr(row, name) for name in MissionCreate.model_fields} | changes
     data = validate(MissionCreate, merged, what="mission")
     _check_airframe(session, team_id=team_id, airframe_id=data.airframe_id)
     _apply(row, data)
-    row.version += 1
     session.flush()
     return row
 

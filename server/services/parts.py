@@ -5,23 +5,31 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
+import operator
+from collections import Counter
 from collections.abc import Sequence
+from datetime import datetime
 from typing import Any, Literal, overload
 
 from pydantic import BaseModel, ValidationError
 from sqlalchemy import Column, func, or_, select
 from sqlalchemy.orm import Session
 
-from server.errors import Conflict, FieldError, InvalidInput, NotFound, PreconditionRequired, VersionMismatch
+from server.csv_cells import csv_writer, unescape_cell
+from server.errors import Conflict, FieldError, InvalidInput, NotFound, check_version
 from server.models import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS
-from server.services._validation import field_errors, validate
+from server.services._validation import field_errors, parse_json, validate
 
 MAX_PAGE_SIZE = 500
 MAX_IMPORT_ROWS = 5000
 MAX_IMPORT_BYTES = 2 * 1024 * 1024
+MAX_REPORTED_ERRORS = 200
 JSON_COLUMNS = ("static_table", "forward_table")
 WHERE_OPERATORS = (">=", "<=", "!=", "=", ">", "<")
+COMPARE = {">=": operator.ge, "<=": operator.le, "!=": operator.ne, "=": operator.eq, ">": operator.gt,
+           "<": operator.lt}
 
 
 def model_for(kind: str) -> type[PartColumns]:
@@ -50,23 +58,41 @@ def _column(model: type[PartColumns], name: str, field: str) -> Column[Any]:
     return column
 
 
+def _filter_value(column: Column[Any], raw: str) -> Any:
+    """The text of a ``where=`` clause as a value of the column's type (422 when it is not one)."""
+    raw = raw.strip()
+    kind = column.type.python_type
+    if kind is bool:
+        if raw.lower() in ("true", "1", "yes"):
+            return True
+        if raw.lower() in ("false", "0", "no"):
+            return False
+        raise InvalidInput("Bad filter", [FieldError("where", f"{raw[:40]!r} is not true or false")])
+    if kind in (int, float):
+        try:
+            value = float(raw)
+        except ValueError:
+            value = math.nan
+        if not math.isfinite(value):
+            raise InvalidInput("Bad filter", [FieldError("where", f"{raw[:40]!r} is not a finite number")])
+        return value
+    if kind is datetime:
+        try:
+            return datetime.fromisoformat(raw)
+        except ValueError:
+            raise InvalidInput("Bad filter", [FieldError("where", f"{raw[:40]!r} is not an ISO date-time")]) from None
+    return raw
+
+
 def _where(model: type[PartColumns], clause: str) -> Any:
     for op in WHERE_OPERATORS:
         name, sep, raw = clause.partition(op)
         if sep:
             column = _column(model, name.strip(), "where")
-            try:
-                value: Any = float(raw) if column.type.python_type in (int, float) else raw.strip()
-            except (ValueError, NotImplementedError):
-                raise InvalidInput("Bad filter", [FieldError("where", f"{raw!r} is not a number")]) from None
-            return {
-                ">=": column >= value,
-                "<=": column <= value,
-                "!=": column != value,
-                "=": column == value,
-                ">": column > value,
-                "<": column < value,
-            }[op]
+            value = _filter_value(column, raw)
+            if isinstance(value, bool) and op not in ("=", "!="):
+                raise InvalidInput("Bad filter", [FieldError("where", f"{name.strip()} takes = or != only")])
+            return COMPARE[op](column, value)
     raise InvalidInput(
         "Bad filter", [FieldError("where", f"{clause!r}: use field>=value, field<=value or field=value")]
     )
@@ -139,7 +165,7 @@ def create_part(session: Session, *, team_id: int, user_id: int | None, kind: st
     # The same assignments SQLAlchemy's keyword constructor makes (``PartColumns`` is the unmapped mixin, so its
     # type has no keyword constructor).
     part = model()
-    part.team_id, part.created_by_id, part.updated_by_id, part.version = team_id, user_id, user_id, 1
+    part.team_id, part.created_by_id, part.updated_by_id = team_id, user_id, user_id
     _apply(part, data)
     session.add(part)
     session.flush()
@@ -158,18 +184,11 @@ def update_part(
 ) -> PartColumns:
     """Apply ``changes`` (fields to set) if ``expected_version`` is still the stored version."""
     part = get_part(session, team_id=team_id, kind=kind, part_id=part_id)
-    if expected_version is None:
-        raise PreconditionRequired("Send If-Match: \"<version>\" (or a 'version' field) to update")
-    if expected_version != part.version:
-        raise VersionMismatch(
-            f"This {singular(kind)} was changed by someone else (now version {part.version}, "
-            f"you sent {expected_version}); reload and apply your change again"
-        )
+    check_version(part.version, expected_version, singular(kind))
     merged = {**_stored_fields(kind, part), **changes}
     data = validate(CREATE_SCHEMAS[kind], merged, what=singular(kind))
     _apply(part, data)
-    part.version += 1
-    part.updated_by_id = user_id
+    part.updated_by_id = user_id  # the version counter advances in the (conditional) UPDATE itself
     session.flush()
     return part
 
@@ -180,7 +199,6 @@ def set_archived(
     part = get_part(session, team_id=team_id, kind=kind, part_id=part_id)
     if part.archived != archived:
         part.archived = archived
-        part.version += 1
         part.updated_by_id = user_id
     session.flush()
     return part
@@ -222,7 +240,7 @@ def export_csv(session: Session, *, team_id: int, kind: str, include_archived: b
         stmt = stmt.where(model.archived.is_(False))
     columns = csv_columns(kind)
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = csv_writer(out)
     writer.writerow(columns)
     for part in session.scalars(stmt):
         row = []
@@ -254,14 +272,15 @@ def parse_csv(kind: str, raw: bytes) -> list[BaseModel]:
     header = [h.strip() for h in header]
     schema = CREATE_SCHEMAS[kind]
     errors: list[FieldError] = []
-    dupes = sorted({h for h in header if header.count(h) > 1})
-    unknown = [h for h in header if h not in schema.model_fields]
-    missing = [n for n, f in schema.model_fields.items() if f.is_required() and n not in header]
+    dupes = sorted(h for h, n in Counter(header).items() if n > 1)  # linear: a header may have 30 000 columns
+    present = set(header)
+    unknown = [h for h in dict.fromkeys(header) if h not in schema.model_fields]
+    missing = [n for n, f in schema.model_fields.items() if f.is_required() and n not in present]
     errors += [FieldError(h, "column appears more than once", 1) for h in dupes]
     errors += [FieldError(h, "unknown column", 1) for h in unknown]
     errors += [FieldError(h, "required column is missing", 1) for h in missing]
     if errors:
-        raise InvalidInput(f"Bad header in {kind} CSV", errors)
+        raise InvalidInput(f"Bad header in {kind} CSV", errors[:MAX_REPORTED_ERRORS])
     parsed: list[BaseModel] = []
     try:
         rows = list(reader)
@@ -280,12 +299,12 @@ def parse_csv(kind: str, raw: bytes) -> list[BaseModel]:
                 continue
             if name in JSON_COLUMNS:
                 try:
-                    record[name] = json.loads(cell)
-                except json.JSONDecodeError:
+                    record[name] = parse_json(cell, field=name, row=line)
+                except InvalidInput:
                     errors.append(FieldError(name, "must be a JSON list of rows", line))
                     continue
             else:
-                record[name] = cell
+                record[name] = unescape_cell(cell)
         try:
             parsed.append(schema.model_validate(record))
         except ValidationError as exc:
@@ -293,7 +312,8 @@ def parse_csv(kind: str, raw: bytes) -> list[BaseModel]:
         if line - 1 > MAX_IMPORT_ROWS:
             raise InvalidInput("Too many rows", [FieldError("file", f"at most {MAX_IMPORT_ROWS} rows")])
     if errors:
-        raise InvalidInput(f"{len(errors)} problem(s) in the {kind} CSV; nothing was imported", errors)
+        raise InvalidInput(f"{len(errors)} problem(s) in the {kind} CSV; nothing was imported",
+                           errors[:MAX_REPORTED_ERRORS])
     if not parsed:
         raise InvalidInput("No data rows", [FieldError("file", "needs at least one data row")])
     return parsed

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-import csv
 import io
 from typing import Any
 
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
+from server.csv_cells import csv_writer
 from server.errors import Conflict, FieldError, InvalidInput, NotFound
 from server.models import Mission, Ranking, RankingResult, Shortlist, ShortlistEntry, User
 from server.models._common import utcnow
@@ -333,7 +333,7 @@ def bom_csv(session: Session, *, team_id: int, shortlist_id: int, airframes: int
     shortlist = get(session, team_id=team_id, shortlist_id=shortlist_id)
     rotors = _mission(session, shortlist).airframe.rotor_count
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = csv_writer(out)
     writer.writerow(
         [
             "entry",

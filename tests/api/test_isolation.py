@@ -12,7 +12,7 @@ from fastapi.routing import APIRoute
 from fastapi.testclient import TestClient
 
 from tests.api.test_bench_runs import csv_of
-from tests.factories import TeamFixture, make_team, part_payload
+from tests.factories import TeamFixture, login, make_team, part_payload
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
 COMPUTE_ONLY = {("POST", "/api/v1/predict")}  # POST for a body, but reads and changes nothing: read keys may
@@ -177,7 +177,11 @@ def test_revoked_key_stops_working(client: TestClient, two_teams: Any) -> None:
     alpha, _, _ = two_teams
     keys = client.get("/api/v1/team/api-keys", headers=alpha.headers()).json()
     read_id = next(k["id"] for k in keys if k["scope"] == "read")
-    assert client.post(f"/api/v1/team/api-keys/{read_id}/revoke", headers=alpha.headers()).status_code == 200
+    # A write key may not revoke another key; the team's owner may.
+    assert client.post(f"/api/v1/team/api-keys/{read_id}/revoke", headers=alpha.headers()).status_code == 403
+    csrf = login(client, alpha.owner_email)
+    assert client.post(f"/api/v1/team/api-keys/{read_id}/revoke", headers={"X-CSRF-Token": csrf}).status_code == 200
+    client.cookies.clear()
     assert client.get("/api/v1/parts/motors", headers=alpha.headers("read")).status_code == 401
     assert client.get("/api/v1/parts/motors", headers=alpha.headers("write")).status_code == 200
 

@@ -35,7 +35,7 @@ def live_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
     env = {**os.environ, "LIFTMATCH_DATABASE_URL": f"sqlite:///{folder / 'live.db'}",
            "LIFTMATCH_SECRET_KEY": "browser-test-secret-0123456789", "LIFTMATCH_PASSWORD_TIME_COST": "1",
            "LIFTMATCH_PASSWORD_MEMORY_KIB": "1024", "LIFTMATCH_PASSWORD_PARALLELISM": "1"}
-    for args in (["migrate"], ["load-demo"]):
+    for args in (["migrate"], ["load-demo", "--with-demo-logins"]):
         done = subprocess.run([sys.executable, "-m", "server.cli", *args], env=env, capture_output=True, text=True)
         assert done.returncode == 0, done.stderr
     with socket.socket() as s:
