@@ -32,6 +32,8 @@ class Settings(BaseSettings):
     session_max_age_s: int = 14 * 24 * 3600
     cookie_secure: bool = False
     ranking_workers: int = 1
+    # Threads that serve requests touching the database (the database pool keeps a connection for each).
+    request_threads: int = 40
     # Log-in throttling: failures allowed per account and per client address within the window, then 429.
     login_failures_per_account: int = 5
     login_failures_per_client: int = 30

@@ -54,16 +54,23 @@ def _refuse_nul(_conn: Any, _cursor: Any, _statement: str, parameters: Any, _con
                 raise InvalidInput("Text with a NUL character", [FieldError("text", "must not contain NUL characters")])
 
 
-def make_engine(url: str) -> Engine:
-    """Create an engine; SQLite files get their folder created and the pragmas above."""
+def make_engine(url: str, pool_size: int = 5) -> Engine:
+    """Create an engine; SQLite files get their folder created and the pragmas above.
+
+    ``pool_size`` connections are kept (as many as threads may use the database at once), and as many again may be
+    opened for a burst, so a request never waits long for a connection.
+    """
+    pool = {"pool_size": pool_size, "max_overflow": pool_size, "pool_timeout": 30}
     if url.startswith("sqlite"):
         database = make_url(url).database
         if database and database != ":memory:":
             Path(database).parent.mkdir(parents=True, exist_ok=True)
-        engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30})
+            engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30}, **pool)
+        else:
+            engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30})
         event.listen(engine, "connect", _sqlite_pragmas)
     else:
-        engine = create_engine(url, pool_pre_ping=True)
+        engine = create_engine(url, pool_pre_ping=True, **pool)
     event.listen(engine, "before_cursor_execute", _refuse_nul)
     return engine
 

@@ -64,6 +64,7 @@ def _from_bearer(request: Request, session: Session) -> Caller | None:
     if found is None:
         raise Unauthorized("Unknown or revoked API key")
     key, team = found
+    request.app.state.key_usage.note(key.id)  # written off the request path (server.usage)
     return Caller(team.id, team.name, f"key:{key.scope}", "key", api_key_id=key.id)
 
 

@@ -6,6 +6,7 @@ from collections.abc import AsyncIterator
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import asynccontextmanager
 
+from anyio import to_thread
 from fastapi import FastAPI, Request
 from fastapi.responses import HTMLResponse
 from fastapi.staticfiles import StaticFiles
@@ -18,10 +19,10 @@ from server.config import REPO_ROOT, Settings, get_settings
 from server.db import make_engine, make_sessionmaker
 from server.limits import MAX_BODY_BYTES
 from server.middleware import SecurityHeaders
-from server.models import FleetPlan, Ranking
 from server.pages import page_router
 from server.pages._render import make_templates
-from server.services import fleet, jobs, rankings
+from server.services import jobs
+from server.usage import KeyUsage
 
 WEB = REPO_ROOT / "web"
 
@@ -41,15 +42,20 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(app: FastAPI) -> AsyncIterator[None]:
-        engine = make_engine(settings.database_url)
+        # Every request handler that touches the database runs in this many threads; the pool holds a connection
+        # for each of them and for each job worker, so no request waits for a connection (or times out).
+        to_thread.current_default_thread_limiter().total_tokens = settings.request_threads
+        engine = make_engine(settings.database_url, pool_size=settings.request_threads + settings.ranking_workers + 2)
         app.state.engine = engine
         app.state.sessionmaker = make_sessionmaker(engine)
-        # Ranking jobs run outside the request in worker threads (numpy releases the GIL while it computes).
-        app.state.jobs = ThreadPoolExecutor(max_workers=settings.ranking_workers, thread_name_prefix="ranking")
-        for model, run in ((Ranking, rankings.run), (FleetPlan, fleet.run)):
-            jobs.recover(app.state.sessionmaker, model, run, lambda job: app.state.jobs.submit(job))
+        app.state.key_usage = KeyUsage(app.state.sessionmaker)
+        app.state.key_usage.start()
+        # Jobs run outside the request in worker threads (numpy releases the GIL while it computes).
+        app.state.jobs = ThreadPoolExecutor(max_workers=settings.ranking_workers, thread_name_prefix="job")
+        jobs.recover_all(app.state)
         yield
         app.state.jobs.shutdown(wait=True, cancel_futures=True)
+        app.state.key_usage.stop()
         engine.dispose()
 
     app = App(

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, File, Form, Query, UploadFile
+from fastapi import APIRouter, File, Form, Query, Request, UploadFile
 from fastapi.responses import Response
 from pydantic import ValidationError
 
@@ -12,7 +12,9 @@ from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.errors import FieldError, InvalidInput
 from server.limits import UPLOAD_BODY_BYTES
 from server.schemas.bench_runs import BenchRunDetail, BenchRunMeta, BenchRunSummary, BenchRunUploaded
+from server.schemas.calibrations import RefitStatus
 from server.services import bench_runs as bench_service
+from server.services import jobs, refits
 from server.services._validation import field_errors, parse_json
 from server.uploads import read_upload
 
@@ -31,23 +33,28 @@ def parse_meta(text: str) -> BenchRunMeta:
 
 @router.post("/bench-runs", status_code=201, response_model=BenchRunUploaded, max_body_size=UPLOAD_BODY_BYTES)
 def upload(
-    caller: WriterDep, session: SessionDep,
+    caller: WriterDep, session: SessionDep, request: Request,
     file: Annotated[UploadFile, File(description="Bench-run CSV (unit-suffixed headers)")],
     metadata: Annotated[str, Form(max_length=20_000, description="JSON: motor_id, propeller_id, esc_id, "
                                                                  "pack_id | supply_voltage_v, altitude_m, ...")],
 ) -> dict[str, Any]:
-    """Upload a measured sweep: validated (all or nothing), flagged, stored, and calibrated at once."""
+    """Upload a measured sweep: validated (all or nothing), flagged and stored; the ESC's pool is then re-fitted by
+    a job — ``calibration`` says its status, and ``calibration.url`` gives the calibrations when it is done."""
     meta = parse_meta(metadata)
     raw = read_upload(file, MAX_UPLOAD)
-    run, calibration = bench_service.import_run(session, team_id=caller.team_id, user_id=caller.user_id, meta=meta,
-                                                raw=raw, filename=file.filename or "")
+    run, flags = bench_service.store_run(session, team_id=caller.team_id, user_id=caller.user_id, meta=meta, raw=raw,
+                                         filename=file.filename or "")
+    refit, new = refits.request(session, team_id=caller.team_id, esc_id=run.esc_id, run_id=run.id)
     session.commit()
-    flags: dict[str, int] = {}
-    for sample in run.samples:
-        for reason in (sample.flag or "").split(","):
-            if reason:
-                flags[reason] = flags.get(reason, 0) + 1
-    return {**bench_service.run_summary(run), "flags": flags, "calibration": calibration}
+    if new:
+        jobs.submit(request.app.state, "refit", refit.id)
+    return {**bench_service.run_summary(run), "flags": flags, "calibration": refits.status(session, refit)}
+
+
+@router.get("/refits/{refit_id}", response_model=RefitStatus)
+def read_refit(caller: CallerDep, session: SessionDep, refit_id: IdPath) -> dict[str, Any]:
+    """A refit job: status (queued, running, done, failed), and when done the calibrations it stored."""
+    return refits.status(session, refits.get(session, team_id=caller.team_id, refit_id=refit_id))
 
 
 @router.get("/bench-runs", response_model=list[BenchRunSummary])

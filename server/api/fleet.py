@@ -9,6 +9,7 @@ from fastapi import APIRouter, Request, Response
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.fleet import FleetPlanCreate, FleetPlanStarted, FleetPlanStatus
 from server.services import fleet as fleet_service
+from server.services import jobs
 
 router = APIRouter(prefix="/fleet-plans", tags=["fleet plans"])
 
@@ -20,7 +21,7 @@ def start_plan(
     """Start a fleet plan over several missions; poll the returned id."""
     row = fleet_service.start(session, team_id=caller.team_id, user_id=caller.user_id, data=data)
     session.commit()
-    request.app.state.jobs.submit(fleet_service.run, request.app.state.sessionmaker, row.id)
+    jobs.submit(request.app.state, "fleet_plan", row.id)
     response.headers["Location"] = f"/api/v1/fleet-plans/{row.id}"
     return {"id": row.id, "status": row.status}
 

@@ -8,15 +8,11 @@ from fastapi import APIRouter, Query, Request, Response
 
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.rankings import ParetoSet, RankingCreate, RankingResultsPage, RankingStarted, RankingStatus
+from server.services import jobs
 from server.services import rankings as rankings_service
 
 router = APIRouter(prefix="/rankings", tags=["rankings"])
 SortQuery = Annotated[str, Query(max_length=40, description="Stored metric, '-' prefix for descending")]
-
-
-def submit(request: Request, ranking_id: int) -> None:
-    factory = request.app.state.sessionmaker
-    request.app.state.jobs.submit(rankings_service.run, factory, ranking_id)
 
 
 @router.post("", status_code=202, response_model=RankingStarted)
@@ -33,7 +29,7 @@ def start_ranking(
         top_n=data.top_n,
     )
     session.commit()
-    submit(request, row.id)
+    jobs.submit(request.app.state, "ranking", row.id)
     response.headers["Location"] = f"/api/v1/rankings/{row.id}"
     return {"id": row.id, "status": row.status}
 

@@ -6,6 +6,7 @@ from server.models.fleet import FleetPlan
 from server.models.missions import Airframe, Mission
 from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
 from server.models.rankings import Ranking, RankingResult
+from server.models.refits import Refit
 from server.models.shortlists import Shortlist, ShortlistEntry
 from server.models.teams import ApiKey, LoginFailure, LoginSession, Membership, Team, User
 
@@ -28,6 +29,7 @@ __all__ = [
     "Propeller",
     "Ranking",
     "RankingResult",
+    "Refit",
     "Shortlist",
     "ShortlistEntry",
     "Team",

@@ -5,9 +5,9 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import Request
+from fastapi import Depends, Request
 from fastapi.responses import HTMLResponse
 from fastapi.templating import Jinja2Templates
 from markupsafe import Markup, escape
@@ -87,6 +87,15 @@ def render(
 def form_values(form: Any) -> dict[str, str]:
     """Text fields of a submitted form, stripped, without the CSRF token."""
     return {k: v.strip() for k, v in form.items() if isinstance(v, str) and k != "csrf_token"}
+
+
+async def _posted_form(request: Request) -> dict[str, str]:
+    return form_values(await request.form())
+
+
+PostedForm = Annotated[dict[str, str], Depends(_posted_form)]
+"""The submitted form's text fields. Reading the body is the only async step of a page handler: handlers are
+plain ``def`` (run in the thread pool), so their database work never blocks the event loop."""
 
 
 def error_lines(exc: ValidationError | DomainError) -> list[str]:

@@ -2,19 +2,20 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import APIRouter, Request
+from fastapi import APIRouter, Depends, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.limits import UPLOAD_BODY_BYTES
-from server.pages._render import error_lines, form_values, render
+from server.pages._render import PostedForm, error_lines, form_values, render
 from server.schemas.bench_runs import BenchRunMeta
 from server.services import bench_runs as bench_service
 from server.services import calibrations as calibration_service
+from server.services import jobs, refits
 from server.services import parts as parts_service
 
 router = APIRouter(prefix="/bench-runs")
@@ -47,6 +48,7 @@ def bench_runs_page(request: Request, caller: PageCaller, session: SessionDep) -
 
 
 async def _read_form(request: Request) -> tuple[dict[str, str], bytes, str]:
+    """The upload form's text fields, the file's bytes (at most the limit + 1) and its name; the file is closed."""
     async with request.form() as form:  # closes the uploaded temporary file
         upload = form.get("file")
         raw = b""
@@ -57,9 +59,12 @@ async def _read_form(request: Request) -> tuple[dict[str, str], bytes, str]:
         return form_values(form), raw, filename
 
 
+UploadForm = Annotated[tuple[dict[str, str], bytes, str], Depends(_read_form)]
+
+
 @router.post("/preview", response_class=HTMLResponse, max_body_size=UPLOAD_BODY_BYTES)
-async def preview(request: Request, caller: PageWriter, session: SessionDep) -> HTMLResponse:
-    values, raw, _ = await _read_form(request)
+def preview(request: Request, caller: PageWriter, session: SessionDep, form: UploadForm) -> HTMLResponse:
+    values, raw, _ = form
     try:
         result = bench_service.preview(session, team_id=caller.team_id, meta=_meta(values), raw=raw)
     except (ValidationError, DomainError) as exc:
@@ -68,15 +73,18 @@ async def preview(request: Request, caller: PageWriter, session: SessionDep) -> 
 
 
 @router.post("", response_class=HTMLResponse, max_body_size=UPLOAD_BODY_BYTES)
-async def upload(request: Request, caller: PageWriter, session: SessionDep) -> Response:
-    values, raw, filename = await _read_form(request)
+def upload(request: Request, caller: PageWriter, session: SessionDep, form: UploadForm) -> Response:
+    values, raw, filename = form
     try:
-        run, _ = bench_service.import_run(session, team_id=caller.team_id, user_id=caller.user_id,
-                                          meta=_meta(values), raw=raw, filename=filename)
+        run, _ = bench_service.store_run(session, team_id=caller.team_id, user_id=caller.user_id,
+                                         meta=_meta(values), raw=raw, filename=filename)
+        refit, new = refits.request(session, team_id=caller.team_id, esc_id=run.esc_id, run_id=run.id)
         session.commit()
     except (ValidationError, DomainError) as exc:
         session.rollback()
         return _list(request, session, caller, 422, errors=error_lines(exc), values=values)
+    if new:
+        jobs.submit(request.app.state, "refit", refit.id)
     return RedirectResponse(f"/bench-runs/{run.id}", status_code=303)
 
 
@@ -95,9 +103,8 @@ def run_page(request: Request, caller: PageCaller, session: SessionDep, run_id: 
 
 
 @router.post("/{run_id}/calibrations/{calibration_id}", response_class=HTMLResponse)
-async def switch(request: Request, caller: PageWriter, session: SessionDep, run_id: IdPath,
-                 calibration_id: IdPath) -> Response:
-    values = form_values(await request.form())
+def switch(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm, run_id: IdPath,
+           calibration_id: IdPath) -> Response:
     calibration_service.set_active(session, team_id=caller.team_id, calibration_id=calibration_id,
                              active=values.get("active") == "1")
     session.commit()

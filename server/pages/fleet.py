@@ -10,10 +10,11 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
-from server.pages._render import error_lines, form_values, render
+from server.pages._render import PostedForm, error_lines, render
 from server.schemas.fleet import FleetPlanCreate
 from server.schemas.shortlists import EntryCreate
 from server.services import fleet as fleet_service
+from server.services import jobs
 from server.services import missions as missions_service
 from server.services import shortlists as shortlists_service
 
@@ -52,8 +53,7 @@ def build_request(values: dict[str, str]) -> dict[str, Any]:
 
 
 @router.post("", response_class=HTMLResponse)
-async def start(request: Request, caller: PageWriter, session: SessionDep) -> Response:
-    values = form_values(await request.form())
+def start(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm) -> Response:
     try:
         data = FleetPlanCreate.model_validate(build_request(values))
         row = fleet_service.start(session, team_id=caller.team_id, user_id=caller.user_id, data=data)
@@ -62,7 +62,7 @@ async def start(request: Request, caller: PageWriter, session: SessionDep) -> Re
         session.rollback()
         errors = error_lines(exc)
         return _index(request, session, caller, 422, errors=errors, values=values)
-    request.app.state.jobs.submit(fleet_service.run, request.app.state.sessionmaker, row.id)
+    jobs.submit(request.app.state, "fleet_plan", row.id)
     return RedirectResponse(f"/fleet-plans/{row.id}", status_code=303)
 
 

@@ -11,7 +11,7 @@ from pydantic import BaseModel, ValidationError
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import InvalidInput
 from server.pages._forms import form_fields, form_to_data, values_of
-from server.pages._render import form_values, form_version, render, save_edit
+from server.pages._render import PostedForm, form_version, render, save_edit
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.services import missions as missions_service
 from server.services._validation import field_errors
@@ -58,8 +58,7 @@ def missions_page(request: Request, caller: PageCaller, session: SessionDep) -> 
 
 
 @router.post("/airframes", response_class=HTMLResponse)
-async def add_airframe(request: Request, caller: PageWriter, session: SessionDep) -> Response:
-    values = form_values(await request.form())
+def add_airframe(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm) -> Response:
     model, errors = _validate(AirframeCreate, AIRFRAME_FIELDS, values)
     if model is None:
         return _page(
@@ -77,8 +76,7 @@ async def add_airframe(request: Request, caller: PageWriter, session: SessionDep
 
 
 @router.post("/missions", response_class=HTMLResponse)
-async def add_mission(request: Request, caller: PageWriter, session: SessionDep) -> Response:
-    values = form_values(await request.form())
+def add_mission(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm) -> Response:
     model, errors = _validate(MissionCreate, MISSION_FIELDS, values)
     if model is not None:
         try:
@@ -120,8 +118,8 @@ def edit_mission_page(request: Request, caller: PageCaller, session: SessionDep,
 
 
 @router.post("/missions/{mission_id}", response_class=HTMLResponse)
-async def update_mission(request: Request, caller: PageWriter, session: SessionDep, mission_id: IdPath) -> Response:
-    values = form_values(await request.form())
+def update_mission(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm,
+                   mission_id: IdPath) -> Response:
     data, errors = form_to_data(MISSION_FIELDS, values)
     data["airframe_id"] = values.get("airframe_id")
     outcome = save_edit(session, errors, lambda: missions_service.update_mission(
@@ -157,10 +155,9 @@ def edit_airframe_page(request: Request, caller: PageCaller, session: SessionDep
 
 
 @router.post("/airframes/{airframe_id}", response_class=HTMLResponse)
-async def update_airframe(
-    request: Request, caller: PageWriter, session: SessionDep, airframe_id: IdPath
+def update_airframe(
+    request: Request, caller: PageWriter, session: SessionDep, values: PostedForm, airframe_id: IdPath
 ) -> Response:
-    values = form_values(await request.form())
     data, errors = form_to_data(AIRFRAME_FIELDS, values)
     outcome = save_edit(session, errors, lambda: missions_service.update_airframe(
         session, team_id=caller.team_id, airframe_id=airframe_id, changes=data,

@@ -13,7 +13,7 @@ from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import InvalidInput
 from server.limits import UPLOAD_BODY_BYTES
 from server.pages._forms import FormField, form_fields, form_to_data, values_of
-from server.pages._render import form_values, form_version, render, save_edit
+from server.pages._render import PostedForm, form_version, render, save_edit
 from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS
 from server.services import parts as parts_service
 from server.services._validation import field_errors
@@ -150,9 +150,9 @@ def _validate_form(kind: str, values: dict[str, str]) -> tuple[Any, dict[str, st
 
 
 @router.post("/{kind}", response_class=HTMLResponse)
-async def create_from_form(request: Request, caller: PageWriter, session: SessionDep, kind: str) -> Response:
+def create_from_form(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm,
+                     kind: str) -> Response:
     kind = _kind(kind)
-    values = form_values(await request.form())
     model, errors = _validate_form(kind, values)
     htmx = request.headers.get("hx-request") == "true"
     if model is None:
@@ -191,11 +191,10 @@ def edit_page(request: Request, caller: PageCaller, session: SessionDep, kind: s
 
 
 @router.post("/{kind}/{part_id:int}", response_class=HTMLResponse)
-async def update_from_form(
-    request: Request, caller: PageWriter, session: SessionDep, kind: str, part_id: IdPath
+def update_from_form(
+    request: Request, caller: PageWriter, session: SessionDep, form: PostedForm, kind: str, part_id: IdPath
 ) -> Response:
     kind = _kind(kind)
-    form = form_values(await request.form())
     parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)  # another team: 404
     fields = form_fields(CREATE_SCHEMAS[kind])
     data, errors = form_to_data(fields, form)
@@ -225,9 +224,9 @@ async def update_from_form(
 
 
 @router.post("/{kind}/{part_id:int}/archive", response_class=HTMLResponse)
-async def archive(request: Request, caller: PageWriter, session: SessionDep, kind: str, part_id: IdPath) -> Response:
+def archive(request: Request, caller: PageWriter, session: SessionDep, form: PostedForm, kind: str,
+            part_id: IdPath) -> Response:
     kind = _kind(kind)
-    form = await request.form()
     restore = form.get("restore") == "1"
     parts_service.set_archived(
         session, team_id=caller.team_id, user_id=caller.user_id, kind=kind, part_id=part_id, archived=not restore

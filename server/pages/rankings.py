@@ -11,8 +11,9 @@ from pydantic import ValidationError
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.models import Ranking
-from server.pages._render import error_lines, form_values, render
+from server.pages._render import PostedForm, error_lines, render
 from server.schemas.rankings import RankingCreate
+from server.services import jobs
 from server.services import missions as missions_service
 from server.services import rankings as rankings_service
 from server.services import shortlists as shortlists_service
@@ -84,8 +85,7 @@ def rankings_page(request: Request, caller: PageCaller, session: SessionDep) -> 
 
 
 @router.post("", response_class=HTMLResponse)
-async def start(request: Request, caller: PageWriter, session: SessionDep) -> Response:
-    values = form_values(await request.form())
+def start(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm) -> Response:
     try:
         data = RankingCreate.model_validate(values)
         row = rankings_service.start(session, team_id=caller.team_id, user_id=caller.user_id,
@@ -95,7 +95,7 @@ async def start(request: Request, caller: PageWriter, session: SessionDep) -> Re
         session.rollback()
         errors = error_lines(exc)
         return _index(request, session, caller, 422, errors=errors, values=values)
-    request.app.state.jobs.submit(rankings_service.run, request.app.state.sessionmaker, row.id)
+    jobs.submit(request.app.state, "ranking", row.id)
     return RedirectResponse(f"/rankings/{row.id}", status_code=303)
 
 
@@ -148,9 +148,9 @@ def cancel(caller: PageWriter, session: SessionDep, ranking_id: IdPath) -> Respo
 
 
 @router.post("/{ranking_id}/shortlist", response_class=HTMLResponse)
-async def add_to_shortlist(request: Request, caller: PageWriter, session: SessionDep, ranking_id: IdPath) -> Response:
+def add_to_shortlist(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm,
+                     ranking_id: IdPath) -> Response:
     """Add a ranked row to a shortlist of the same mission (a new one when none is chosen)."""
-    values = form_values(await request.form())
     ranking = rankings_service.get(session, team_id=caller.team_id, ranking_id=ranking_id)
     try:
         shortlist_id = int(values.get("shortlist_id") or 0)

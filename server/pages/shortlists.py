@@ -10,7 +10,7 @@ from pydantic import ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
-from server.pages._render import error_lines, form_values, render
+from server.pages._render import PostedForm, error_lines, render
 from server.schemas.shortlists import EntryCreate, ShortlistCreate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
@@ -35,8 +35,7 @@ def shortlists_page(request: Request, caller: PageCaller, session: SessionDep) -
 
 
 @router.post("", response_class=HTMLResponse)
-async def create_shortlist(request: Request, caller: PageWriter, session: SessionDep) -> Response:
-    values = form_values(await request.form())
+def create_shortlist(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm) -> Response:
     try:
         data = ShortlistCreate.model_validate(values)
         row = shortlists_service.create(session, team_id=caller.team_id, user_id=caller.user_id, name=data.name,
@@ -94,8 +93,8 @@ def compare_page(request: Request, caller: PageCaller, session: SessionDep, shor
 
 
 @router.post("/{shortlist_id}/entries", response_class=HTMLResponse)
-async def add_entry(request: Request, caller: PageWriter, session: SessionDep, shortlist_id: IdPath) -> Response:
-    values = form_values(await request.form())
+def add_entry(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm,
+              shortlist_id: IdPath) -> Response:
     try:
         data = EntryCreate.model_validate({k: v for k, v in values.items() if v != ""})
         shortlists_service.add_entry(session, team_id=caller.team_id, user_id=caller.user_id,

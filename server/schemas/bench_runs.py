@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING, TypeAlias
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged, text
-from server.schemas.calibrations import CalibrationOutcome, CalibrationRead
+from server.schemas.calibrations import CalibrationRead, RefitStatus
 from server.schemas.evaluation import Result
 
 if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
@@ -69,7 +69,7 @@ class BenchRunUploaded(BenchRunSummary):
     """An upload's stored run, its flags per reason and what the calibration stored."""
 
     flags: dict[str, int] = Field(default_factory=dict, description="Flagged samples per reason")
-    calibration: CalibrationOutcome | None = None
+    calibration: RefitStatus | None = Field(None, description="The refit job that calibrates the ESC's pool")
 
 
 class BenchSampleRead(Result):
@@ -102,3 +102,4 @@ class BenchRunDetail(Result):
     run: BenchRunSummary
     samples: list[BenchSampleRead]
     calibrations: dict[str, CalibrationRead | None]
+    refit: RefitStatus | None = Field(None, description="The latest refit of the run's ESC pool")

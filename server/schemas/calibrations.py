@@ -45,6 +45,20 @@ class CalibrationOutcome(Result):
     error: str | None = None
 
 
+class RefitStatus(CalibrationOutcome):
+    """A refit job (re-fitting an ESC's pool of bench runs after an upload): its status, and once ``done`` the
+    calibrations it stored (``calibrations``/``error`` as before the fit became a job)."""
+
+    refit_id: int
+    status: str = Field(description="queued, running, done or failed")
+    esc_id: int
+    run_id: int | None = None
+    created_at: datetime | None = None
+    started_at: datetime | None = None
+    finished_at: datetime | None = None
+    url: str = Field(description="Poll this for the status")
+
+
 class PartCalibrated(Result):
     """The part's calibration after re-fitting every pool its bench runs belong to."""
 

@@ -6,7 +6,7 @@ import math
 from typing import Any
 
 import numpy as np
-from sqlalchemy import or_, select
+from sqlalchemy import insert, or_, select
 from sqlalchemy.orm import Session
 
 from server.bench_runs.csv_format import BenchCsvError, BenchSamples, parse_bench_csv
@@ -18,7 +18,7 @@ from server.physics import drive
 from server.physics._types import Status
 from server.physics.esc import EscParams
 from server.schemas.bench_runs import BenchRunMeta
-from server.services import calibrations
+from server.services import calibrations, refits
 from server.services import parts as parts_service
 from server.services import power_system as ps
 
@@ -94,12 +94,11 @@ def _sample_dicts(session: Session, team_id: int, propeller_id: int, density: fl
     return out
 
 
-def import_run(session: Session, *, team_id: int, user_id: int | None, meta: BenchRunMeta, raw: bytes,
-               filename: str = "") -> tuple[BenchRun, dict[str, Any]]:
-    """Store a validated run with its flagged samples and calibrate the parts it shares runs with.
+def store_run(session: Session, *, team_id: int, user_id: int | None, meta: BenchRunMeta, raw: bytes,
+              filename: str = "") -> tuple[BenchRun, dict[str, int]]:
+    """Validate (all or nothing), flag and store a run with its samples; returns it and its flag counts.
 
-    The run and its samples are one transaction with the calibration; a calibration that cannot be fitted
-    (too few usable samples) is reported, not fatal.
+    The samples go in as one bulk insert; calibration is not done here (see :mod:`server.services.refits`).
     """
     _check_parts(session, team_id, meta)
     samples = parse(raw)
@@ -112,16 +111,28 @@ def import_run(session: Session, *, team_id: int, user_id: int | None, meta: Ben
         run.name = filename or "bench run"
     session.add(run)
     session.flush()
-    torque = samples.torque_nm
-    temperature = samples.temperature_c
-    session.add_all(BenchSample(
-        run_id=run.id, position=i, throttle=float(samples.throttle[i]), bus_voltage_v=float(samples.bus_voltage_v[i]),
-        bus_current_a=float(samples.bus_current_a[i]), rpm=float(samples.rpm[i]), thrust_n=float(samples.thrust_n[i]),
-        torque_nm=None if torque is None else float(torque[i]),
-        temperature_c=None if temperature is None else float(temperature[i]),
-        flag=",".join(str(r) for r in flags.reasons[i]) or None,
-    ) for i in range(len(samples.throttle)))
-    session.flush()
+    torque, temperature = samples.torque_nm, samples.temperature_c
+    columns = {"throttle": samples.throttle.tolist(), "bus_voltage_v": samples.bus_voltage_v.tolist(),
+               "bus_current_a": samples.bus_current_a.tolist(), "rpm": samples.rpm.tolist(),
+               "thrust_n": samples.thrust_n.tolist(),
+               "torque_nm": [None] * len(samples) if torque is None else torque.tolist(),
+               "temperature_c": [None] * len(samples) if temperature is None else temperature.tolist()}
+    counts: dict[str, int] = {}
+    rows = []
+    for i in range(len(samples)):
+        flag = ",".join(str(r) for r in flags.reasons[i]) or None
+        for reason in flags.reasons[i]:
+            counts[str(reason)] = counts.get(str(reason), 0) + 1
+        rows.append({"run_id": run.id, "position": i, "flag": flag, **{k: v[i] for k, v in columns.items()}})
+    session.execute(insert(BenchSample), rows)
+    return run, counts
+
+
+def import_run(session: Session, *, team_id: int, user_id: int | None, meta: BenchRunMeta, raw: bytes,
+               filename: str = "") -> tuple[BenchRun, dict[str, Any]]:
+    """Store a run and calibrate its ESC's pool in the same transaction (the CLI and the demo loader; the web
+    stores, commits and queues a refit job instead). A calibration that cannot be fitted is reported, not fatal."""
+    run, _ = store_run(session, team_id=team_id, user_id=user_id, meta=meta, raw=raw, filename=filename)
     return run, calibrations.calibrate_esc(session, team_id=team_id, esc_id=run.esc_id)
 
 
@@ -180,8 +191,10 @@ def run_detail(session: Session, *, team_id: int, run_id: int) -> dict[str, Any]
     latest = {kind: calibrations.latest(session, team_id=team_id, kind=kind, part_id=pid)
                     for kind, pid in (("escs", run.esc_id), ("motors", run.motor_id),
                                       ("propellers", run.propeller_id))}
+    refit = refits.latest_for(session, team_id=team_id, esc_id=run.esc_id)
     return {"run": run_summary(run), "samples": rows,
-            "calibrations": {k: calibrations.calibration_dict(c) if c else None for k, c in latest.items()}}
+            "calibrations": {k: calibrations.calibration_dict(c) if c else None for k, c in latest.items()},
+            "refit": refits.status(session, refit) if refit else None}
 
 
 def _reason(code: str) -> Any:

@@ -159,6 +159,13 @@ def latest(session: Session, *, team_id: int, kind: str, part_id: int) -> Calibr
                           .order_by(Calibration.id.desc()))
 
 
+def by_ids(session: Session, *, team_id: int, ids: list[int]) -> list[Calibration]:
+    if not ids:
+        return []
+    return list(session.scalars(select(Calibration).where(Calibration.team_id == team_id, Calibration.id.in_(ids))
+                                .order_by(Calibration.id)))
+
+
 def list_calibrations(session: Session, *, team_id: int, kind: str, part_id: int) -> list[Calibration]:
     return list(session.scalars(select(Calibration).where(Calibration.team_id == team_id,
                                                           Calibration.part_kind == kind,

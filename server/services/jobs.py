@@ -1,4 +1,4 @@
-"""Background jobs (rankings, fleet plans): one worker pool, the same start-up recovery for every kind."""
+"""Background jobs (rankings, fleet plans, refits): one pool, submitted from one place, one start-up recovery."""
 
 from __future__ import annotations
 
@@ -10,11 +10,25 @@ from typing import Any
 from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
+Runner = Callable[[sessionmaker[Session], int], None]
 Submit = Callable[[Callable[[], None]], object]
 
 
-def recover(factory: sessionmaker[Session], model: Any, run: Callable[[sessionmaker[Session], int], None],
-            submit: Submit) -> None:
+def kinds() -> dict[str, tuple[Any, Runner]]:
+    """Every job kind: its model (with status/progress/error columns) and the function that runs one."""
+    from server.models import FleetPlan, Ranking, Refit
+    from server.services import fleet, rankings, refits
+
+    return {"ranking": (Ranking, rankings.run), "fleet_plan": (FleetPlan, fleet.run), "refit": (Refit, refits.run)}
+
+
+def submit(state: Any, kind: str, job_id: int) -> None:
+    """Queue a stored job (its row says ``queued``) on the app's job pool; call after the row is committed."""
+    _, run = kinds()[kind]
+    state.jobs.submit(run, state.sessionmaker, job_id)
+
+
+def recover(factory: sessionmaker[Session], model: Any, run: Runner, submit: Submit) -> None:
     """At start-up: requeue jobs that never started; fail those a stopped process left running."""
     with factory() as s, s.begin():
         s.execute(update(model).where(model.status == "running")
@@ -22,3 +36,8 @@ def recover(factory: sessionmaker[Session], model: Any, run: Callable[[sessionma
         queued = list(s.scalars(select(model.id).where(model.status == "queued")))
     for job_id in queued:
         submit(partial(run, factory, job_id))
+
+
+def recover_all(state: Any) -> None:
+    for model, run in kinds().values():
+        recover(state.sessionmaker, model, run, lambda job: state.jobs.submit(job))

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime, timedelta
+from datetime import UTC, datetime
 from typing import Literal
 
 from sqlalchemy import func, select
@@ -15,15 +15,6 @@ from server.models import ApiKey, Membership, Team, User
 from server.models.teams import KEY_SCOPES, ROLES
 from server.security import api_key_hash, api_key_prefix, hash_password, new_api_key, verify_password
 from server.services import sessions
-
-LAST_USED_RESOLUTION = timedelta(seconds=60)
-
-
-def _aware(moment: datetime | None) -> datetime | None:
-    # SQLite hands back naive datetimes; they were stored as UTC.
-    if moment is not None and moment.tzinfo is None:
-        return moment.replace(tzinfo=UTC)
-    return moment
 
 
 def create_team(session: Session, *, name: str) -> Team:
@@ -225,16 +216,9 @@ def revoke_api_key(session: Session, *, team_id: int, key_id: int, role: str = "
 
 
 def resolve_api_key(session: Session, key: str) -> tuple[ApiKey, Team] | None:
-    """The live key row and its team, updating ``last_used_at`` at most once a minute."""
-    row = session.scalar(select(ApiKey).where(ApiKey.key_hash == api_key_hash(key)))
-    if row is None or row.revoked_at is not None:
+    """The live key row and its team (a read: the caller records the use off the request, see server.usage)."""
+    found = session.execute(select(ApiKey, Team).join(Team, Team.id == ApiKey.team_id)
+                            .where(ApiKey.key_hash == api_key_hash(key), ApiKey.revoked_at.is_(None))).first()
+    if found is None:
         return None
-    now = datetime.now(UTC)
-    last = _aware(row.last_used_at)
-    if last is None or now - last > LAST_USED_RESOLUTION:
-        row.last_used_at = now
-        session.commit()
-    team = session.get(Team, row.team_id)
-    if team is None:
-        return None
-    return row, team
+    return found[0], found[1]

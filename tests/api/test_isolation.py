@@ -11,7 +11,7 @@ from fastapi import FastAPI
 from fastapi.routing import APIRoute
 from fastapi.testclient import TestClient
 
-from tests.api.test_bench_runs import csv_of
+from tests.api.test_bench_runs import calibration_of, csv_of
 from tests.factories import TeamFixture, login, make_team, part_payload
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
@@ -108,7 +108,8 @@ def two_teams(app: FastAPI, client: TestClient) -> tuple[TeamFixture, TeamFixtur
                       files={"file": ("s.csv", csv_of("m_a_p_1_v7p4"), "text/csv")})
     assert run.status_code == 201, run.text
     ids["run_id"] = run.json()["id"]
-    ids["calibration_id"] = run.json()["calibration"]["calibrations"][0]["id"]
+    ids["refit_id"] = run.json()["calibration"]["refit_id"]
+    ids["calibration_id"] = calibration_of(client, alpha, run)["calibrations"][0]["id"]
     ranking = client.post("/api/v1/rankings", json={"mission_id": ids["mission_id"], "top_n": 5}, headers=h)
     assert ranking.status_code == 202, ranking.text
     ids["ranking_id"] = ranking.json()["id"]

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import time
+
 from bs4 import BeautifulSoup
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
@@ -31,6 +33,11 @@ def test_preview_upload_and_detail(app: FastAPI, client: TestClient) -> None:
     assert uploaded.status_code == 303
     page = BeautifulSoup(client.get(uploaded.headers["location"]).text, "html.parser")
     assert page.select_one("h1").text == "Stand test 1"
+    deadline = time.monotonic() + 60
+    while page.select_one("#refit-status") is not None:  # the re-fit runs as a job after the upload
+        assert time.monotonic() < deadline and "failed" not in page.select_one("#refit-status").text
+        time.sleep(0.1)
+        page = BeautifulSoup(client.get(uploaded.headers["location"]).text, "html.parser")
     assert page.select_one("#calibration-escs table") is not None
     assert "k_pwm" in page.select_one("#calibration-escs").text
     assert page.select_one("#bench-chart-data") is not None

@@ -99,7 +99,7 @@ def live_server(db_url: str, folder: Path, **env: str) -> Iterator[LiveServer]:
         finally:
             proc.terminate()
             try:
-                proc.wait(timeout=15)
+                proc.wait(timeout=5)
             except subprocess.TimeoutExpired:
                 proc.kill()
                 proc.wait()
@@ -125,6 +125,20 @@ def make_live_team(db_url: str, name: str) -> dict[str, str]:
     return {"key": key, "email": f"owner@{slug}.example"}
 
 
-@pytest.fixture(params=["sqlite", "postgres"])
-def backend(request: pytest.FixtureRequest) -> str:
-    return str(request.param)
+@dataclass
+class Live:
+    """A served database with two teams (each: an owner and a write key)."""
+
+    server: LiveServer
+    alpha: dict[str, str]
+    beta: dict[str, str]
+
+
+@pytest.fixture(scope="session", params=["sqlite", "postgres"])
+def live(request: pytest.FixtureRequest, tmp_path_factory: pytest.TempPathFactory) -> Iterator[Live]:
+    """One server per backend for the whole suite (starting one costs seconds on this machine)."""
+    folder = tmp_path_factory.mktemp(f"live-{request.param}")
+    url = fresh_database(str(request.param), folder)
+    alpha, beta = make_live_team(url, "Alpha"), make_live_team(url, "Beta")
+    with live_server(url, folder) as server:
+        yield Live(server, alpha, beta)

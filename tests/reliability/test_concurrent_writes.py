@@ -7,21 +7,19 @@ updates on SQLite, 74 on PostgreSQL). Now each round has exactly one winner and 
 from __future__ import annotations
 
 import threading
-from pathlib import Path
 
 import httpx2 as httpx
 
 from tests.factories import part_payload
-from tests.reliability.conftest import fresh_database, live_server, make_live_team
+from tests.reliability.conftest import Live
 
 WRITERS = 8
-ROUNDS = 12
+ROUNDS = 8
 
 
-def test_same_version_has_exactly_one_winner(backend: str, tmp_path: Path) -> None:
-    url = fresh_database(backend, tmp_path)
-    team = make_live_team(url, "Writers")
-    with live_server(url, tmp_path) as server:
+def test_same_version_has_exactly_one_winner(live: Live) -> None:
+    server, team = live.server, live.alpha
+    if True:
         headers = {"Authorization": f"Bearer {team['key']}"}
         with httpx.Client(base_url=server.base, headers=headers, timeout=30) as client:
             created = client.post("/api/v1/parts/motors", json=part_payload("motors"))

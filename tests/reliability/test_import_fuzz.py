@@ -85,18 +85,17 @@ def _stored(app: FastAPI, team_id: int) -> tuple[int, ...]:
             s.scalar(select(func.count()).select_from(BenchSample)) or 0,)
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture,
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture,
                                                                  HealthCheck.too_slow])
-@given(data=st.data())
+@given(where=st.integers(min_value=0, max_value=1_000_000), value=JSON_VALUES)
 def test_any_bad_value_is_422_and_stores_nothing(
-    client: TestClient, library_file: tuple[dict[str, Any], list[tuple[Any, ...]]], data: st.DataObject
+    client: TestClient, library_file: tuple[dict[str, Any], list[tuple[Any, ...]]], where: int, value: Any
 ) -> None:
     doc, locations = library_file
     app: FastAPI = client.app  # type: ignore[assignment]
     team = getattr(app.state, "_fuzz_team", None) or make_team(app, "Fuzz")
     app.state._fuzz_team = team
-    path = data.draw(st.sampled_from(locations), label="path")
-    value = data.draw(JSON_VALUES, label="value")
+    path = locations[where % len(locations)]
     before = _stored(app, team.team_id)
     response = client.post("/api/v1/import", json=replaced(doc, path, value), headers=team.headers())
     assert response.status_code in (201, 422), (path, value, response.text)
