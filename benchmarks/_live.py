@@ -11,6 +11,7 @@ import statistics
 import subprocess
 import sys
 import tempfile
+import threading
 import time
 from collections import Counter
 from collections.abc import Iterator
@@ -146,5 +147,8 @@ def load(base: str, path: str, *, clients: int, seconds: float, headers: dict[st
         until = time.monotonic() + seconds
         await asyncio.gather(*(_client(host, int(port), request, until, result) for _ in range(clients)))
 
-    asyncio.run(run())
+    # In a thread of its own: the caller's thread may already run an event loop (a test session with a browser).
+    runner = threading.Thread(target=asyncio.run, args=(run(),))
+    runner.start()
+    runner.join()
     return result

@@ -69,7 +69,7 @@ def fresh_database(kind: str, folder: Path) -> str:
 
 
 @contextmanager
-def live_server(db_url: str, folder: Path, **env: str) -> Iterator[LiveServer]:
+def live_server(db_url: str, folder: Path, stop_timeout_s: float = 5, **env: str) -> Iterator[LiveServer]:
     """uvicorn serving the app on a free loopback port until the block ends (stopped by its own pid)."""
     port = _free_port()
     log_path = folder / f"server-{port}.log"
@@ -99,7 +99,7 @@ def live_server(db_url: str, folder: Path, **env: str) -> Iterator[LiveServer]:
         finally:
             proc.terminate()
             try:
-                proc.wait(timeout=5)
+                proc.wait(timeout=stop_timeout_s)
             except subprocess.TimeoutExpired:
                 proc.kill()
                 proc.wait()
@@ -132,6 +132,15 @@ class Live:
     server: LiveServer
     alpha: dict[str, str]
     beta: dict[str, str]
+
+
+@pytest.fixture(params=["sqlite", "postgres"])
+def dedicated(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[Live]:
+    """A server of its own for one test, stopped at once afterwards (work it left running dies with it)."""
+    url = fresh_database(str(request.param), tmp_path)
+    alpha, beta = make_live_team(url, "Alpha"), make_live_team(url, "Beta")
+    with live_server(url, tmp_path, stop_timeout_s=0.5) as server:
+        yield Live(server, alpha, beta)
 
 
 @pytest.fixture(scope="session", params=["sqlite", "postgres"])
