@@ -22,22 +22,7 @@ router = APIRouter(prefix="/rankings")
 NEAR_LIMIT = 0.9  # common practice, no source: flag a part run at ≥ 90 % of its rating
 OBJECTIVE_LABELS = {"cruise_power": "lowest cruise power", "endurance": "longest endurance",
                     "specific_thrust": "best specific thrust", "mass": "lowest mass", "cost": "lowest cost"}
-REASON_LABELS = {
-    "missing_data": "missing part data (unknown resistance, coefficients…)",
-    "prop_too_large": "propeller larger than the airframe allows",
-    "no_forward_table": "propeller has no forward-flight data (cruise)",
-    "esc_cell_range": "pack cell count outside the ESC's range",
-    "motor_cell_limit": "pack cell count above the motor's limit",
-    "over_mass": "all-up mass above the mission's limit",
-    "cruise_unreachable": "cannot reach the cruise thrust (duty > 1)",
-    "duty_out_of_band": "cruise duty outside the mission's band",
-    "bus_collapse": "pack voltage collapses at full throttle",
-    "below_thrust_to_weight": "thrust-to-weight below the mission's minimum",
-    "motor_over_current": "full-throttle current above the motor's rating",
-    "esc_over_current": "ESC rating below the required margin",
-    "pack_over_current": "pack current above the allowed share of its C rating",
-    "endurance_short": "endurance below the mission's minimum",
-}
+REASON_LABELS = rankings_service.REASON_TEXT
 SORTS = {"rank": "rank", "all_up_mass_g": "mass", "cruise_duty": "duty", "cruise_power_w": "cruise power",
          "specific_thrust_g_per_w": "g/W", "endurance_min": "endurance", "thrust_to_weight": "T/W", "cost": "cost"}
 

@@ -63,8 +63,9 @@ class Status(IntEnum):
     NON_FINITE = 4
     """An input was NaN or infinite."""
     DATA_ERROR = 5
-    """Solved, but the static point needs less shaft power than the momentum ideal (FM > 1): the
-    propeller data are wrong (values kept so the data can be inspected)."""
+    """Solved, but the propeller does better than momentum theory allows (static FM > 1, or in axial flight
+    an efficiency above the Froude limit): its data are wrong or read outside their measured range (values
+    kept so the data can be inspected)."""
     POWER_LIMIT = 6
     """The pack cannot deliver the requested power (no real root of V_oc I - R I^2 = P)."""
 

@@ -108,8 +108,12 @@ def _solve_bus(p: Problem, motor_voltage: FloatArray, current: FloatArray, activ
                method: SolveMethod) -> tuple[FloatArray, IntArray]:
     """Bus voltage for known per-rotor V_m and I; returns (V_bus, status) with INFEASIBLE_THRUST for d > 1.
 
-    The physical root lies in ``[V_m, V_oc]``: at V = V_m the duty is 1 and P_extra = 0, so the bracket is
-    valid exactly when ``V_m + R N I < V_oc`` (otherwise the request needs d > 1).
+    ``V g(V) = V^2 - V_oc V + R N (V_m I + P_extra)`` has two roots when the pack can deliver the power: the
+    healthy one (high voltage, below the pack's maximum-power point) and the collapsed one. We solve on the
+    healthy side, ``V >= max(V_m, V_oc / 2)`` (d <= 1, and at least half the open-circuit voltage, the same
+    boundary as the ranking's ``bus_collapse``), so a thrust a duty below 1 reaches on a very resistive pack is
+    never called unreachable. g > 0 at V_oc, so the bracket ``[max(V_m, V_oc/2), V_oc]`` holds the healthy root
+    exactly when g <= 0 at its lower end; otherwise the request needs d > 1 (or a collapsed bus).
     """
     n = p.size
     v_oc = np.broadcast_to(p.open_circuit_voltage_v, (n,))
@@ -119,10 +123,16 @@ def _solve_bus(p: Problem, motor_voltage: FloatArray, current: FloatArray, activ
     # Slack of the bus at d = 1; a rounding-level slack is full throttle itself (e.g. the rpm of a d = 1 point).
     slack = v_oc - motor_voltage - load * current
     rounding = 1e-12 * v_oc
-    feasible = active & (slack >= -rounding)
+    half = 0.5 * v_oc
+    lower = np.maximum(motor_voltage, half)
+    at_duty_one = motor_voltage >= half  # the bracket starts at d = 1
+    with np.errstate(invalid="ignore", divide="ignore"):
+        g_lower = np.where(at_duty_one, -slack, _bus_residual(lower, p, motor_voltage, current))
+    stiff_ok = (r_pack == 0.0) & (motor_voltage <= v_oc)
+    feasible = active & (stiff_ok | np.where(at_duty_one, slack >= -rounding, g_lower <= 0.0))
     status[active & ~feasible] = Status.INFEASIBLE_THRUST
     bus = np.full(n, np.nan)
-    at_full = feasible & (slack <= rounding)
+    at_full = feasible & at_duty_one & (np.abs(slack) <= rounding)
     bus[at_full] = motor_voltage[at_full]
     stiff = feasible & ~at_full & (r_pack == 0.0)
     bus[stiff] = v_oc[stiff]
@@ -133,7 +143,7 @@ def _solve_bus(p: Problem, motor_voltage: FloatArray, current: FloatArray, activ
         bus[closed] = 0.5 * (v_oc + np.sqrt(disc))[closed]
     ok = stiff | closed | at_full
     rooted = feasible & ~ok
-    _solve_subset(rooted, p, _bus_residual, motor_voltage, v_oc, bus, ok, motor_voltage, current)
+    _solve_subset(rooted, p, _bus_residual, lower, v_oc, bus, ok, motor_voltage, current)
     status[ok] = Status.OK
     bus[~ok] = np.nan
     return bus, status

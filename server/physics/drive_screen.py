@@ -101,6 +101,10 @@ class FullThrottle:
     thrust_n: np.ndarray
     motor_current_a: np.ndarray
     bus_voltage_v: np.ndarray
+    momentum_ratio: np.ndarray
+    """:func:`.propeller.momentum_limit_ratio` of the point (above 1: data outside their range). [-]"""
+    outside_table: np.ndarray
+    """The propeller coefficients were read beyond the table's measured range (ends held)."""
 
 
 @dataclass(frozen=True)
@@ -118,6 +122,8 @@ class Cruise:
     extra_loss_w: np.ndarray
     bus_current_a: np.ndarray
     reachable: np.ndarray
+    momentum_ratio: np.ndarray
+    outside_table: np.ndarray
 
 
 def full_throttle(batch: Batch, model: PropModel, rotor_count: float, open_circuit_v: np.ndarray) -> FullThrottle:
@@ -130,7 +136,8 @@ def full_throttle(batch: Batch, model: PropModel, rotor_count: float, open_circu
     y2 = y * y
     current = batch.no_load_current_a + batch.kv_si * (model.kq[batch.q] * cp * y2)
     return FullThrottle(speed=y, omega_rad_s=model.omega_rad_s(y), thrust_n=model.kt[batch.q] * ct * y2,
-                        motor_current_a=current, bus_voltage_v=open_circuit_v - sag * current)
+                        motor_current_a=current, bus_voltage_v=open_circuit_v - sag * current,
+                        momentum_ratio=model.momentum_ratio(batch.q, seg, y), outside_table=model.outside(batch.q, seg))
 
 
 def full_throttle_points(batch: Batch, model: PropModel, rotor_count: float,
@@ -187,21 +194,27 @@ def cruise_point(batch: Batch, model: PropModel, rotor_count: float, thrust_n: n
             if not np.nanmax(change, initial=0.0) > BUS_RTOL:
                 break
         converged = change <= BUS_CONVERGED_RTOL  # where the bus has no balanced voltage Newton does not settle
+        # The healthy root lies in [max(V_m, V_oc/2), V_oc] (as in drive._solve_bus): it exists when h <= 0 at the
+        # lower end, which is d = 1 (the slack test) when V_m >= V_oc/2, else V_oc/2 itself.
         rounding = FULL_THROTTLE_SLACK_RTOL * voc
-        feasible = np.isfinite(slack) & (slack >= -rounding)
-        at_full = feasible & (slack <= rounding)
+        half = 0.5 * voc
+        at_duty_one = motor_v >= half
+        h_half = half * (half - voc) + drawn + load * esc_model.extra_loss_below_full_w(coefs, half, motor_v)
+        feasible = np.isfinite(slack) & np.where(at_duty_one, slack >= -rounding, h_half <= 0.0)
+        at_full = feasible & at_duty_one & (slack <= rounding)
         # Just below full throttle the step of P_sw + P_dt at d = 1 can leave no balanced duty below 1:
         # the physics engine then reports the full-throttle point (thrust slightly above the request).
         step_at_full = esc_model.extra_loss_below_full_w(coefs, motor_v, motor_v)  # the loss step at d = 1
-        jump = feasible & ~at_full & (load * step_at_full >= motor_v * slack) & (load > 0)
+        jump = feasible & at_duty_one & ~at_full & (load * step_at_full >= motor_v * slack) & (load > 0)
         bus = np.where(at_full, motor_v, bus)
         duty = motor_v / bus
-        solved = feasible & ~jump & converged & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
+        solved = feasible & ~jump & (converged | at_full) & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
         extra = np.where(at_full, 0.0, esc_model.extra_loss_below_full_w(coefs, bus, motor_v))
         bus_current = duty * current + extra / bus
     cruise = Cruise(thrust_n=thrust, speed=y, omega_rad_s=model.omega_rad_s(y), torque_nm=torque,
                     motor_current_a=current, motor_voltage_v=motor_v, bus_voltage_v=bus, duty=duty,
-                    extra_loss_w=extra, bus_current_a=bus_current, reachable=solved | jump)
+                    extra_loss_w=extra, bus_current_a=bus_current, reachable=solved | jump,
+                    momentum_ratio=model.momentum_ratio(batch.q, seg, y), outside_table=model.outside(batch.q, seg))
     if np.any(jump):
         cruise = _saturate(cruise, jump, batch, model, n_r)
     return cruise
@@ -227,6 +240,7 @@ def _saturate(cruise: Cruise, jump: np.ndarray, batch: Batch, model: PropModel, 
                         ("torque_nm", torque), ("motor_current_a", ft.motor_current_a), ("motor_voltage_v", motor_v),
                         ("bus_voltage_v", ft.bus_voltage_v), ("duty", np.ones_like(motor_v)),
                         ("extra_loss_w", np.zeros_like(motor_v)), ("bus_current_a", ft.motor_current_a),
-                        ("reachable", np.isfinite(ft.bus_voltage_v))):
+                        ("reachable", np.isfinite(ft.bus_voltage_v)), ("momentum_ratio", ft.momentum_ratio),
+                        ("outside_table", ft.outside_table)):
         values[name][where] = value
     return Cruise(**values)

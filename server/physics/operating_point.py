@@ -16,7 +16,7 @@ import numpy as np
 from . import esc as esc_model
 from ._problem import Problem
 from ._types import RPM_PER_RAD_S, ArrayLike, FloatArray, IntArray, Status
-from .propeller import coefficients_at, figure_of_merit, specific_thrust_g_per_w
+from .propeller import advance_ratio, coefficients_at, momentum_limit_ratio, outside_table, specific_thrust_g_per_w
 
 LOSS_TERMS: tuple[tuple[str, str, str], ...] = (
     ("motor_copper_w", "motor_copper_loss_w", "motor copper"),
@@ -72,6 +72,11 @@ class OperatingPoint:
     rotor_count: FloatArray
     pack_current_a: FloatArray
     pack_loss_w: FloatArray
+    momentum_limit_ratio: FloatArray
+    """Propeller efficiency over what momentum theory allows (FM static, eta_p / eta_Froude in flight); > 1 is a
+    ``DATA_ERROR``. [-]"""
+    outside_table: np.ndarray
+    """True where the propeller coefficients were read outside the table's measured range (ends held)."""
     status: IntArray
 
     def map(self, fn: Callable[..., ArrayLike], *others: OperatingPoint) -> OperatingPoint:
@@ -159,7 +164,12 @@ def assemble(p: Problem, omega: FloatArray, bus: FloatArray, status: IntArray) -
         pack_current = p.rotor_count * bus_current
         efficiency = shaft / electrical
         # Momentum bound: a static point with FM > 1 means the propeller data are wrong.
-        impossible = solved & np.broadcast_to(p.airspeed_m_s == 0.0, solved.shape) & (figure_of_merit(ct, cp) > 1.0)
+        # Momentum bound: a point whose propeller does better than momentum theory allows (FM > 1 static,
+        # eta_p above the Froude efficiency in axial flight) has wrong data, or data used outside their range.
+        j = np.where(p.airspeed_m_s > 0.0, advance_ratio(p.airspeed_m_s, n, p.diameter_m), 0.0)
+        momentum = momentum_limit_ratio(ct, cp, j)
+        impossible = solved & (momentum > 1.0)
+        outside = outside_table(p.table, omega, p.airspeed_m_s) & solved
     limit = np.minimum(p.max_current_a, p.esc.max_current_a)
     status = status.copy()
     status[solved & (current > limit)] = Status.OVER_CURRENT
@@ -181,5 +191,6 @@ def assemble(p: Problem, omega: FloatArray, bus: FloatArray, status: IntArray) -
         thrust_coefficient=out(ct), power_coefficient=out(cp),
         open_circuit_voltage_v=out(p.open_circuit_voltage_v), rotor_count=out(p.rotor_count),
         pack_current_a=out(pack_current), pack_loss_w=out(p.pack_resistance_ohm * pack_current**2),
+        momentum_limit_ratio=out(momentum), outside_table=np.broadcast_to(outside, (p.size,)).reshape(shape).copy(),
         status=status.reshape(shape),
     )

@@ -192,6 +192,44 @@ def coefficients_at(table: PropellerTable, omega_rad_s: ArrayLike,
     return ct, cp
 
 
+def outside_table(table: PropellerTable, omega_rad_s: ArrayLike, airspeed_m_s: ArrayLike = 0.0) -> np.ndarray:
+    """True where the lookup of :func:`coefficients_at` falls outside the table's measured range (its end values
+    are held there). A one-point table is a constant, valid at any speed, so never outside."""
+    omega = as_float_array(omega_rad_s)
+    if table.axis == "rpm":
+        x = omega * RPM_PER_RAD_S
+    else:
+        x = np.abs(advance_ratio(airspeed_m_s, omega / (2.0 * math.pi), table.diameter_m))
+    grid = as_float_array(table.axis_values)
+    with np.errstate(invalid="ignore"):
+        first = np.nanmin(grid, axis=-1)
+        last = np.nanmax(grid, axis=-1)
+        points = np.sum(~np.isnan(grid), axis=-1)
+        outside: np.ndarray = (points > 1) & ((x < first) | (x > last))
+    return outside
+
+
+def momentum_limit_ratio(ct: ArrayLike, cp: ArrayLike, advance_ratio_: ArrayLike = 0.0) -> FloatArray:
+    """Propeller efficiency as a fraction of the most momentum theory allows at the same thrust loading. [-]
+
+    Static (J = 0) this is the figure of merit ``sqrt(2/pi) CT^1.5 / CP``; in axial flight it is
+    ``eta_p / eta_ideal`` with ``eta_p = J CT / CP`` and the Froude efficiency
+    ``eta_ideal = 2 / (1 + sqrt(1 + 8 CT / (pi J^2)))`` (Leishman 2006, ch. 2), which tends to the figure of merit
+    as J -> 0. Above 1 the coefficients are wrong, or are used outside the range they were measured in. Zero
+    where the propeller makes no thrust (CT <= 0).
+    """
+    ct_ = as_float_array(ct)
+    cp_ = as_float_array(cp)
+    j = np.abs(as_float_array(advance_ratio_))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        positive = np.where(ct_ > 0.0, ct_, np.nan)
+        static = math.sqrt(2.0 / math.pi) * positive**1.5 / cp_
+        forward = j * positive / cp_ * 0.5 * (1.0 + np.sqrt(1.0 + 8.0 * positive / (math.pi * j * j)))
+        ratio = np.where(j > 0.0, forward, static)
+    out: FloatArray = np.where(ct_ > 0.0, ratio, np.where(np.isnan(ct_) | np.isnan(cp_), np.nan, 0.0))
+    return out
+
+
 def disk_area_m2(diameter_m: ArrayLike) -> FloatArray:
     """Disk area ``A = pi D^2 / 4``. [m^2]"""
     d = as_float_array(diameter_m)

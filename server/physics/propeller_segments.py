@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .propeller import PropellerTable
+from .propeller import PropellerTable, momentum_limit_ratio
 
 NEWTON_RTOL = 1e-14
 """Relative step at which the per-segment Newton iterations stop (results then agree to rounding)."""
@@ -150,8 +150,8 @@ class PropModel:
                     ok &= np.all(~present[None, :, 1:] | (ends > 0), axis=(0, 2))
                 # Momentum bound at the knots (docs/model-reference.md#reference-model-v1 item 8): FM > 1 means the
                 # data are wrong.
-                fm = math.sqrt(2.0 / math.pi) * ct * np.sqrt(np.abs(ct)) / cp
-                ok &= np.all(~present | (fm <= 1.0), axis=1)
+                physical = momentum_limit_ratio(ct, cp) <= 1.0  # FM <= 1 (docs/model-reference.md, item 8)
+                ok &= np.all(~present | physical, axis=1)
                 thrust_knots = np.where(present, ct * xs * xs, np.nan)
                 speed_knots = xs
                 torque_knots = np.where(present, cp * xs * xs, np.nan)
@@ -159,6 +159,8 @@ class PropModel:
                 kt = rho * diameter**4 * np.ones(n)
                 kq = rho * diameter**5 / (2.0 * math.pi)
                 ok &= (ct[:, 0] > 0) & np.all(~present | (xs >= 0), axis=1)
+                # Efficiency at every measured J at most the Froude (momentum) limit at that thrust loading.
+                ok &= np.all(~present | (momentum_limit_ratio(ct, cp, xs) <= 1.0), axis=1)
                 # J^2/CT must rise with J while CT > 0 (2 a + b J > 0), and CP(J) n^2 with n (2 CP - (-b) J > 0).
                 ends_lo = xs[:, :-1]
                 ends_hi = xs[:, 1:]
@@ -207,6 +209,19 @@ class PropModel:
         with np.errstate(divide="ignore"):
             advance_ratio: np.ndarray = self.airspeed_m_s / (y * self.diameter_m[q])
             return advance_ratio
+
+    def momentum_ratio(self, q: np.ndarray, seg: np.ndarray, y: np.ndarray) -> np.ndarray:
+        """:func:`.propeller.momentum_limit_ratio` at speed variable y (FM static, eta_p / eta_Froude forward). [-]"""
+        ct, cp = self.coefficients(q, seg, y)
+        j = self.axis_variable(q, y) if self.axis != "rpm" else 0.0
+        ratio: np.ndarray = momentum_limit_ratio(ct, cp, j)
+        return ratio
+
+    def outside(self, q: np.ndarray, seg: np.ndarray) -> np.ndarray:
+        """True on the held segments beyond the first or last measured point (tables of two points or more)."""
+        n_valid = self.n_valid[q]
+        outside: np.ndarray = (n_valid > 1) & ((seg == 0) | (seg >= n_valid))
+        return outside
 
     def omega_rad_s(self, y: np.ndarray) -> np.ndarray:
         """Shaft speed from the speed variable. [rad/s]"""

@@ -1,17 +1,21 @@
 """Constraints: why a candidate is rejected, in one fixed order, and the screening metrics of the rest.
 
-Every rejected candidate is counted once, under the **first** reason it fails in :data:`REASONS`. The first
-five are decided from the part data alone while enumerating (such combinations are never materialised);
-the rest come from the operating points:
+Every rejected candidate is counted once, under the **first** reason it fails in :data:`REASONS`. The part-level
+reasons (:data:`PRUNE_REASONS`) are decided from the part data alone while enumerating (such combinations are
+never materialised); the rest come from the operating points:
 
 ==========================  ==================================================================================
-missing_data                a part lacks a value the model needs (NaN), or its propeller table is unusable
+missing_data                a part lacks a value the model needs (NaN), or the propeller has no static table
+prop_data_invalid           the propeller's table is impossible (beats momentum theory at a measured point) or
+                            not usable (thrust or torque not rising with speed, non-finite values)
 prop_too_large              propeller diameter above the airframe's limit
 no_forward_table            cruise mission and the propeller has no CT/CP versus advance ratio
 esc_cell_range              pack cell count outside the ESC's min..max cells
 motor_cell_limit            pack cell count above the motor's max cells
 over_mass                   all-up mass above the mission's maximum
-cruise_unreachable          the cruise/hover thrust needs duty > 1 on the sagged bus, or has no solution
+cruise_unreachable          the cruise/hover thrust needs duty > 1 on the sagged bus (healthy side), no solution
+prop_data_out_of_range      at the cruise or a full-throttle point the propeller data, read beyond their measured
+                            range, would beat momentum theory (figure of merit or Froude efficiency above 1)
 duty_out_of_band            cruise/hover duty outside [duty_min, duty_max]
 bus_collapse                full-throttle bus below half the open-circuit voltage (past the power peak, thrust
                             no longer rises with duty), at the full or the low state of charge
@@ -22,7 +26,9 @@ pack_over_current           full-throttle pack current above pack_current_fracti
 endurance_short             screening (or refined) endurance below the mission minimum
 ==========================  ==================================================================================
 
-Comparisons are written so that NaN fails them (a NaN metric is never feasible).
+Each operating-point reason is a :class:`Check`: the quantity compared, its limit, its unit and whether it
+passed, so "why this verdict" (:mod:`.explain`) reports exactly the numbers the screen decided on. Comparisons
+are written so that NaN fails them (a NaN metric is never feasible).
 """
 
 from __future__ import annotations
@@ -37,24 +43,84 @@ from server.physics.propeller_segments import PropModel
 
 from .library import MissionSpec
 
-REASONS: tuple[str, ...] = (
-    "missing_data", "prop_too_large", "no_forward_table", "esc_cell_range", "motor_cell_limit",
-    "over_mass", "cruise_unreachable", "duty_out_of_band", "bus_collapse", "below_thrust_to_weight",
-    "motor_over_current", "esc_over_current", "pack_over_current", "endurance_short",
-)
+REASON_TEXT: dict[str, str] = {
+    "missing_data": "missing part data (unknown resistance, coefficients…)",
+    "prop_data_invalid": "propeller data impossible or unusable (beats momentum theory, not rising with speed)",
+    "prop_too_large": "propeller larger than the airframe allows",
+    "no_forward_table": "propeller has no forward-flight data (cruise)",
+    "esc_cell_range": "pack cell count outside the ESC's range",
+    "motor_cell_limit": "pack cell count above the motor's limit",
+    "over_mass": "all-up mass above the mission's limit",
+    "cruise_unreachable": "cannot reach the cruise thrust (duty > 1)",
+    "prop_data_out_of_range": "propeller data outside its range (would beat momentum theory)",
+    "duty_out_of_band": "cruise duty outside the mission's band",
+    "bus_collapse": "pack voltage collapses at full throttle",
+    "below_thrust_to_weight": "thrust-to-weight below the mission's minimum",
+    "motor_over_current": "full-throttle current above the motor's rating",
+    "esc_over_current": "ESC rating below the required margin",
+    "pack_over_current": "pack current above the allowed share of its C rating",
+    "endurance_short": "endurance below the mission's minimum",
+}
+"""A plain-language line per rejection reason (pages, explain)."""
+REASONS: tuple[str, ...] = tuple(REASON_TEXT)
 """Rejection reasons in the order they are checked; code ``i + 1`` is ``REASONS[i]``, code 0 is feasible."""
-PRUNE_REASONS = REASONS[:5]
+PRUNE_REASONS = REASONS[:6]
 CODE = {name: i + 1 for i, name in enumerate(REASONS)}
 BUS_COLLAPSE_FRACTION = 0.5
-"""Full-throttle bus below this fraction of V_oc is past the pack's maximum-power point (physics author's note)."""
+"""Full-throttle bus below this fraction of V_oc is past the pack's maximum-power point (the healthy-side
+boundary of :func:`server.physics.drive.for_thrust` too)."""
+
+
+@dataclass(frozen=True)
+class Check:
+    """One reason evaluated on a batch: the quantity, its limit, and where it passed (batch shape).
+
+    ``sense`` is ``"max"`` (pass when value <= limit), ``"min"`` (value >= limit), ``"band"`` (limit is
+    ``(low, high)``) or ``"flag"`` (a yes/no test; ``value`` is 1 when it holds). ``margin`` is how far inside
+    the limit the value is, in the value's unit (negative outside).
+    """
+
+    reason: str
+    value: np.ndarray
+    limit: float | tuple[float, float] | np.ndarray
+    unit: str
+    sense: str
+    passed: np.ndarray
+
+    @property
+    def margin(self) -> np.ndarray:
+        value = np.asarray(self.value, dtype=np.float64)
+        out: np.ndarray
+        with np.errstate(invalid="ignore"):
+            if self.sense == "max":
+                out = np.asarray(self.limit, dtype=np.float64) - value
+            elif self.sense == "min":
+                out = value - np.asarray(self.limit, dtype=np.float64)
+            elif self.sense == "band":
+                low, high = self.limit  # type: ignore[misc]
+                out = np.minimum(value - low, high - value)
+            else:
+                out = np.where(self.passed, 0.0, -1.0)
+        return out
+
+
+def _at_most(reason: str, value: np.ndarray, limit: float | np.ndarray, unit: str) -> Check:
+    with np.errstate(invalid="ignore"):
+        return Check(reason, value, limit, unit, "max", np.asarray(value <= limit))
+
+
+def _at_least(reason: str, value: np.ndarray, limit: float | np.ndarray, unit: str) -> Check:
+    with np.errstate(invalid="ignore"):
+        return Check(reason, value, limit, unit, "min", np.asarray(value >= limit))
 
 
 @dataclass(frozen=True)
 class Screen:
-    """Screening result of a batch: reason codes and the metrics the ranking uses (batch shape)."""
+    """Screening result of a batch: reason codes, the checks, and the metrics the ranking uses (batch shape)."""
 
     code: np.ndarray
     violations: np.ndarray
+    checks: tuple[Check, ...]
     mass_kg: np.ndarray
     cruise: Cruise
     low: FullThrottle
@@ -66,6 +132,34 @@ class Screen:
     endurance_min: np.ndarray
 
 
+def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: FullThrottle, full: FullThrottle,
+                     mass: np.ndarray, thrust_to_weight: np.ndarray, endurance_min: np.ndarray) -> list[Check]:
+    """The operating-point reasons of :data:`REASONS`, in order, as :class:`Check` objects."""
+    n_r = float(mission.rotor_count)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        checks: list[Check] = []
+        if mission.max_all_up_mass_kg is not None:
+            checks.append(_at_most("over_mass", 1000.0 * mass, 1000.0 * mission.max_all_up_mass_kg, "g"))
+        checks.append(Check("cruise_unreachable", np.where(cruise.reachable, cruise.duty, np.nan), 1.0, "-", "max",
+                            np.asarray(cruise.reachable)))
+        # The highest of the three points (a point without a solution, NaN, is left to the later checks).
+        momentum = np.fmax(np.fmax(cruise.momentum_ratio, low.momentum_ratio), full.momentum_ratio)
+        checks += [
+            _at_most("prop_data_out_of_range", momentum, 1.0, "-"),
+            Check("duty_out_of_band", cruise.duty, (mission.duty_min, mission.duty_max), "-", "band",
+                  np.asarray((cruise.duty >= mission.duty_min) & (cruise.duty <= mission.duty_max))),
+            _at_least("bus_collapse", np.minimum(low.bus_voltage_v / batch.voc_low_v,
+                                                 full.bus_voltage_v / batch.voc_full_v), BUS_COLLAPSE_FRACTION, "-"),
+            _at_least("below_thrust_to_weight", thrust_to_weight, mission.min_thrust_to_weight, "-"),
+            _at_most("motor_over_current", full.motor_current_a, batch.motor_rating_a, "A"),
+            # The ESC must carry the margin times the full-throttle current: the current it needs is compared.
+            _at_most("esc_over_current", mission.esc_current_margin * full.motor_current_a, batch.esc_rating_a, "A"),
+            _at_most("pack_over_current", n_r * full.motor_current_a, batch.pack_limit_a, "A"),
+            _at_least("endurance_short", endurance_min, mission.min_endurance_min, "min"),
+        ]
+    return checks
+
+
 def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violations: bool = True) -> Screen:
     """Operating points, metrics and the first failing reason of every candidate of ``batch``.
 
@@ -74,8 +168,8 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
     Screen
         ``code`` (uint8, 0 = feasible), ``violations`` (count of candidates violating each evaluated reason,
         whether or not an earlier reason already rejected them; zeros when ``all_violations`` is false),
-        and the metrics: craft electrical power [W] and pack current [A] at the cruise point, specific thrust
-        [g/W], thrust-to-weight at SOC 1 - usable_fraction [-], screening endurance [min].
+        the checks, and the metrics: craft electrical power [W] and pack current [A] at the cruise point,
+        specific thrust [g/W], thrust-to-weight at SOC 1 - usable_fraction [-], screening endurance [min].
     """
     n_r = float(mission.rotor_count)
     cruise = cruise_point(batch, model, n_r, mission.thrust_per_rotor_n(batch.mass_kg))
@@ -90,28 +184,15 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
         tw = (n_r / STANDARD_GRAVITY_M_S2) * low.thrust_n / mass
         # Screening endurance: usable capacity drained at the cruise pack current (common practice, no source).
         endurance = (mission.usable_fraction * 60.0) * batch.capacity_ah / pack_current
-        checks: list[tuple[str, np.ndarray]] = []
-        if mission.max_all_up_mass_kg is not None:
-            checks.append(("over_mass", ~(mass <= mission.max_all_up_mass_kg)))
-        checks += [
-            ("cruise_unreachable", ~cruise.reachable),
-            ("duty_out_of_band", ~((cruise.duty >= mission.duty_min) & (cruise.duty <= mission.duty_max))),
-            ("bus_collapse", ~((low.bus_voltage_v >= BUS_COLLAPSE_FRACTION * batch.voc_low_v)
-                               & (full.bus_voltage_v >= BUS_COLLAPSE_FRACTION * batch.voc_full_v))),
-            ("below_thrust_to_weight", ~(tw >= mission.min_thrust_to_weight)),
-            ("motor_over_current", ~(full.motor_current_a <= batch.motor_rating_a)),
-            ("esc_over_current", ~(batch.esc_rating_a >= mission.esc_current_margin * full.motor_current_a)),
-            ("pack_over_current", ~(n_r * full.motor_current_a <= batch.pack_limit_a)),
-            ("endurance_short", ~(endurance >= mission.min_endurance_min)),
-        ]
+    checks = operating_checks(batch, mission, cruise, low, full, mass, tw, endurance)
     code = np.zeros(shape, dtype=np.uint8)
     violations = np.zeros(len(REASONS), dtype=np.int64)
     # Later reasons first, so that the earliest failing reason is the one left in ``code``.
-    for name, bad in reversed(checks):
-        bad = np.broadcast_to(bad, shape)
-        np.copyto(code, CODE[name], where=bad)
+    for check in reversed(checks):
+        bad = np.broadcast_to(~check.passed, shape)
+        np.copyto(code, CODE[check.reason], where=bad)
         if all_violations:
-            violations[CODE[name] - 1] = np.count_nonzero(bad)
-    return Screen(code=code, violations=violations, mass_kg=mass, cruise=cruise, low=low, full=full,
-                  electrical_power_w=power, pack_current_a=pack_current, specific_thrust_g_per_w=specific,
+            violations[CODE[check.reason] - 1] = np.count_nonzero(bad)
+    return Screen(code=code, violations=violations, checks=tuple(checks), mass_kg=mass, cruise=cruise, low=low,
+                  full=full, electrical_power_w=power, pack_current_a=pack_current, specific_thrust_g_per_w=specific,
                   thrust_to_weight=tw, endurance_min=endurance)

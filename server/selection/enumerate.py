@@ -20,7 +20,8 @@ from server.physics.battery import open_circuit_voltage_per_cell_v
 from server.physics.drive_screen import Batch
 from server.physics.propeller_segments import PropModel
 
-from .library import MissionSpec, PartsLibrary
+from .constraints import CODE, PRUNE_REASONS
+from .library import EscLibrary, MissionSpec, MotorLibrary, PartsLibrary
 
 DEFAULT_CHUNK_SIZE = 65_536
 
@@ -69,30 +70,90 @@ class Plan:
         return sum(b.size for b in self.blocks)
 
 
+@dataclass(frozen=True)
+class PartVerdicts:
+    """What the part data alone decide (the part-level reasons of :data:`.constraints.PRUNE_REASONS`).
+
+    Masks per pack, ESC, motor (data known) and per propeller (which part-level reason removes it, in order).
+    """
+
+    pack_ok: np.ndarray
+    esc_ok: np.ndarray
+    motor_ok: np.ndarray
+    prop_missing: np.ndarray
+    prop_invalid: np.ndarray
+    prop_large: np.ndarray
+    prop_no_forward: np.ndarray
+
+    @classmethod
+    def of(cls, library: PartsLibrary, mission: MissionSpec, model: PropModel) -> PartVerdicts:
+        props = library.propellers
+        missing = ~props.valid() | ((mission.kind == "hover") & ~model.has_table)
+        invalid = ~missing & model.has_table & ~model.valid
+        large = ~missing & ~invalid & ~(props.diameter_in <= mission.max_prop_diameter_in)
+        return cls(pack_ok=library.packs.valid(), esc_ok=library.escs.valid(), motor_ok=library.motors.valid(),
+                   prop_missing=missing, prop_invalid=invalid, prop_large=large,
+                   prop_no_forward=~missing & ~invalid & ~large & ~model.has_table)
+
+    @property
+    def prop_use(self) -> np.ndarray:
+        use: np.ndarray = ~self.prop_missing & ~self.prop_invalid & ~self.prop_large & ~self.prop_no_forward
+        return use
+
+    @staticmethod
+    def esc_fits(escs: EscLibrary, esc: np.ndarray, cells: np.ndarray) -> np.ndarray:
+        """The ESC supports the pack's cell count: ``min_cells <= S <= max_cells``."""
+        fits: np.ndarray = (escs.min_cells[esc] <= cells) & (cells <= escs.max_cells[esc])
+        return fits
+
+    @staticmethod
+    def motor_fits(motors: MotorLibrary, motor: np.ndarray, cells: np.ndarray) -> np.ndarray:
+        """The pack's cell count is within the motor's maximum: ``S <= max_cells``."""
+        fits: np.ndarray = cells <= motors.max_cells[motor]
+        return fits
+
+    def first_failure(self, library: PartsLibrary, pack: np.ndarray, esc: np.ndarray, motor: np.ndarray,
+                      prop: np.ndarray) -> np.ndarray:
+        """Code (:data:`.constraints.CODE`) of the first part-level reason each candidate fails, 0 if none."""
+        cells = library.packs.cells_series[pack]
+        tests = [
+            ("missing_data", ~(self.pack_ok[pack] & self.esc_ok[esc] & self.motor_ok[motor])
+             | self.prop_missing[prop]),
+            ("prop_data_invalid", self.prop_invalid[prop]),
+            ("prop_too_large", self.prop_large[prop]),
+            ("no_forward_table", self.prop_no_forward[prop]),
+            ("esc_cell_range", ~self.esc_fits(library.escs, esc, cells)),
+            ("motor_cell_limit", ~self.motor_fits(library.motors, motor, cells)),
+        ]
+        shape = np.broadcast_shapes(*(np.shape(bad) for _, bad in tests))
+        code = np.zeros(shape, dtype=np.uint8)
+        for name, bad in reversed(tests):
+            np.copyto(code, CODE[name], where=np.broadcast_to(bad, shape))
+        return code
+
+
 def plan(library: PartsLibrary, mission: MissionSpec, model: PropModel) -> Plan:
     """Group the library into compatible blocks and count the pruned combinations per reason."""
     packs, escs, motors, props = library.packs, library.escs, library.motors, library.propellers
     k_max = int(mission.max_packs_in_parallel)
     combinations = k_max * len(packs) * len(escs) * len(motors) * len(props)
-    pack_ok, esc_ok, motor_ok = packs.valid(), escs.valid(), motors.valid()
-    prop_missing = ~props.valid() | (~model.valid & (model.has_table | (mission.kind == "hover")))
-    prop_large = ~prop_missing & ~(props.diameter_in <= mission.max_prop_diameter_in)
-    prop_no_forward = ~prop_missing & ~prop_large & ~model.has_table
-    prop_use = ~prop_missing & ~prop_large & ~prop_no_forward
-    n_p, n_e, n_m = int(pack_ok.sum()), int(esc_ok.sum()), int(motor_ok.sum())
+    v = PartVerdicts.of(library, mission, model)
+    n_p, n_e, n_m = int(v.pack_ok.sum()), int(v.esc_ok.sum()), int(v.motor_ok.sum())
+    prop_use = v.prop_use
     n_q_ok = int(prop_use.sum())
-    pruned = dict.fromkeys(("missing_data", "prop_too_large", "no_forward_table", "esc_cell_range",
-                            "motor_cell_limit"), 0)
-    pruned["missing_data"] = combinations - k_max * n_p * n_e * n_m * int((~prop_missing).sum())
-    pruned["prop_too_large"] = k_max * n_p * n_e * n_m * int(prop_large.sum())
-    pruned["no_forward_table"] = k_max * n_p * n_e * n_m * int(prop_no_forward.sum())
+    pruned = dict.fromkeys(PRUNE_REASONS, 0)
+    complete = k_max * n_p * n_e * n_m  # combinations of packs, ESCs and motors with known data, per propeller
+    pruned["missing_data"] = combinations - complete * int((~v.prop_missing).sum())
+    pruned["prop_data_invalid"] = complete * int(v.prop_invalid.sum())
+    pruned["prop_too_large"] = complete * int(v.prop_large.sum())
+    pruned["no_forward_table"] = complete * int(v.prop_no_forward.sum())
     blocks = []
-    valid_packs = np.flatnonzero(pack_ok)
-    esc_idx, motor_idx, prop_idx = np.flatnonzero(esc_ok), np.flatnonzero(motor_ok), np.flatnonzero(prop_use)
+    valid_packs = np.flatnonzero(v.pack_ok)
+    esc_idx, motor_idx, prop_idx = np.flatnonzero(v.esc_ok), np.flatnonzero(v.motor_ok), np.flatnonzero(prop_use)
     for cells in np.unique(packs.cells_series[valid_packs]):
         group = valid_packs[packs.cells_series[valid_packs] == cells]
-        e_fit = esc_idx[(escs.min_cells[esc_idx] <= cells) & (cells <= escs.max_cells[esc_idx])]
-        m_fit = motor_idx[cells <= motors.max_cells[motor_idx]]
+        e_fit = esc_idx[v.esc_fits(escs, esc_idx, np.asarray(cells))]
+        m_fit = motor_idx[v.motor_fits(motors, motor_idx, np.asarray(cells))]
         per_pack = k_max * n_q_ok
         pruned["esc_cell_range"] += len(group) * per_pack * (n_e - len(e_fit)) * n_m
         pruned["motor_cell_limit"] += len(group) * per_pack * len(e_fit) * (n_m - len(m_fit))

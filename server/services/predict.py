@@ -89,7 +89,7 @@ def solve_points(system: System, kinds: list[str], values: np.ndarray) -> Operat
             continue
         op = fn(values[mask], **system.solve_kwargs())
         if merged is None:
-            merged = op.map(lambda a: np.zeros(n, dtype=np.asarray(a).dtype) if np.asarray(a).dtype.kind == "i"
+            merged = op.map(lambda a: np.zeros(n, dtype=np.asarray(a).dtype) if np.asarray(a).dtype.kind in "ib"
                             else np.full(n, np.nan))
 
         def scatter(full: np.ndarray, part: np.ndarray, mask: np.ndarray = mask) -> np.ndarray:
@@ -124,21 +124,31 @@ def _warnings(system: System, op: OperatingPoint, i: int) -> list[str]:
                                      atmosphere.speed_of_sound_m_s(system.temperature_k)).ravel()[0])
         if mach > TIP_MACH_LIMIT:
             notes.append(f"tip Mach {mach:.2f} is above {TIP_MACH_LIMIT} (noise, loss of efficiency)")
-    table = system.prop.values.get("static_table")
-    if table and system.airspeed == 0 and np.isfinite(op.rpm[i]):
-        lo, hi = table[0]["rpm"], table[-1]["rpm"]
-        if not lo <= op.rpm[i] <= hi:
-            notes.append(f"{op.rpm[i]:.0f} rpm is outside the measured range {lo:g}–{hi:g} rpm; "
-                         "coefficients held at the nearest measured value")
+    if bool(op.outside_table[i]):
+        notes.append(_outside_note(system, op, i))
     if np.isfinite(op.bus_voltage_v[i]) and op.bus_voltage_v[i] < 0.5 * system.open_circuit_v:
         notes.append("bus voltage below half the open-circuit voltage: the pack cannot deliver more power")
     if status == Status.INFEASIBLE_THRUST:
         notes.append("not reachable: needs a PWM duty above 1 with this supply")
     elif status == Status.DATA_ERROR:
-        notes.append("this point beats the momentum-theory ideal power: check the propeller coefficients")
+        notes.append(f"propeller data outside its range: this point would be {op.momentum_limit_ratio[i]:.2f} × what "
+                     "momentum theory allows (figure of merit or the Froude efficiency); check the coefficients or "
+                     "stay inside the measured range")
     elif status not in (Status.OK, Status.OVER_CURRENT):
         notes.append(f"no solution ({status.name.lower()})")
     return notes
+
+
+def _outside_note(system: System, op: OperatingPoint, i: int) -> str:
+    """Where a point left its propeller table: the measured range in the table's own abscissa."""
+    axis = system.table.axis_values[~np.isnan(system.table.axis_values)]
+    if system.table.axis == "rpm":
+        return (f"{op.rpm[i]:.0f} rpm is outside the measured range {axis.min():g}–{axis.max():g} rpm; "
+                "coefficients held at the nearest measured value")
+    diameter = float(np.ravel(system.table.diameter_m)[0])
+    j = system.airspeed / (op.rpm[i] / 60.0 * diameter)
+    return (f"advance ratio J = {j:.3f} is outside the measured range {axis.min():g}–{axis.max():g}; "
+            "coefficients held at the nearest measured value")
 
 
 def _point(system: System, op: OperatingPoint, i: int, request: dict[str, float]) -> dict[str, Any]:

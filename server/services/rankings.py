@@ -12,12 +12,14 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from server.errors import Conflict, FieldError, InvalidInput, NotFound
 from server.models import Ranking, RankingResult
-from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, rank
+from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, constraints, rank
 from server.services import missions as missions_service
 from server.services.ranking_inputs import engine_inputs, snapshot
 
 log = logging.getLogger("liftmatch.rankings")
 PROGRESS_INTERVAL_S = 0.25
+REASON_TEXT = constraints.REASON_TEXT
+"""A plain-language line per rejection reason, in the engine's order."""
 SORT_COLUMNS = {
     "rank": RankingResult.rank,
     "all_up_mass_g": RankingResult.all_up_mass_g,

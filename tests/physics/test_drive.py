@@ -266,3 +266,34 @@ def test_request_in_the_loss_step_band_below_full_throttle_returns_full_throttle
         used = op.pack_loss_w[k] + 4 * (op.shaft_power_w[k] + op.motor_copper_loss_w[k] + op.motor_no_load_loss_w[k]
                                         + op.esc_conduction_loss_w[k] + op.extra_loss_w[k])
         assert used == pytest.approx(op.pack_power_w[k], rel=1e-9)
+
+
+@pytest.mark.parametrize("with_pwm_losses", [False, True])
+def test_thrust_reachable_below_full_throttle_on_a_resistive_pack_is_solved_on_the_healthy_side(
+        motor_920kv_no_ripple: MotorParams, prop_10x7_5015: PropellerTable, with_pwm_losses: bool) -> None:
+    """A 3S pack with 1 Ω per cell: full throttle is past the pack's maximum-power point, so thrust falls as duty
+    nears 1; a thrust that a duty well below 1 reaches must be solved there (not called unreachable).
+
+    Scalar check: scipy's brentq on the duty of the reference at_duty solver between a low duty and the duty of
+    the most thrust (found by a bounded scalar search), then at_duty at that duty must give the same point."""
+    from scipy.optimize import brentq, minimize_scalar
+
+    esc = EscParams() if with_pwm_losses else EscParams.lossless_switching()
+    pack = {"open_circuit_voltage_v": 3 * 4.2, "pack_resistance_ohm": 3 * 1.0, "rotor_count": 1,
+            "motor": motor_920kv_no_ripple, "esc": esc, "propeller": prop_10x7_5015}
+
+    def thrust_at(duty: float) -> float:
+        return float(drive.at_duty(duty, **pack).thrust_n)  # type: ignore[arg-type]
+
+    peak = minimize_scalar(lambda d: -thrust_at(d), bounds=(0.05, 1.0), method="bounded", options={"xatol": 1e-9})
+    assert peak.x < 0.9 and thrust_at(1.0) < -peak.fun  # past the maximum-power point at full throttle
+    request = 0.9 * -peak.fun
+    assert thrust_at(1.0) < request  # full throttle cannot give it; a lower duty can
+    duty = brentq(lambda d: thrust_at(d) - request, 0.02, peak.x, xtol=1e-13)
+    op = drive.for_thrust(request, **pack)  # type: ignore[arg-type]
+    assert op.status == Status.OK
+    assert float(op.duty) == pytest.approx(duty, rel=1e-6)
+    assert float(op.thrust_n) == pytest.approx(request, rel=1e-9)
+    assert float(op.bus_voltage_v) >= 0.5 * pack["open_circuit_voltage_v"]  # type: ignore[operator]
+    # and more than the pack's most is still unreachable
+    assert drive.for_thrust(1.01 * -peak.fun, **pack).status == Status.INFEASIBLE_THRUST  # type: ignore[arg-type]

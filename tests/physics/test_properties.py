@@ -154,3 +154,32 @@ def test_thrust_falls_with_duty_beyond_maximum_power_transfer() -> None:
     assert np.all(op.status == Status.OK)
     assert op.bus_voltage_v[1] < 0.5 * 20.0
     assert op.thrust_n[1] < op.thrust_n[0]
+
+
+FORWARD_FILES = sorted((REFERENCE_DIR / "forward").glob("*.csv"))
+
+
+@SETTINGS
+@given(file_index=st.integers(0, len(FORWARD_FILES) - 1), airspeed=st.floats(0.5, 60.0),
+       duty=st.floats(0.15, 1.0), kv=st.floats(400.0, 2500.0), cells=st.integers(2, 6))
+def test_forward_flight_never_reports_an_efficiency_above_the_momentum_limit_as_ok(
+        file_index: int, airspeed: float, duty: float, kv: float, cells: int) -> None:
+    """Beyond a forward table's last advance ratio the coefficients are held, so eta_p = J CT / CP keeps growing;
+    no such point may come back as ``ok`` with an efficiency above the Froude limit (Leishman 2006, ch. 2) or 1.
+
+    Tables: UIUC forward runs (Brandt & Selig 2011; Deters, Ananda & Selig 2014) from tests/data/reference."""
+    path = FORWARD_FILES[file_index]
+    data = read_csv(path)
+    prop_id = path.name.rsplit("_", 1)[0]
+    table = PropellerTable(float(PROPS[prop_id]["diameter_m"]), data["j"], data["ct"], data["cp"],
+                           axis="advance_ratio")
+    op = drive.at_duty(duty, motor=MotorParams(kv, 0.08, 0.5), esc=EscParams(), propeller=table,
+                       open_circuit_voltage_v=3.8 * cells, pack_resistance_ohm=0.01 * cells, airspeed_m_s=airspeed)
+    status = int(op.status)
+    if status in (Status.OK, Status.OVER_CURRENT) and float(op.thrust_n) > 0:
+        eta = float(op.thrust_n) * airspeed / float(op.shaft_power_w)
+        froude = float(prop.froude_efficiency(op.thrust_n, airspeed, 1.225, table.diameter_m))
+        assert eta <= froude * (1 + 1e-9) and eta < 1.0
+        assert float(op.momentum_limit_ratio) <= 1.0
+    if float(op.momentum_limit_ratio) > 1.0:
+        assert status == Status.DATA_ERROR

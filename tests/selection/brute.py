@@ -43,6 +43,21 @@ def _or(value: float, default: float) -> float:
     return default if math.isnan(value) else value
 
 
+def _table_physical(x: np.ndarray, ct: np.ndarray, cp: np.ndarray, *, forward: bool) -> bool:
+    """Every measured point within momentum theory: FM = sqrt(2/pi) CT^1.5/CP <= 1 static (x = rpm) or, versus
+    advance ratio J > 0, J CT/CP <= 2/(1 + sqrt(1 + 8 CT/(pi J^2))) (Froude; Leishman 2006, ch. 2)."""
+    for xi, cti, cpi in zip(x, ct, cp, strict=True):
+        if cti <= 0:
+            continue
+        if forward and xi > 0:
+            limit = 2.0 / (1.0 + math.sqrt(1.0 + 8.0 * cti / (math.pi * xi * xi)))
+            if xi * cti / cpi > limit:
+                return False
+        elif math.sqrt(2.0 / math.pi) * cti**1.5 / cpi > 1.0:
+            return False
+    return True
+
+
 def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int], list[Record]]:
     """Rejection counts (first failing reason) and the feasible candidates with their metrics."""
     pk, es, mo, pr = library.packs, library.escs, library.motors, library.propellers
@@ -63,6 +78,8 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
                    or (mission.kind == "hover" and x.size == 0))
         if missing:
             reason = "missing_data"
+        elif x.size and not _table_physical(x, ct, cp, forward=mission.kind == "cruise"):
+            reason = "prop_data_invalid"
         elif float(pr.diameter_in[q]) > mission.max_prop_diameter_in:
             reason = "prop_too_large"
         elif x.size == 0:
@@ -104,13 +121,15 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
         tw = n_r * float(low.thrust_n[0]) / (mass * G0)
         i_full = float(full.motor_current_a[0])
         capacity = float(pk.capacity_ah[p]) * k
-        reachable = int(op.status[0]) in (Status.OK, Status.OVER_CURRENT)
+        reachable = int(op.status[0]) in (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR)
+        beyond_data = Status.DATA_ERROR in (int(op.status[0]), int(low.status[0]), int(full.status[0]))
         duty = float(op.duty[0])
         pack_current = float(op.pack_current_a[0])
         screening_endurance = mission.usable_fraction * capacity * 60.0 / pack_current if reachable else math.nan
         checks = [
             ("over_mass", mission.max_all_up_mass_kg is not None and mass > mission.max_all_up_mass_kg),
             ("cruise_unreachable", not reachable),
+            ("prop_data_out_of_range", beyond_data),
             ("duty_out_of_band", not mission.duty_min <= duty <= mission.duty_max),
             ("bus_collapse", not (float(low.bus_voltage_v[0]) >= 0.5 * voc(1.0 - mission.usable_fraction)
                                   and float(full.bus_voltage_v[0]) >= 0.5 * voc(1.0))),

@@ -58,15 +58,18 @@ def static_rows() -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
 
 
 def forward_rows() -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
-    """Invented forward tables versus J (CT falling with J, eta_p peaking near 0.6-0.7).
+    """Invented forward tables versus J (CT falling with J, eta_p = J CT / CP peaking near 0.70 and 0.79).
 
-    Typical values: docs/model-reference.md#propeller-typical-values.
+    Shaped like the UIUC forward runs of a 10x4.7 and a 10x7 (Brandt & Selig 2011) in
+    tests/data/reference/propellers/forward, whose efficiency peaks at 0.64 and 0.69: every point is within
+    momentum theory (eta_p below the Froude efficiency; :func:`server.physics.propeller.momentum_limit_ratio`
+    0.56-0.89). Typical values: docs/model-reference.md#propeller-typical-values.
     """
     return [
-        (np.array([0.0, 0.2, 0.4, 0.6, 0.8]), np.array([0.128, 0.118, 0.098, 0.070, 0.035]),
-         np.array([0.052, 0.052, 0.048, 0.040, 0.027])),
-        (np.array([0.0, 0.3, 0.6, 0.9]), np.array([0.150, 0.130, 0.095, 0.045]),
-         np.array([0.075, 0.074, 0.066, 0.046])),
+        (np.array([0.0, 0.15, 0.3, 0.45, 0.6]), np.array([0.125, 0.113, 0.092, 0.062, 0.025]),
+         np.array([0.053, 0.051, 0.047, 0.040, 0.028])),
+        (np.array([0.0, 0.3, 0.6, 0.9]), np.array([0.140, 0.118, 0.080, 0.030]),
+         np.array([0.068, 0.066, 0.061, 0.042])),
         (np.array([NAN]), np.array([NAN]), np.array([NAN])),
     ]
 

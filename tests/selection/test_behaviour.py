@@ -207,3 +207,32 @@ def test_result_rows_carry_every_loss_term_of_the_physics_engine() -> None:
                           rotor_count=mission.rotor_count, density_kg_m3=mission.density_kg_m3)
     for name, where, _ in LOSS_TERMS:
         assert row.cruise["losses"][name] == pytest.approx(float(loss_value(op, where)[0]), rel=1e-6, abs=1e-9), name
+
+
+def test_cruise_point_on_a_resistive_pack_is_the_physics_engines_healthy_root() -> None:
+    """A pack of 1 Ω per cell puts full throttle past the maximum-power point: the screening cruise point must
+    find the same healthy (high-voltage) bus as drive.for_thrust, at thrusts only a partial duty reaches."""
+    lib = parts.library()
+    lib = replace(lib, packs=replace(lib.packs, cell_resistance_ohm=np.array([1.0, 1.0, 1.0])))
+    mission = MissionSpec(rotor_count=1, frame_mass_kg=0.1, kind="hover", cruise_state_of_charge=0.9)
+    model = mission.propeller_model(lib.propellers)
+    one = np.array([1])
+    batch = batch_for(lib, mission, np.array([0]), one, one, np.array([0]), np.array([0]))
+    es, mo = lib.escs, lib.motors
+    common = {"motor": MotorParams(mo.kv_rpm_per_v[0], mo.resistance_ohm[0], mo.no_load_current_a[0],
+                                   inductance_h=mo.inductance_h[0]),
+              "esc": es.params(one), "propeller": lib.propellers.static.take(np.array([0])),
+              "open_circuit_voltage_v": batch.voc_cruise_v, "pack_resistance_ohm": batch.pack_resistance_ohm,
+              "rotor_count": 1, "density_kg_m3": mission.density_kg_m3}
+    duties = np.linspace(0.1, 1.0, 91)
+    sweep = drive.at_duty(duties, **common)  # type: ignore[arg-type]
+    peak = float(np.nanmax(sweep.thrust_n))
+    assert float(sweep.thrust_n[-1]) < 0.95 * peak  # full throttle is well past the maximum-power point
+    thrusts = peak * np.array([0.3, 0.6, 0.9, 0.99, 1.05])
+    got = cruise_point(batch, model, 1.0, thrusts)
+    op = drive.for_thrust(thrusts, **common)  # type: ignore[arg-type]
+    reachable = np.isfinite(op.duty)
+    assert reachable.tolist() == [True, True, True, True, False]
+    np.testing.assert_array_equal(got.reachable, reachable)
+    np.testing.assert_allclose(got.duty[reachable], op.duty[reachable], rtol=1e-9)
+    np.testing.assert_allclose(got.bus_voltage_v[reachable], op.bus_voltage_v[reachable], rtol=1e-9)

@@ -40,7 +40,7 @@ def base_parts(**over: dict[str, object]) -> PartsLibrary:
     prop = over.get("prop", {})
     diameter_in = np.array(prop.get("diameter_in", [12.0]))
     d = diameter_in * 0.0254
-    static = PropellerTable.from_rows(d, [(np.array([0.0]), np.array([0.110]), np.array([0.042]))])
+    static = PropellerTable.from_rows(d, [prop.get("static", (np.array([0.0]), np.array([0.110]), np.array([0.042])))])
     forward_row = prop.get("forward", (np.array([0.0, 0.3, 0.6, 0.9]), np.array([0.150, 0.130, 0.095, 0.045]),
                                        np.array([0.075, 0.074, 0.066, 0.046])))
     forward = PropellerTable.from_rows(d, [forward_row], "advance_ratio")
@@ -55,6 +55,8 @@ BASE_MISSION = MissionSpec(rotor_count=4, frame_mass_kg=0.9, payload_kg=0.3, max
 
 CASES = {
     "missing_data": ({"motor": {"resistance_ohm": [NAN]}}, {}),
+    # CT 0.20 with CP 0.03 is a figure of merit of 2.4: better than momentum theory allows (Leishman 2006, ch. 2).
+    "prop_data_invalid": ({"prop": {"static": (np.array([0.0]), np.array([0.20]), np.array([0.03]))}}, {}),
     "prop_too_large": ({"prop": {"diameter_in": [14.0]}}, {}),
     "no_forward_table": ({"prop": {"forward": (np.array([NAN]), np.array([NAN]), np.array([NAN]))}},
                          {"kind": "cruise", "rotor_count": 1, "cruise_airspeed_m_s": 15.0, "lift_to_drag": 8.0}),
@@ -62,6 +64,10 @@ CASES = {
     "motor_cell_limit": ({"motor": {"max_cells": [3]}}, {}),
     "over_mass": ({}, {"max_all_up_mass_kg": 1.5}),
     "cruise_unreachable": ({}, {"payload_kg": 6.0}),
+    # 30 m/s needs J beyond the table's last measured 0.9: held coefficients give eta_p above the Froude limit.
+    "prop_data_out_of_range": ({}, {"kind": "cruise", "rotor_count": 1, "cruise_airspeed_m_s": 30.0,
+                                    "lift_to_drag": 8.0, "duty_min": 0.0, "duty_max": 1.0,
+                                    "min_thrust_to_weight": 0.0, "min_endurance_min": 0.0}),
     "duty_out_of_band": ({}, {"duty_max": 0.4}),
     # 55 mOhm per cell (a worn pack): the full-throttle bus sags below half of V_oc; hover is still reachable.
     "bus_collapse": ({"pack": {"cell_resistance_ohm": [0.055]}}, {"duty_max": 1.0, "min_thrust_to_weight": 0.0}),
@@ -106,3 +112,9 @@ def test_all_violation_counts_include_candidates_rejected_earlier() -> None:
     out = rank(base_parts(motor={"max_current_a": [12.0]}), replace(BASE_MISSION, min_endurance_min=120.0), top_n=1)
     assert {k: v for k, v in out.rejected.items() if v} == {"motor_over_current": 1}
     assert out.violations["motor_over_current"] == 1 and out.violations["endurance_short"] == 1
+
+
+def test_every_reason_has_a_hand_built_case() -> None:
+    from server.selection import REASONS
+
+    assert set(CASES) == set(REASONS)

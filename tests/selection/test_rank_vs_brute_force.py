@@ -15,7 +15,7 @@ REL = 1e-6  # the issue's tolerance for "same metrics"
 MISSIONS = {
     "hover": parts.hover_mission(),
     # A fixed wing with a low launch floor and a wide band, so that several candidates are feasible.
-    "cruise": parts.cruise_mission(duty_max=0.99, min_thrust_to_weight=0.3),
+    "cruise": parts.cruise_mission(duty_max=0.99, min_thrust_to_weight=0.25),
 }
 
 
