@@ -2,7 +2,19 @@
 
 from fastapi import APIRouter, Depends
 
-from server.api import bench_runs, calibrations, exchange, fleet, missions, parts, predict, rankings, shortlists, teams
+from server.api import (
+    bench_runs,
+    calibrations,
+    exchange,
+    explain,
+    fleet,
+    missions,
+    parts,
+    predict,
+    rankings,
+    shortlists,
+    teams,
+)
 from server.uploads import close_form  # noqa: E402
 
 api_router = APIRouter(prefix="/api/v1", dependencies=[Depends(close_form)])
@@ -14,5 +26,6 @@ api_router.include_router(bench_runs.router)
 api_router.include_router(calibrations.router)
 api_router.include_router(predict.router)
 api_router.include_router(rankings.router)
+api_router.include_router(explain.router)
 api_router.include_router(shortlists.router)
 api_router.include_router(fleet.router)

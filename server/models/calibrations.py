@@ -20,6 +20,8 @@ class Calibration(TeamOwned, Base):
     part_kind: Mapped[str] = mapped_column(String(16), index=True)
     part_id: Mapped[int] = mapped_column(Integer, index=True)
     parameters: Mapped[dict[str, Any]] = mapped_column(JSON)
+    covariance: Mapped[dict[str, Any] | None] = mapped_column(JSON, nullable=True)
+    """Covariance of the identified parameters: {"names": [...], "matrix": [[...]]} in the parameters' units."""
     residual_rms: Mapped[float | None] = mapped_column(Float, nullable=True)
     residual_unit: Mapped[str] = mapped_column(String(16), default="")
     sample_count: Mapped[int] = mapped_column(Integer, default=0)

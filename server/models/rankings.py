@@ -29,6 +29,7 @@ class Ranking(TeamOwned, Base):
     evaluated: Mapped[int] = mapped_column(Integer, default=0)
     feasible: Mapped[int] = mapped_column(Integer, default=0)
     rejected: Mapped[dict[str, int]] = mapped_column(JSON, default=dict)
+    rejected_examples: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict, server_default="{}")
     inputs: Mapped[dict[str, Any]] = mapped_column(JSON)
     engine_version: Mapped[str] = mapped_column(String(32))
     timings: Mapped[dict[str, float]] = mapped_column(JSON, default=dict)

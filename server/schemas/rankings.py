@@ -7,7 +7,7 @@ from datetime import datetime
 from pydantic import BaseModel, ConfigDict, Field
 
 from server.schemas._fields import ranged
-from server.schemas.evaluation import RankedCandidate, Result
+from server.schemas.evaluation import Margins, RankedCandidate, RankedCruise, RankedFullThrottle, Result
 from server.selection.result import Objective
 
 
@@ -38,6 +38,9 @@ class RankingStatus(Result):
     evaluated: int | None = Field(default=None, description="Combinations whose operating points were solved")
     feasible: int | None = Field(default=None, description="Combinations that pass every limit")
     rejected: dict[str, int] = Field(description="Rejected combinations per reason (first failing reason only)")
+    rejected_examples: dict[str, list[CandidateKey]] = Field(
+        default_factory=dict, description="Per reason, the first few rejected combinations in part-id order "
+                                          "(explain them with POST /api/v1/explain)")
     engine_version: str
     elapsed_s: float | None = None
     timings: dict[str, float] = Field(default_factory=dict)
@@ -60,3 +63,64 @@ class ParetoSet(Result):
 
     items: list[RankedCandidate]
     total: int
+
+
+class CandidateKey(Result):
+    """One power system by its parts."""
+
+    battery_id: int
+    esc_id: int
+    motor_id: int
+    propeller_id: int
+    packs_in_parallel: int = 1
+
+
+class ExplainRequest(BaseModel):
+    """A power system and the mission (or the ranking, whose stored library is then used) to explain it for."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    mission_id: ranged(int, 1, 2**63 - 1, "") | None = None  # type: ignore[valid-type]
+    ranking_id: ranged(int, 1, 2**63 - 1, "", description="Use this ranking's library as it ran") | None = None  # type: ignore[valid-type]  # noqa: E501
+    battery_id: ranged(int, 1, 2**63 - 1, "")  # type: ignore[valid-type]
+    esc_id: ranged(int, 1, 2**63 - 1, "")  # type: ignore[valid-type]
+    motor_id: ranged(int, 1, 2**63 - 1, "")  # type: ignore[valid-type]
+    propeller_id: ranged(int, 1, 2**63 - 1, "")  # type: ignore[valid-type]
+    packs_in_parallel: ranged(int, 1, 8, "packs") = 1  # type: ignore[valid-type]
+
+
+class CheckRead(Result):
+    """One rejection reason for the candidate, with the number it was decided on."""
+
+    reason: str = Field(description="The ranking's reason key (same keys and order as its rejected counts)")
+    passed: bool | None = Field(description="None: not evaluated (an earlier check lacks the data it needs)")
+    value: float | None = None
+    limit: float | list[float] | None = Field(default=None, description="A number, or [low, high] for a band")
+    unit: str = ""
+    margin: float | None = Field(default=None, description="How far inside the limit (negative: outside)")
+    text: str = ""
+    detail: str = ""
+
+
+class Explanation(Result):
+    """Why this verdict: every check in the ranking's order, the first that failed, and the numbers."""
+
+    mission_id: int | None
+    ranking_id: int | None = None
+    battery_id: int
+    esc_id: int
+    motor_id: int
+    propeller_id: int
+    packs_in_parallel: int
+    feasible: bool
+    first_failed: str | None
+    checks: list[CheckRead]
+    cruise: RankedCruise | None = None
+    full_throttle: RankedFullThrottle | None = None
+    endurance_min: float | None = None
+    all_up_mass_g: float | None = None
+    cost: float | None = None
+    margins: Margins | None = None
+    sources: dict[str, dict[str, str]] = Field(default_factory=dict,
+                                               description="Per part kind, parameters not from the part itself")
+    notes: list[str] = Field(default_factory=list)

@@ -6,14 +6,16 @@ import time
 from collections.abc import Callable
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from multiprocessing import get_all_start_methods, get_context
+from typing import Any
 
 import numpy as np
 
 from server.physics import ENGINE_VERSION
 from server.physics.propeller_segments import PropModel
 
-from .constraints import REASONS
-from .enumerate import DEFAULT_CHUNK_SIZE, Chunk, Plan, chunks, plan
+from .constraints import CODE, REASONS
+from .enumerate import DEFAULT_CHUNK_SIZE, Chunk, PartVerdicts, Plan, chunks, plan
+from .examples import ExampleKeys, pruned_examples
 from .library import MissionSpec, PartsLibrary
 from .refine import refine
 from .result import OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
@@ -177,6 +179,12 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     top, dropped, notes = _refine_top(library, mission, model, partial, top_n, report)
     feasible -= len(dropped)
     rejected["endurance_short"] += len(dropped)
+    keys = ExampleKeys.of(library, mission)
+    examples = pruned_examples(library, mission, PartVerdicts.of(library, mission, model), keys, the_plan.pruned)
+    examples.merge(partial.examples)
+    if dropped:  # refined endurance short: counted under endurance_short, so among its examples too
+        pack, k, esc, motor, prop = (np.array(column) for column in zip(*dropped, strict=True))
+        examples.add(np.full(len(dropped), CODE["endurance_short"]), keys.keys(pack, k, esc, motor, prop))
     front = partial.front.members
     if dropped:
         gone = {tuple(int(v) for v in key) for key in dropped}
@@ -191,7 +199,16 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     return RankingOutcome(objective=objective, combinations=the_plan.combinations, evaluated=partial.evaluated,
                           feasible=feasible, rejected=rejected, violations=violations, top=top, pareto=pareto_rows,
                           timings=timings | {"refine_s": t3 - t2, "total_s": t3 - t0}, engine_version=ENGINE_VERSION,
-                          notes=notes)
+                          notes=notes, rejected_examples=_example_ids(library, examples.by_reason(keys)))
+
+
+def _example_ids(library: PartsLibrary,
+                 examples: dict[str, list[tuple[int, int, int, int, int]]]) -> dict[str, list[dict[str, Any]]]:
+    """Examples as part ids: {battery_id, packs_in_parallel, esc_id, motor_id, propeller_id}."""
+    pk, es, mo, pr = library.packs, library.escs, library.motors, library.propellers
+    return {reason: [{"battery_id": pk.ids[p].item(), "packs_in_parallel": k, "esc_id": es.ids[e].item(),
+                      "motor_id": mo.ids[m].item(), "propeller_id": pr.ids[q].item()} for p, k, e, m, q in found]
+            for reason, found in examples.items()}
 
 
 def _refine_top(library: PartsLibrary, mission: MissionSpec, model: PropModel, partial: Partial, top_n: int,

@@ -132,6 +132,8 @@ class RankingOutcome:
     engine_version: str = ENGINE_VERSION
     cancelled: bool = False
     notes: list[str] = field(default_factory=list)
+    rejected_examples: dict[str, list[dict[str, Any]]] = field(default_factory=dict)
+    """Per reason, up to a few rejected combinations (part ids), the first in part-id order."""
 
     def as_dict(self) -> dict[str, Any]:
         out = asdict(self)

@@ -15,6 +15,7 @@ from server.physics.propeller_segments import PropModel
 
 from .constraints import REASONS, screen
 from .enumerate import Chunk, Plan, batch_for, chunk_indices, cost_of
+from .examples import ExampleKeys, Examples, chunk_keys
 from .library import MissionSpec, PartsLibrary
 from .pareto import ParetoFront
 from .result import CandidateSet, primary_key, ranking_order
@@ -32,6 +33,8 @@ class Partial:
     pool: CandidateSet = field(default_factory=CandidateSet.empty)
     front: ParetoFront = field(default_factory=ParetoFront)
     evaluated: int = 0
+    examples: Examples = field(default_factory=Examples)
+    keys: ExampleKeys | None = None
 
     def add_candidates(self, cs: CandidateSet) -> None:
         """Keep the best ``pool_size`` of the pool and ``cs`` under the ranking's total order."""
@@ -52,6 +55,7 @@ class Partial:
         self.evaluated += other.evaluated
         self.add_candidates(other.pool)
         self.front.merge(other.front)
+        self.examples.merge(other.examples)
 
 
 def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, model: PropModel, the_plan: Plan,
@@ -64,6 +68,9 @@ def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, 
     partial.counts += np.bincount(codes, minlength=len(REASONS) + 1)
     partial.violations += result.violations
     partial.evaluated += codes.size
+    if partial.keys is None:
+        partial.keys = ExampleKeys.of(library, mission)
+    partial.examples.add(result.code, chunk_keys(partial.keys, block, chunk))
     feasible = np.flatnonzero(codes == 0)
     if feasible.size:
         ic, ie, im, iq = np.unravel_index(feasible, result.code.shape)

@@ -93,14 +93,21 @@ def mission_dicts(mission: Mission) -> tuple[dict[str, Any], dict[str, Any]]:
             {"id": mission.airframe.id, **{f: getattr(mission.airframe, f) for f in AIRFRAME_FIELDS}})
 
 
-def snapshot(session: Session, *, team_id: int, mission: Mission) -> dict[str, Any]:
+def snapshot(session: Session, *, team_id: int, mission: Mission,
+             only: dict[str, list[int]] | None = None) -> dict[str, Any]:
     """The mission, its airframe and every active part, each resolved by :func:`power_system.resolve_part`
-    (calibrated values replace entered ones, defaults fill the rest), with the source of every value."""
+    (calibrated values replace entered ones, defaults fill the rest), with the source of every value.
+
+    ``only`` (part kind -> ids) snapshots just those parts, archived or not (one power system to explain).
+    """
     parts: dict[str, list[dict[str, Any]]] = {}
     for kind, model in PART_MODELS.items():
-        rows = session.scalars(
-            select(model).where(model.team_id == team_id, model.archived.is_(False)).order_by(model.id)
-        )
+        stmt = select(model).where(model.team_id == team_id)
+        if only is None:
+            stmt = stmt.where(model.archived.is_(False))
+        else:
+            stmt = stmt.where(model.id.in_(only.get(kind, [])))
+        rows = session.scalars(stmt.order_by(model.id))
         parts[kind] = []
         for part in rows:
             resolved = ps.resolve_part(session, team_id, kind, part, extra_fields=PART_FIELDS[kind])

@@ -140,6 +140,7 @@ def run(factory: sessionmaker[Session], ranking_id: int) -> None:
         assert row is not None
         row.combinations, row.evaluated, row.feasible = outcome.combinations, outcome.evaluated, outcome.feasible
         row.rejected = dict(outcome.rejected)
+        row.rejected_examples = dict(outcome.rejected_examples)
         row.timings = {**{k: float(v) for k, v in outcome.timings.items()}, "job_s": time.monotonic() - started}
         row.finished_at = datetime.now(UTC)
         if outcome.cancelled:
@@ -215,6 +216,7 @@ def status(row: Ranking) -> dict[str, Any]:
         "evaluated": row.evaluated,
         "feasible": row.feasible,
         "rejected": {k: v for k, v in (row.rejected or {}).items() if v},
+        "rejected_examples": row.rejected_examples or {},
         "engine_version": row.engine_version,
         "elapsed_s": _elapsed(row),
         "timings": row.timings or {},
