@@ -6,6 +6,7 @@ from __future__ import annotations
 import asyncio
 import os
 import re
+import signal
 import socket
 import statistics
 import subprocess
@@ -31,10 +32,15 @@ def free_port() -> int:
         return int(s.getsockname()[1])
 
 
+def _stop_cleanly(*_: object) -> None:
+    raise SystemExit(1)  # runs the finally blocks below, so our server is stopped too
+
+
 @contextmanager
 def served(database_url: str | None = None, *, demo: bool = True, workers: int = 1,
            env: dict[str, str] | None = None) -> Iterator[tuple[str, int, str]]:
     """(base URL, server pid, database URL) of a server that runs until the block ends (stopped by its pid)."""
+    signal.signal(signal.SIGTERM, _stop_cleanly)
     folder = Path(tempfile.mkdtemp(prefix="liftmatch-bench-"))
     url = database_url or f"sqlite:///{folder / 'bench.db'}"
     environment = {**os.environ, "LIFTMATCH_DATABASE_URL": url, "LIFTMATCH_SECRET_KEY": SECRET, **(env or {})}
@@ -50,7 +56,7 @@ def served(database_url: str | None = None, *, demo: bool = True, workers: int =
                              "--no-access-log"], env=environment, stdout=log, stderr=subprocess.STDOUT, cwd=ROOT)
     base = f"http://127.0.0.1:{port}"
     try:
-        deadline = time.monotonic() + 30
+        deadline = time.monotonic() + 120  # a loaded 2-core machine can take a while to import numpy and scipy
         while True:
             if proc.poll() is not None:
                 raise RuntimeError((folder / "server.log").read_text())

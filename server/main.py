@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from collections.abc import AsyncIterator
-from concurrent.futures import ThreadPoolExecutor
 from contextlib import asynccontextmanager
 
 from anyio import to_thread
@@ -17,11 +16,11 @@ from server import __version__, http_errors
 from server.api import api_router
 from server.config import REPO_ROOT, Settings, get_settings
 from server.db import make_engine, make_sessionmaker
+from server.jobs.runners import runner_for
 from server.limits import MAX_BODY_BYTES
 from server.middleware import SecurityHeaders
 from server.pages import page_router
 from server.pages._render import make_templates
-from server.services import jobs
 from server.usage import KeyUsage
 
 WEB = REPO_ROOT / "web"
@@ -45,16 +44,16 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         # Every request handler that touches the database runs in this many threads; the pool holds a connection
         # for each of them and for each job worker, so no request waits for a connection (or times out).
         to_thread.current_default_thread_limiter().total_tokens = settings.request_threads
-        engine = make_engine(settings.database_url, pool_size=settings.request_threads + settings.ranking_workers + 2)
+        engine = make_engine(settings.database_url, pool_size=settings.request_threads + settings.job_concurrency + 2)
         app.state.engine = engine
         app.state.sessionmaker = make_sessionmaker(engine)
         app.state.key_usage = KeyUsage(app.state.sessionmaker)
         app.state.key_usage.start()
-        # Jobs run outside the request in worker threads (numpy releases the GIL while it computes).
-        app.state.jobs = ThreadPoolExecutor(max_workers=settings.ranking_workers, thread_name_prefix="job")
-        jobs.recover_all(app.state)
+        # Jobs run outside the request (numpy releases the GIL while it computes).
+        app.state.runner = runner_for(settings, app.state.sessionmaker)
+        app.state.runner.start()
         yield
-        app.state.jobs.shutdown(wait=True, cancel_futures=True)
+        app.state.runner.stop()
         app.state.key_usage.stop()
         engine.dispose()
 

@@ -8,13 +8,14 @@ from fastapi import APIRouter, File, Form, Query, Request, UploadFile
 from fastapi.responses import Response
 from pydantic import ValidationError
 
+from server import jobs
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.errors import FieldError, InvalidInput
 from server.limits import UPLOAD_BODY_BYTES
 from server.schemas.bench_runs import BenchRunDetail, BenchRunMeta, BenchRunSummary, BenchRunUploaded
 from server.schemas.calibrations import RefitStatus
 from server.services import bench_runs as bench_service
-from server.services import jobs, refits
+from server.services import refits
 from server.services._validation import field_errors, parse_json
 from server.uploads import read_upload
 
@@ -47,7 +48,7 @@ def upload(
     refit, new = refits.request(session, team_id=caller.team_id, esc_id=run.esc_id, run_id=run.id)
     session.commit()
     if new:
-        jobs.submit(request.app.state, "refit", refit.id)
+        jobs.submit(request.app.state, "refit", refit.id, caller.team_id)
     return {**bench_service.run_summary(run), "flags": flags, "calibration": refits.status(session, refit)}
 
 

@@ -6,10 +6,10 @@ from typing import Any
 
 from fastapi import APIRouter, Request, Response
 
+from server import jobs
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.fleet import FleetPlanCreate, FleetPlanStarted, FleetPlanStatus
 from server.services import fleet as fleet_service
-from server.services import jobs
 
 router = APIRouter(prefix="/fleet-plans", tags=["fleet plans"])
 
@@ -21,7 +21,7 @@ def start_plan(
     """Start a fleet plan over several missions; poll the returned id."""
     row = fleet_service.start(session, team_id=caller.team_id, user_id=caller.user_id, data=data)
     session.commit()
-    jobs.submit(request.app.state, "fleet_plan", row.id)
+    jobs.submit(request.app.state, "fleet_plan", row.id, caller.team_id)
     response.headers["Location"] = f"/api/v1/fleet-plans/{row.id}"
     return {"id": row.id, "status": row.status}
 
@@ -30,6 +30,14 @@ def start_plan(
 def list_plans(caller: CallerDep, session: SessionDep) -> list[dict[str, Any]]:
     """The team's fleet plans (newest first)."""
     return [fleet_service.status(p) for p in fleet_service.list_all(session, team_id=caller.team_id)]
+
+
+@router.post("/{plan_id}/cancel", response_model=FleetPlanStatus)
+def cancel_plan(caller: WriterDep, session: SessionDep, plan_id: IdPath) -> dict[str, Any]:
+    """Ask a queued or running fleet plan to stop."""
+    row = fleet_service.cancel(session, team_id=caller.team_id, plan_id=plan_id)
+    session.commit()
+    return fleet_service.status(row)
 
 
 @router.get("/{plan_id}", response_model=FleetPlanStatus)

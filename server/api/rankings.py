@@ -6,9 +6,9 @@ from typing import Annotated, Any
 
 from fastapi import APIRouter, Query, Request, Response
 
+from server import jobs
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.rankings import ParetoSet, RankingCreate, RankingResultsPage, RankingStarted, RankingStatus
-from server.services import jobs
 from server.services import rankings as rankings_service
 
 router = APIRouter(prefix="/rankings", tags=["rankings"])
@@ -29,7 +29,7 @@ def start_ranking(
         top_n=data.top_n,
     )
     session.commit()
-    jobs.submit(request.app.state, "ranking", row.id)
+    jobs.submit(request.app.state, "ranking", row.id, caller.team_id)
     response.headers["Location"] = f"/api/v1/rankings/{row.id}"
     return {"id": row.id, "status": row.status}
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, String, Text
+from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, Integer, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
 from server.db import Base
@@ -25,6 +25,7 @@ class FleetPlan(TeamOwned, Base):
     timings: Mapped[dict[str, float]] = mapped_column(JSON, default=dict)
     error: Mapped[str] = mapped_column(Text, default="")
     cancel_requested: Mapped[bool] = mapped_column(Boolean, default=False)
+    attempts: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
     created_by_id: Mapped[int | None] = mapped_column(
         ForeignKey("user_account.id", ondelete="SET NULL"), nullable=True
     )

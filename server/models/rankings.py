@@ -35,6 +35,7 @@ class Ranking(TeamOwned, Base):
     timings: Mapped[dict[str, float]] = mapped_column(JSON, default=dict)
     error: Mapped[str] = mapped_column(Text, default="")
     cancel_requested: Mapped[bool] = mapped_column(Boolean, default=False)
+    attempts: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
     created_by_id: Mapped[int | None] = mapped_column(
         ForeignKey("user_account.id", ondelete="SET NULL"), nullable=True
     )

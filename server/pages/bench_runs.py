@@ -8,6 +8,7 @@ from fastapi import APIRouter, Depends, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from pydantic import ValidationError
 
+from server import jobs
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.limits import UPLOAD_BODY_BYTES
@@ -15,8 +16,8 @@ from server.pages._render import PostedForm, error_lines, form_values, render
 from server.schemas.bench_runs import BenchRunMeta
 from server.services import bench_runs as bench_service
 from server.services import calibrations as calibration_service
-from server.services import jobs, refits
 from server.services import parts as parts_service
+from server.services import refits
 
 router = APIRouter(prefix="/bench-runs")
 META_FIELDS = list(BenchRunMeta.model_fields)
@@ -84,7 +85,7 @@ def upload(request: Request, caller: PageWriter, session: SessionDep, form: Uplo
         session.rollback()
         return _list(request, session, caller, 422, errors=error_lines(exc), values=values)
     if new:
-        jobs.submit(request.app.state, "refit", refit.id)
+        jobs.submit(request.app.state, "refit", refit.id, caller.team_id)
     return RedirectResponse(f"/bench-runs/{run.id}", status_code=303)
 
 

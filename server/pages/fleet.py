@@ -8,13 +8,13 @@ from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from pydantic import ValidationError
 
+from server import jobs
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.pages._render import PostedForm, error_lines, render
 from server.schemas.fleet import FleetPlanCreate
 from server.schemas.shortlists import EntryCreate
 from server.services import fleet as fleet_service
-from server.services import jobs
 from server.services import missions as missions_service
 from server.services import shortlists as shortlists_service
 
@@ -62,7 +62,7 @@ def start(request: Request, caller: PageWriter, session: SessionDep, values: Pos
         session.rollback()
         errors = error_lines(exc)
         return _index(request, session, caller, 422, errors=errors, values=values)
-    jobs.submit(request.app.state, "fleet_plan", row.id)
+    jobs.submit(request.app.state, "fleet_plan", row.id, caller.team_id)
     return RedirectResponse(f"/fleet-plans/{row.id}", status_code=303)
 
 

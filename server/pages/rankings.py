@@ -8,12 +8,12 @@ from fastapi import APIRouter, Query, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from pydantic import ValidationError
 
+from server import jobs
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.models import Ranking
 from server.pages._render import PostedForm, error_lines, render
 from server.schemas.rankings import RankingCreate
-from server.services import jobs
 from server.services import missions as missions_service
 from server.services import rankings as rankings_service
 from server.services import shortlists as shortlists_service
@@ -80,7 +80,7 @@ def start(request: Request, caller: PageWriter, session: SessionDep, values: Pos
         session.rollback()
         errors = error_lines(exc)
         return _index(request, session, caller, 422, errors=errors, values=values)
-    jobs.submit(request.app.state, "ranking", row.id)
+    jobs.submit(request.app.state, "ranking", row.id, caller.team_id)
     return RedirectResponse(f"/rankings/{row.id}", status_code=303)
 
 

@@ -13,7 +13,8 @@ from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
 from server.csv_cells import csv_writer
-from server.errors import FieldError, InvalidInput, NotFound
+from server.errors import Conflict, FieldError, InvalidInput, NotFound
+from server.jobs import JobContext
 from server.models import PART_MODELS, FleetPlan
 from server.schemas.fleet import FleetPlanCreate
 from server.selection import ENGINE_VERSION, rank
@@ -54,94 +55,79 @@ def start(session: Session, *, team_id: int, user_id: int | None, data: FleetPla
     return row
 
 
-def _set(factory: sessionmaker[Session], plan_id: int, **values: Any) -> None:
-    with factory() as s:
-        s.execute(update(FleetPlan).where(FleetPlan.id == plan_id).values(**values))
-        s.commit()
+def _done(factory: sessionmaker[Session], plan_id: int, **values: Any) -> None:
+    with factory() as s, s.begin():
+        s.execute(update(FleetPlan).where(FleetPlan.id == plan_id, FleetPlan.status == "running").values(
+            status="done", progress=1.0, finished_at=datetime.now(UTC), **values))
 
 
 def run(factory: sessionmaker[Session], plan_id: int) -> None:
-    """Rank every mission from its snapshot, then optimise the plan and its trade-off curve."""
+    """Run a queued plan now, in this thread (the CLI); the web queues it with ``server.jobs.submit``."""
+    from server.jobs import execute
+
+    execute(factory, "fleet_plan", plan_id, time_limit_s=float("inf"))
+
+
+def run_job(factory: sessionmaker[Session], plan_id: int, context: JobContext) -> None:
+    """The job body: rank every mission from its snapshot, then optimise the plan and its trade-off curve.
+
+    Cancel and the time limit are honoured inside each mission's ranking and between the steps.
+    """
     with factory() as session:
         plan = session.get(FleetPlan, plan_id)
-        if plan is None or plan.status != "queued":
-            return
+        assert plan is not None
         inputs = plan.inputs
-    _set(factory, plan_id, status="running", started_at=datetime.now(UTC))
     started = time.monotonic()
-    try:
-        candidates, names, timings = [], {}, {}
-        count = len(inputs["missions"])
-        for i, snap in enumerate(inputs["missions"]):
-            library, mission = engine_inputs(snap)
-            outcome = rank(
-                library,
-                mission,
-                objective=OBJECTIVE_FOR_METRIC[inputs["metric"]],
-                top_n=inputs["candidates_per_mission"],
-            )
-            names[snap["mission"]["id"]] = snap["mission"]["name"]
-            if not outcome.top:
-                _set(
-                    factory,
-                    plan_id,
-                    status="done",
-                    progress=1.0,
-                    finished_at=datetime.now(UTC),
-                    result={
-                        "status": "infeasible",
-                        "objective": None,
-                        "assignments": [],
-                        "stocked": {},
-                        "infeasibility": {
-                            "message": f"mission {snap['mission']['name']!r} has no feasible power "
-                            "system in the library; see its ranking for the reasons",
-                            "conflicting_missions": [snap["mission"]["id"]],
-                            "binding": ["mission"],
-                        },
-                    },
-                    tradeoff=[],
-                )
-                return
-            candidates.append(
-                MissionCandidates.from_rows(
-                    snap["mission"]["id"],
-                    snap["weight"],
-                    [r.as_dict() for r in outcome.top],
-                    min_endurance_min=snap["mission"]["min_endurance_min"],
-                )
-            )
-            _set(factory, plan_id, progress=0.7 * (i + 1) / count)
-        timings["rank_s"] = time.monotonic() - started
-        options = FleetOptions(
-            metric=inputs["metric"],
-            one_battery=inputs["one_battery"],
-            max_part_numbers={k: v for k, v in inputs["max_part_numbers"].items() if v},
-            stocking_cost=inputs["stocking_cost"],
-            time_limit_s=SOLVE_TIME_LIMIT_S,
-        )
-        t = time.monotonic()
-        result = optimise(candidates, options).as_dict()
-        timings["optimise_s"] = time.monotonic() - t
-        _set(factory, plan_id, progress=0.8)
-        t = time.monotonic()
-        curve = [p.as_dict() for p in tradeoff(candidates, options)] if result["status"] != "infeasible" else []
-        timings["tradeoff_s"] = time.monotonic() - t
-        timings["job_s"] = time.monotonic() - started
-        result["mission_names"] = {str(k): v for k, v in names.items()}
-        _set(
-            factory,
-            plan_id,
-            status="done",
-            progress=1.0,
-            result=_json(result),
-            tradeoff=_json(curve),
-            timings=timings,
-            finished_at=datetime.now(UTC),
-        )
-    except Exception as exc:  # a failed job records why; it never takes the server down
-        log.exception("fleet plan %s failed", plan_id)
-        _set(factory, plan_id, status="failed", error=f"{type(exc).__name__}: {exc}", finished_at=datetime.now(UTC))
+    candidates, names, timings = [], {}, {}
+    count = len(inputs["missions"])
+    for i, snap in enumerate(inputs["missions"]):
+        library, mission = engine_inputs(snap)
+        outcome = rank(library, mission, objective=OBJECTIVE_FOR_METRIC[inputs["metric"]],
+                       top_n=inputs["candidates_per_mission"], should_cancel=context.should_stop)
+        if outcome.cancelled:
+            context.check()
+        names[snap["mission"]["id"]] = snap["mission"]["name"]
+        if not outcome.top:
+            _done(factory, plan_id, tradeoff=[], result={
+                "status": "infeasible", "objective": None, "assignments": [], "stocked": {},
+                "infeasibility": {
+                    "message": f"mission {snap['mission']['name']!r} has no feasible power system in the library; "
+                               "see its ranking for the reasons",
+                    "conflicting_missions": [snap["mission"]["id"]], "binding": ["mission"]}})
+            return
+        candidates.append(MissionCandidates.from_rows(snap["mission"]["id"], snap["weight"],
+                                                      [r.as_dict() for r in outcome.top],
+                                                      min_endurance_min=snap["mission"]["min_endurance_min"]))
+        context.progress(0.7 * (i + 1) / count)
+    timings["rank_s"] = time.monotonic() - started
+    options = FleetOptions(metric=inputs["metric"], one_battery=inputs["one_battery"],
+                           max_part_numbers={k: v for k, v in inputs["max_part_numbers"].items() if v},
+                           stocking_cost=inputs["stocking_cost"], time_limit_s=SOLVE_TIME_LIMIT_S)
+    context.check()
+    t = time.monotonic()
+    result = optimise(candidates, options).as_dict()
+    timings["optimise_s"] = time.monotonic() - t
+    context.progress(0.8)
+    context.check()
+    t = time.monotonic()
+    curve = [p.as_dict() for p in tradeoff(candidates, options)] if result["status"] != "infeasible" else []
+    timings["tradeoff_s"] = time.monotonic() - t
+    context.check()
+    timings["job_s"] = time.monotonic() - started
+    result["mission_names"] = {str(k): v for k, v in names.items()}
+    _done(factory, plan_id, result=_json(result), tradeoff=_json(curve), timings=timings)
+
+
+def cancel(session: Session, *, team_id: int, plan_id: int) -> FleetPlan:
+    """Ask a queued or running plan to stop (a queued one ends at once)."""
+    row = get(session, team_id=team_id, plan_id=plan_id)
+    if row.status in ("done", "failed", "cancelled"):
+        raise Conflict(f"This fleet plan is already {row.status}")
+    row.cancel_requested = True
+    if row.status == "queued":
+        row.status, row.finished_at = "cancelled", datetime.now(UTC)
+    session.flush()
+    return row
 
 
 def _json(value: Any) -> Any:

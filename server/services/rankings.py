@@ -8,16 +8,17 @@ from datetime import UTC, datetime
 from typing import Any
 
 from sqlalchemy import Select, func, select, update
+from sqlalchemy import delete as sql_delete
 from sqlalchemy.orm import Session, sessionmaker
 
 from server.errors import Conflict, FieldError, InvalidInput, NotFound
+from server.jobs import JobContext
 from server.models import Ranking, RankingResult
 from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, constraints, rank
 from server.services import missions as missions_service
 from server.services.ranking_inputs import engine_inputs, snapshot
 
 log = logging.getLogger("liftmatch.rankings")
-PROGRESS_INTERVAL_S = 0.25
 REASON_TEXT = constraints.REASON_TEXT
 """A plain-language line per rejection reason, in the engine's order."""
 SORT_COLUMNS = {
@@ -86,87 +87,46 @@ def _candidate_key(row: CandidateRow) -> tuple[Any, ...]:
 
 
 def run(factory: sessionmaker[Session], ranking_id: int) -> None:
-    """Run a queued ranking from its snapshot; progress, counts, results and timings go to the database."""
+    """Run a queued ranking now, in this thread (the CLI); the web queues it with ``server.jobs.submit``."""
+    from server.jobs import execute
+
+    execute(factory, "ranking", ranking_id, time_limit_s=float("inf"))
+
+
+def run_job(factory: sessionmaker[Session], ranking_id: int, context: JobContext) -> None:
+    """The job body: rank from the stored snapshot, then replace the stored results and mark it done at once."""
     with factory() as session:
         ranking = session.get(Ranking, ranking_id)
-        if ranking is None or ranking.status != "queued":
-            return
-        if ranking.cancel_requested:
-            ranking.status, ranking.finished_at = "cancelled", datetime.now(UTC)
-            session.commit()
-            return
-        ranking.status, ranking.started_at = "running", datetime.now(UTC)
-        session.commit()
+        assert ranking is not None
         inputs = ranking.inputs
-    last = [0.0, 0.0]  # time of the last progress write, of the last cancel check
-
-    def progress(fraction: float) -> None:
-        now = time.monotonic()
-        if now - last[0] >= PROGRESS_INTERVAL_S or fraction >= 1.0:
-            last[0] = now
-            with factory() as s:
-                s.execute(update(Ranking).where(Ranking.id == ranking_id).values(progress=min(fraction, 0.999)))
-                s.commit()
-
-    def should_cancel() -> bool:
-        now = time.monotonic()
-        if now - last[1] < PROGRESS_INTERVAL_S:
-            return False
-        last[1] = now
-        with factory() as s:
-            return bool(s.scalar(select(Ranking.cancel_requested).where(Ranking.id == ranking_id)))
-
     started = time.monotonic()
-    try:
-        library, mission = engine_inputs(inputs)
-        outcome = rank(
-            library,
-            mission,
-            objective=inputs["objective"],
-            top_n=inputs["top_n"],
-            progress=progress,
-            should_cancel=should_cancel,
-        )
-    except Exception as exc:  # a failed job records why; it never takes the server down
-        log.exception("ranking %s failed", ranking_id)
-        with factory() as s, s.begin():
-            row = s.get(Ranking, ranking_id)
-            assert row is not None
-            row.status, row.error, row.finished_at = "failed", f"{type(exc).__name__}: {exc}", datetime.now(UTC)
-        return
+    library, mission = engine_inputs(inputs)
+    outcome = rank(library, mission, objective=inputs["objective"], top_n=inputs["top_n"],
+                   progress=context.progress, should_cancel=context.should_stop)
+    if outcome.cancelled:
+        context.check()
     escs = {int(i): float(c) for i, c in zip(library.escs.ids, library.escs.continuous_current_a, strict=True)}
+    stored: dict[tuple[Any, ...], RankingResult] = {}
+    for candidate in outcome.top:
+        stored[_candidate_key(candidate)] = RankingResult(
+            ranking_id=ranking_id, rank=candidate.rank, pareto=False, metrics=candidate.as_dict(),
+            **_metric_columns(candidate, escs))
+    for candidate in outcome.pareto:
+        key = _candidate_key(candidate)
+        if key in stored:
+            stored[key].pareto = True
+        else:
+            stored[key] = RankingResult(ranking_id=ranking_id, rank=None, pareto=True,
+                                        metrics=candidate.as_dict() | {"rank": None},
+                                        **_metric_columns(candidate, escs))
     with factory() as s, s.begin():
-        row = s.get(Ranking, ranking_id)
-        assert row is not None
-        row.combinations, row.evaluated, row.feasible = outcome.combinations, outcome.evaluated, outcome.feasible
-        row.rejected = dict(outcome.rejected)
-        row.rejected_examples = dict(outcome.rejected_examples)
-        row.timings = {**{k: float(v) for k, v in outcome.timings.items()}, "job_s": time.monotonic() - started}
-        row.finished_at = datetime.now(UTC)
-        if outcome.cancelled:
-            row.status = "cancelled"
-            return
-        stored: dict[tuple[Any, ...], RankingResult] = {}
-        for candidate in outcome.top:
-            key = _candidate_key(candidate)
-            stored[key] = RankingResult(
-                ranking_id=ranking_id,
-                rank=candidate.rank,
-                pareto=False,
-                metrics=candidate.as_dict(),
-                **_metric_columns(candidate, escs),
-            )
-        for candidate in outcome.pareto:
-            key = _candidate_key(candidate)
-            if key in stored:
-                stored[key].pareto = True
-            else:
-                metrics = candidate.as_dict() | {"rank": None}
-                stored[key] = RankingResult(
-                    ranking_id=ranking_id, rank=None, pareto=True, metrics=metrics, **_metric_columns(candidate, escs)
-                )
+        s.execute(sql_delete(RankingResult).where(RankingResult.ranking_id == ranking_id))  # a rerun replaces them
         s.add_all(stored.values())
-        row.status, row.progress = "done", 1.0
+        s.execute(update(Ranking).where(Ranking.id == ranking_id, Ranking.status == "running").values(
+            combinations=outcome.combinations, evaluated=outcome.evaluated, feasible=outcome.feasible,
+            rejected=dict(outcome.rejected), rejected_examples=dict(outcome.rejected_examples), status="done",
+            progress=1.0, finished_at=datetime.now(UTC),
+            timings={**{k: float(v) for k, v in outcome.timings.items()}, "job_s": time.monotonic() - started}))
 
 
 def get(session: Session, *, team_id: int, ranking_id: int) -> Ranking:

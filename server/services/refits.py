@@ -7,7 +7,6 @@ refit. The fit itself is :func:`server.services.calibrations.calibrate_esc`.
 
 from __future__ import annotations
 
-import logging
 from datetime import UTC, datetime
 from typing import Any
 
@@ -15,10 +14,9 @@ from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
 from server.errors import NotFound
+from server.jobs import JobContext
 from server.models import Refit
 from server.services import calibrations
-
-log = logging.getLogger("liftmatch.refits")
 
 
 def request(session: Session, *, team_id: int, esc_id: int, run_id: int | None) -> tuple[Refit, bool]:
@@ -43,25 +41,15 @@ def request(session: Session, *, team_id: int, esc_id: int, run_id: int | None) 
     return row, True
 
 
-def run(factory: sessionmaker[Session], refit_id: int) -> None:
-    """Claim the queued refit (atomically: one runner wins), fit, store the calibrations and the outcome."""
+def run_job(factory: sessionmaker[Session], refit_id: int, context: JobContext) -> None:
+    """The job body: fit the ESC's pool (every run stored so far) and store the calibrations, all in one commit."""
     with factory() as session, session.begin():
-        claimed = session.execute(update(Refit).where(Refit.id == refit_id, Refit.status == "queued").values(
-            status="running", started_at=datetime.now(UTC), attempts=Refit.attempts + 1))
-        if claimed.rowcount != 1:  # type: ignore[attr-defined]
-            return
-    try:
-        with factory() as session, session.begin():
-            row = session.get(Refit, refit_id)
-            assert row is not None
-            outcome = calibrations.calibrate_esc(session, team_id=row.team_id, esc_id=row.esc_id)
-            row.result = {"calibration_ids": [c["id"] for c in outcome["calibrations"]], "error": outcome["error"]}
-            row.status, row.progress, row.finished_at = "done", 1.0, datetime.now(UTC)
-    except Exception as exc:  # a failed job records why; it never takes the server down
-        log.exception("refit %s failed", refit_id)
-        with factory() as session, session.begin():
-            session.execute(update(Refit).where(Refit.id == refit_id).values(
-                status="failed", error=f"{type(exc).__name__}: {exc}", finished_at=datetime.now(UTC)))
+        row = session.get(Refit, refit_id)
+        assert row is not None
+        outcome = calibrations.calibrate_esc(session, team_id=row.team_id, esc_id=row.esc_id)
+        context.check()  # cancelled or out of time while fitting: store nothing
+        row.result = {"calibration_ids": [c["id"] for c in outcome["calibrations"]], "error": outcome["error"]}
+        row.status, row.progress, row.finished_at = "done", 1.0, datetime.now(UTC)
 
 
 def get(session: Session, *, team_id: int, refit_id: int) -> Refit:

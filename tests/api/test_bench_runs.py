@@ -218,7 +218,7 @@ def test_calibrate_on_demand_and_list(client: TestClient, stand: tuple[TeamFixtu
     team, ids = stand
     h = team.headers()
     assert client.post(f"/api/v1/parts/motors/{ids['motor']}/calibrate", headers=h).status_code == 422  # no runs
-    upload(client, team, ids, csv_of("m_a_p_1_v7p4"), supply_voltage_v=7.4)
+    calibration_of(client, team, upload(client, team, ids, csv_of("m_a_p_1_v7p4"), supply_voltage_v=7.4))
     again = client.post(f"/api/v1/parts/motors/{ids['motor']}/calibrate", headers=h)
     assert again.status_code == 200 and again.json()["calibration"]["part_id"] == ids["motor"]
     history = client.get(f"/api/v1/parts/motors/{ids['motor']}/calibrations", headers=h).json()
