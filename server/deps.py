@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import AsyncIterator
 from dataclasses import dataclass
 from typing import Annotated, Literal
 
 from fastapi import Depends, Path, Request
 from sqlalchemy.orm import Session
+from starlette.concurrency import run_in_threadpool
 
 from server.config import Settings
 from server.errors import Forbidden, Unauthorized
@@ -18,9 +19,17 @@ UNSAFE_METHODS = {"POST", "PUT", "PATCH", "DELETE"}
 MAX_ID = 2**63 - 1
 
 
-def get_db(request: Request) -> Iterator[Session]:
-    with request.app.state.sessionmaker() as session:
+async def get_db(request: Request) -> AsyncIterator[Session]:
+    """A session for the request. Creating one touches no database (no thread needed); closing one that ran
+    queries ends its transaction, which is database work, so that part runs in the thread pool."""
+    session: Session = request.app.state.sessionmaker()
+    try:
         yield session
+    finally:
+        if session.in_transaction():
+            await run_in_threadpool(session.close)
+        else:
+            session.close()
 
 
 def get_settings_dep(request: Request) -> Settings:

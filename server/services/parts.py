@@ -122,13 +122,16 @@ def list_parts(
         stmt = stmt.where(or_(model.name.ilike(like), model.maker.ilike(like), model.part_number.ilike(like)))
     for clause in where:
         stmt = stmt.where(_where(model, clause))
-    total = session.scalar(select(func.count()).select_from(stmt.subquery())) or 0
     descending = sort.startswith("-")
     column = _column(model, sort.lstrip("-"), "sort")
     order = column.desc() if descending else column.asc()
     page_size = max(1, min(page_size, MAX_PAGE_SIZE))
-    stmt = stmt.order_by(order, model.id).offset((max(page, 1) - 1) * page_size).limit(page_size)
-    return list(session.scalars(stmt)), int(total)
+    rows = list(session.scalars(stmt.order_by(order, model.id).offset((max(page, 1) - 1) * page_size)
+                                .limit(page_size)))
+    if max(page, 1) == 1 and len(rows) < page_size:  # the whole result fits on the first page: no count query
+        return rows, len(rows)
+    total = session.scalar(select(func.count()).select_from(stmt.subquery())) or 0
+    return rows, int(total)
 
 
 @overload
