@@ -12,7 +12,6 @@ from collections.abc import Sequence
 import sqlalchemy as sa
 from alembic import op
 
-
 revision: str = 'e9b660273aef'
 down_revision: str | None = '01046d622ec7'
 branch_labels: str | Sequence[str] | None = None

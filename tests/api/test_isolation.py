@@ -15,7 +15,8 @@ from tests.api.test_bench_runs import calibration_of, csv_of
 from tests.factories import TeamFixture, login, make_team, part_payload
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
-COMPUTE_ONLY = {("POST", "/api/v1/predict"), ("POST", "/api/v1/explain")}  # POST for a body, but reads and changes nothing: read keys may
+# POST for a body, but they read and change nothing: read keys may call them.
+COMPUTE_ONLY = {("POST", "/api/v1/predict"), ("POST", "/api/v1/explain")}
 SECRET_NAME = "ALPHA-PRIVATE-7f3a"
 
 
