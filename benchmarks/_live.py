@@ -56,18 +56,7 @@ def served(database_url: str | None = None, *, demo: bool = True, workers: int =
                              "--no-access-log"], env=environment, stdout=log, stderr=subprocess.STDOUT, cwd=ROOT)
     base = f"http://127.0.0.1:{port}"
     try:
-        deadline = time.monotonic() + 120  # a loaded 2-core machine can take a while to import numpy and scipy
-        while True:
-            if proc.poll() is not None:
-                raise RuntimeError((folder / "server.log").read_text())
-            try:
-                if httpx.get(f"{base}/healthz", timeout=1).status_code == 200:
-                    break
-            except httpx.HTTPError:
-                pass
-            if time.monotonic() > deadline:
-                raise RuntimeError("server did not start")
-            time.sleep(0.1)
+        wait_until_serving(proc, base, folder / "server.log")
         yield base, proc.pid, url
     finally:
         proc.terminate()
@@ -76,6 +65,23 @@ def served(database_url: str | None = None, *, demo: bool = True, workers: int =
         except subprocess.TimeoutExpired:
             proc.kill()
         log.close()
+
+
+def wait_until_serving(proc: subprocess.Popen[bytes], base: str, log_path: Path, timeout_s: float = 120) -> None:
+    """Poll ``base``/healthz until the server answers; raise with its log if it exits or takes too long."""
+    deadline = time.monotonic() + timeout_s  # a loaded 2-core machine can take a while to import numpy and scipy
+    while True:
+        if proc.poll() is not None:
+            raise RuntimeError(f"server exited: {log_path.read_text()}")
+        try:
+            if httpx.get(f"{base}/healthz", timeout=1).status_code == 200:
+                return
+        except httpx.HTTPError:
+            pass
+        if time.monotonic() > deadline:
+            proc.kill()
+            raise RuntimeError(f"server did not start within {timeout_s:g} s")
+        time.sleep(0.1)
 
 
 def api_key(database_url: str, team: str = "Northfold Survey", scope: str = "read") -> str:

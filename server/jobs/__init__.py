@@ -171,6 +171,17 @@ def execute(factory: sessionmaker[Session], kind: str, job_id: int, *, time_limi
     return "done"
 
 
+def request_cancel(row: Any, label: str) -> None:
+    """Ask a job to stop: a queued one ends at once, a running one at its next check; a finished one is a 409."""
+    from server.errors import Conflict
+
+    if row.status in ("done", "failed", "cancelled"):
+        raise Conflict(f"This {label} is already {row.status}")
+    row.cancel_requested = True
+    if row.status == "queued":
+        row.status, row.finished_at = "cancelled", datetime.now(UTC)
+
+
 class Runner(Protocol):
     def submit(self, kind: str, job_id: int, team_id: int) -> None: ...
     def start(self) -> None: ...

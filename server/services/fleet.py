@@ -13,8 +13,8 @@ from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
 from server.csv_cells import csv_writer
-from server.errors import Conflict, FieldError, InvalidInput, NotFound
-from server.jobs import JobContext
+from server.errors import FieldError, InvalidInput, NotFound
+from server.jobs import JobContext, request_cancel
 from server.models import PART_MODELS, FleetPlan
 from server.schemas.fleet import FleetPlanCreate
 from server.selection import ENGINE_VERSION, rank
@@ -121,11 +121,7 @@ def run_job(factory: sessionmaker[Session], plan_id: int, context: JobContext) -
 def cancel(session: Session, *, team_id: int, plan_id: int) -> FleetPlan:
     """Ask a queued or running plan to stop (a queued one ends at once)."""
     row = get(session, team_id=team_id, plan_id=plan_id)
-    if row.status in ("done", "failed", "cancelled"):
-        raise Conflict(f"This fleet plan is already {row.status}")
-    row.cancel_requested = True
-    if row.status == "queued":
-        row.status, row.finished_at = "cancelled", datetime.now(UTC)
+    request_cancel(row, "fleet plan")
     session.flush()
     return row
 

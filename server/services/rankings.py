@@ -12,7 +12,7 @@ from sqlalchemy import delete as sql_delete
 from sqlalchemy.orm import Session, sessionmaker
 
 from server.errors import Conflict, FieldError, InvalidInput, NotFound
-from server.jobs import JobContext
+from server.jobs import JobContext, request_cancel
 from server.models import Ranking, RankingResult
 from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, constraints, rank
 from server.services import missions as missions_service
@@ -145,11 +145,7 @@ def list_all(session: Session, *, team_id: int, mission_id: int | None = None, l
 
 def cancel(session: Session, *, team_id: int, ranking_id: int) -> Ranking:
     row = get(session, team_id=team_id, ranking_id=ranking_id)
-    if row.status in ("done", "failed", "cancelled"):
-        raise Conflict(f"This ranking is already {row.status}")
-    row.cancel_requested = True
-    if row.status == "queued":
-        row.status, row.finished_at = "cancelled", datetime.now(UTC)
+    request_cancel(row, "ranking")
     session.flush()
     return row
 

@@ -7,14 +7,13 @@ import shutil
 import socket
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
-import httpx2 as httpx
 import pytest
 
+from benchmarks._live import wait_until_serving
 from server.config import REPO_ROOT
 
 CHROMIUM = os.environ.get("CHROMIUM", "/usr/bin/chromium")
@@ -46,19 +45,7 @@ def live_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
                              "--host", "127.0.0.1", "--port", str(port), "--log-level", "warning"],
                             env=env, stdout=log, stderr=subprocess.STDOUT, cwd=REPO_ROOT)
     base = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 30
-    while True:
-        if proc.poll() is not None:
-            raise RuntimeError(f"server exited: {(folder / 'server.log').read_text()}")
-        try:
-            if httpx.get(f"{base}/healthz", timeout=1).status_code == 200:
-                break
-        except httpx.HTTPError:
-            pass
-        if time.monotonic() > deadline:
-            proc.kill()
-            raise RuntimeError("server did not start within 30 s")
-        time.sleep(0.1)
+    wait_until_serving(proc, base, folder / "server.log", timeout_s=90)
     yield base
     proc.terminate()
     proc.wait(timeout=10)

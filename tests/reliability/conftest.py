@@ -10,16 +10,15 @@ import os
 import socket
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
-import httpx2 as httpx
 import pytest
 from sqlalchemy import create_engine, text
 
+from benchmarks._live import wait_until_serving
 from server import migrate
 from server.config import REPO_ROOT
 from server.db import make_sessionmaker, transaction
@@ -83,18 +82,7 @@ def live_server(db_url: str, folder: Path, stop_timeout_s: float = 5, **env: str
                                 cwd=REPO_ROOT)
         base = f"http://127.0.0.1:{port}"
         try:
-            deadline = time.monotonic() + 90  # numpy and scipy imports are slow on a loaded 2-core machine
-            while True:
-                if proc.poll() is not None:
-                    raise RuntimeError(f"server exited: {log_path.read_text()}")
-                try:
-                    if httpx.get(f"{base}/healthz", timeout=1).status_code == 200:
-                        break
-                except httpx.HTTPError:
-                    pass
-                if time.monotonic() > deadline:
-                    raise RuntimeError("server did not start within 90 s")
-                time.sleep(0.1)
+            wait_until_serving(proc, base, log_path, timeout_s=90)
             yield LiveServer(base, proc.pid, db_url, log_path)
         finally:
             proc.terminate()
