@@ -129,6 +129,18 @@ def test_import_bench_and_calibrate(cli_env: str, capsys: pytest.CaptureFixture[
     bad.write_text("throttle,bus_voltage_v\n0.5,11\n")
     assert main(["import-bench", str(bad), "--motor", "1", "--propeller", "1", "--esc", "1", "--supply-v", "7"]) == 1
     assert "thrust_n" in capsys.readouterr().err
+    # a published sweep recorded with the load cell reversed (bench-5in m_m_p_8_v11p1, PROVENANCE.md)
+    reversed_sweep = tmp_path / "reversed.csv"
+    reversed_sweep.write_text(csv_of("m_m_p_8_v11p1"))
+    args = ["import-bench", str(reversed_sweep), "--motor", "1", "--propeller", "1", "--esc", "1", "--supply-v", "11.1"]
+    assert main(args) == 1
+    assert "load cell looks reversed" in capsys.readouterr().err
+    assert main([*args, "--thrust-sign", "-1"]) == 0
+    flipped = json.loads(capsys.readouterr().out)
+    assert flipped["run"]["thrust_sign"] == -1 and flipped["calibration"]["calibrations"]
+    with pytest.raises(SystemExit) as usage:
+        main([*args, "--thrust-sign", "2"])
+    assert usage.value.code == 2
     assert main(["calibrate", "12"]) == 1
 
 

@@ -37,7 +37,8 @@ def upload(
     caller: WriterDep, session: SessionDep, request: Request,
     file: Annotated[UploadFile, File(description="Bench-run CSV (unit-suffixed headers)")],
     metadata: Annotated[str, Form(max_length=20_000, description="JSON: motor_id, propeller_id, esc_id, "
-                                                                 "pack_id | supply_voltage_v, altitude_m, ...")],
+                                                                 "pack_id | supply_voltage_v, altitude_m, ..., "
+                                                                 "thrust_sign (-1 flips a reversed load cell)")],
 ) -> dict[str, Any]:
     """Upload a measured sweep: validated (all or nothing), flagged and stored; the ESC's pool is then re-fitted by
     a job — ``calibration`` says its status, and ``calibration.url`` gives the calibrations when it is done."""

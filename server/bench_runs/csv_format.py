@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from server.bench_runs.flags import idle_thrust_tolerance_n, looks_reversed
 from server.errors import FieldError, InvalidInput
 from server.physics._types import STANDARD_GRAVITY_M_S2, FloatArray
 
@@ -47,8 +48,10 @@ COLUMN_UNITS: dict[str, tuple[str, float]] = {
     "temperature_c": ("temperature_c", 1.0),
 }
 
-_NON_NEGATIVE = {"bus_voltage_v": "voltage", "bus_current_a": "current", "rpm": "rpm", "thrust_n": "thrust",
-                 "torque_nm": "torque"}
+_NON_NEGATIVE = {"bus_voltage_v": "voltage", "bus_current_a": "current", "rpm": "rpm", "torque_nm": "torque"}
+"""Quantities that may not be negative at all (thrust may, a little: see :func:`_thrust_issues`)."""
+THRUST_SIGNS = (1, -1)
+THRUST_UNITS = {"thrust_n": "N", "thrust_g": "g", "thrust_kgf": "kgf"}
 
 
 @dataclass(frozen=True)
@@ -189,13 +192,38 @@ def _value_issue(name: str, quantity: str, text: str) -> tuple[float, str | None
     return value, None
 
 
-def parse_bench_csv(data: bytes | str) -> BenchSamples:
+def _thrust_issues(thrust_n: FloatArray, lines: np.ndarray, column: str, factor: float,
+                   thrust_sign: int) -> list[CsvIssue]:
+    """Negative thrust: within the idle tolerance it is the load cell's zero offset (kept, flagged later); a run
+    negative throughout looks reversed (one message naming the fix); any other negative reading is an error."""
+    unit = THRUST_UNITS[column]
+    if looks_reversed(thrust_n):
+        k = int(np.nanargmin(thrust_n))
+        lowest = f"down to {thrust_n[k] / factor:g} {unit} on line {lines[k]}"
+        if thrust_sign == -1:
+            return [CsvIssue(None, column, f"with thrust_sign -1 the thrust is negative throughout ({lowest}): this "
+                                           "load cell reads the right way round; upload it with thrust_sign 1")]
+        return [CsvIssue(None, column, f"thrust is negative throughout ({lowest}): the load cell looks reversed "
+                                       "(mounted or wired the other way round). If it is, upload the file again with "
+                                       "thrust_sign -1 (the form's 'Load cell reversed', or --thrust-sign -1) to flip "
+                                       "the sign on import. A propeller mounted backwards makes far less thrust, and "
+                                       "flipping the sign does not correct that")]
+    tolerance = idle_thrust_tolerance_n(thrust_n)
+    return [CsvIssue(int(lines[k]), column,
+                     f"negative thrust {thrust_n[k] / factor:g} {unit}: more than the {tolerance / factor:.3g} {unit} "
+                     "below zero a load cell's zero offset may read at idle")
+            for k in np.flatnonzero(thrust_n < -tolerance)]
+
+
+def parse_bench_csv(data: bytes | str, *, thrust_sign: int = 1) -> BenchSamples:
     """Parse and validate a bench-run CSV.
 
     Parameters
     ----------
     data : bytes or str
         The uploaded file (UTF-8, optional BOM; comma separated; first line is the header).
+    thrust_sign : {1, -1}
+        -1 flips the thrust column on import (a load cell mounted or wired the other way round).
 
     Returns
     -------
@@ -208,8 +236,12 @@ def parse_bench_csv(data: bytes | str) -> BenchSamples:
         With every problem found (row = file line, column = header name): non-UTF-8, more than 2 MB, empty
         file or header only, more than 10 000 rows, empty/unknown/duplicate column or two columns for one
         quantity, missing required column, wrong number of values, non-numeric/NaN/inf values, negative
-        voltage/current/rpm/thrust/torque, throttle outside 0..1.
+        voltage/current/rpm/torque, throttle outside 0..1, thrust further below zero than the idle tolerance
+        (:func:`server.bench_runs.flags.idle_thrust_tolerance_n`; a smaller negative reading is kept and flagged),
+        or thrust negative throughout (one issue saying the load cell looks reversed).
     """
+    if thrust_sign not in THRUST_SIGNS:
+        raise ValueError(f"thrust_sign must be 1 or -1, not {thrust_sign!r}")
     text, issues = _decode(data)
     if text is None:
         raise BenchCsvError(issues)
@@ -241,7 +273,10 @@ def parse_bench_csv(data: bytes | str) -> BenchSamples:
             if problem:
                 issues.append(CsvIssue(line, name, problem))
             else:
-                values[quantity][k] = value * factor
+                values[quantity][k] = value * factor * (thrust_sign if quantity == "thrust_n" else 1)
+    thrust_idx = quantity_column["thrust_n"]
+    thrust_name, _, thrust_factor = columns[thrust_idx]
+    issues += _thrust_issues(values["thrust_n"], lines, thrust_name, thrust_factor, thrust_sign)
     if issues:
         if len(issues) > MAX_REPORTED_ISSUES:
             extra = len(issues) - MAX_REPORTED_ISSUES

@@ -33,6 +33,7 @@ def cmd_import_bench(args: argparse.Namespace, settings: Settings) -> int:
         "supply_voltage_v": args.supply_v,
         "altitude_m": args.altitude,
         "air_temperature_c": args.temperature,
+        "thrust_sign": args.thrust_sign,
         "notes": args.notes or "",
         "name": args.name or "",
     }
@@ -88,6 +89,8 @@ def register(add: AddCommand) -> None:
     supply.add_argument("--supply-v", type=float, help="bench supply voltage [V]")
     p.add_argument("--altitude", type=float, help="site altitude [m]")
     p.add_argument("--temperature", type=float, help="air temperature [°C]")
+    p.add_argument("--thrust-sign", type=int, choices=[1, -1], default=1,
+                   help="-1 flips the thrust column (load cell mounted or wired the other way round)")
     p.add_argument("--name")
     p.add_argument("--notes")
     p = add("calibrate", cmd_calibrate, "re-fit a part (KIND:ID, e.g. motors:12) from the team's bench runs")

@@ -27,6 +27,8 @@ class BenchRun(TeamOwned, Base):
     air_pressure_pa: Mapped[float | None] = mapped_column(Float, nullable=True)
     throttle_offset: Mapped[float] = mapped_column(Float, default=0.0)
     throttle_scale: Mapped[float] = mapped_column(Float, default=1.0)
+    thrust_sign: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
+    """-1 when the upload's thrust column was flipped (load cell reversed); the samples are stored corrected."""
     air_density_kg_m3: Mapped[float] = mapped_column(Float)
     filename: Mapped[str] = mapped_column(String(255), default="")
     notes: Mapped[str] = mapped_column(Text, default="")

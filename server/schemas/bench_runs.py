@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 from datetime import datetime
-from typing import TYPE_CHECKING, TypeAlias
+from typing import TYPE_CHECKING, Annotated, TypeAlias
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged, text
 from server.schemas.calibrations import CalibrationRead, RefitStatus
@@ -15,6 +15,18 @@ if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain 
     Id: TypeAlias = int
 else:
     Id = ranged(int, 1, 2**63 - 1, "")
+
+
+def _sign(value: int) -> int:
+    if value not in (1, -1):
+        raise ValueError(f"must be 1 or -1 (got {value})")
+    return value
+
+
+THRUST_SIGN_TEXT = ("1: thrust as recorded; -1: the load cell was mounted or wired the other way round, so the "
+                    "thrust column is flipped on import (the stored samples are the corrected ones)")
+ThrustSign = Annotated[int, AfterValidator(_sign),
+                       Field(description=THRUST_SIGN_TEXT, json_schema_extra={"enum": [1, -1]})]
 
 
 class BenchRunMeta(BaseModel):
@@ -33,6 +45,7 @@ class BenchRunMeta(BaseModel):
     air_pressure_pa: ranged(float, 20_000, 120_000, "Pa") | None = None  # type: ignore[valid-type]
     throttle_offset: ranged(float, -1, 1, "", description="duty = offset + scale × throttle") = 0.0  # type: ignore[valid-type]
     throttle_scale: ranged(float, 0.1, 10, "", description="duty = offset + scale × throttle") = 1.0  # type: ignore[valid-type]
+    thrust_sign: ThrustSign = 1
     notes: text(4000) = ""  # type: ignore[valid-type]
 
     @model_validator(mode="after")
@@ -57,6 +70,7 @@ class BenchRunSummary(Result):
     air_pressure_pa: float | None = None
     throttle_offset: float | None = None
     throttle_scale: float | None = None
+    thrust_sign: int = Field(1, description=THRUST_SIGN_TEXT)
     air_density_kg_m3: float = Field(description="Air density the run's coefficients use [kg/m^3]")
     filename: str = ""
     notes: str = ""

@@ -9,8 +9,9 @@ from typing import TYPE_CHECKING, Any, Literal, TypeAlias
 
 from pydantic import BaseModel, ConfigDict, Field, create_model, field_validator, model_validator
 
-from server.bench_runs.flags import FlagReason
+from server.bench_runs.flags import FlagReason, idle_thrust_tolerance_n
 from server.schemas._fields import field_meta, ranged, text
+from server.schemas.bench_runs import ThrustSign
 from server.schemas.evaluation import Result
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.schemas.parts import CREATE_SCHEMAS, StaticRow
@@ -19,10 +20,12 @@ if TYPE_CHECKING:
     Ref: TypeAlias = int
     Count: TypeAlias = int
     Measured: TypeAlias = float
+    Thrust: TypeAlias = float
 else:
     Ref = ranged(int, 0, 2**63 - 1, "", description="An id local to the file")
     Count = ranged(int, 0, 10_000_000, "")
     Measured = ranged(float, 0, 1e7, "")  # non-negative and finite: bench values are magnitudes
+    Thrust = ranged(float, -1e7, 1e7, "N")  # may sit a little below zero (a load cell's idle offset), see the run
 
 MAX_ROWS = 10_000  # samples per run, as for a bench-run CSV
 MAX_ITEMS = 5_000  # parts per kind, airframes, missions, runs, calibrations
@@ -62,7 +65,7 @@ class LibrarySample(_Strict):
     bus_voltage_v: Measured
     bus_current_a: Measured
     rpm: Measured
-    thrust_n: Measured
+    thrust_n: Thrust
     torque_nm: Measured | None = None
     temperature_c: ranged(float, -100, 400, "°C") | None = None  # type: ignore[valid-type]
     flag: text(200) | None = None  # type: ignore[valid-type]
@@ -89,6 +92,7 @@ class LibraryBenchRun(_Strict):
     air_pressure_pa: ranged(float, 20_000, 120_000, "Pa") | None = None  # type: ignore[valid-type]
     throttle_offset: ranged(float, -1, 1, "") = 0.0  # type: ignore[valid-type]
     throttle_scale: ranged(float, 0.1, 10, "") = 1.0  # type: ignore[valid-type]
+    thrust_sign: ThrustSign = 1
     air_density_kg_m3: ranged(float, 0.05, 3, "kg/m³")  # type: ignore[valid-type]
     filename: text(255) = ""  # type: ignore[valid-type]
     notes: text(4000) = ""  # type: ignore[valid-type]
@@ -100,6 +104,17 @@ class LibraryBenchRun(_Strict):
     def _one_supply(self) -> LibraryBenchRun:
         if (self.pack_ref is None) == (self.supply_voltage_v is None):
             raise ValueError("pack_ref: give either pack_ref or supply_voltage_v (one of them)")
+        return self
+
+    @model_validator(mode="after")
+    def _thrust_offsets_only(self) -> LibraryBenchRun:
+        """A stored sample's thrust is below zero only within the idle tolerance, as an upload would allow."""
+        thrust = [s.thrust_n for s in self.samples]
+        tolerance = idle_thrust_tolerance_n(thrust) if thrust else 0.0
+        for k, value in enumerate(thrust):
+            if value < -tolerance:
+                raise ValueError(f"samples.{k}.thrust_n: {value:g} N is further below zero than a load cell's idle "
+                                 f"offset may read ({tolerance:g} N for this run)")
         return self
 
 

@@ -25,9 +25,9 @@ from server.services import power_system as ps
 INCH_M = 0.0254
 
 
-def parse(raw: bytes) -> BenchSamples:
+def parse(raw: bytes, thrust_sign: int = 1) -> BenchSamples:
     try:
-        return parse_bench_csv(raw)
+        return parse_bench_csv(raw, thrust_sign=thrust_sign)
     except BenchCsvError as exc:
         raise exc.as_invalid_input() from None
 
@@ -50,7 +50,7 @@ def _check_parts(session: Session, team_id: int, meta: BenchRunMeta) -> None:
 def preview(session: Session, *, team_id: int, meta: BenchRunMeta, raw: bytes) -> dict[str, Any]:
     """What an upload would store (samples, flags, derived values) without storing anything."""
     _check_parts(session, team_id, meta)
-    samples = parse(raw)
+    samples = parse(raw, meta.thrust_sign)
     flags = flag_samples(samples.throttle, samples.bus_voltage_v, samples.bus_current_a, samples.rpm,
                          samples.thrust_n)
     return {"samples": _sample_dicts(session, team_id, meta.propeller_id, _density(meta), samples, flags.reasons),
@@ -101,7 +101,7 @@ def store_run(session: Session, *, team_id: int, user_id: int | None, meta: Benc
     The samples go in as one bulk insert; calibration is not done here (see :mod:`server.services.refits`).
     """
     _check_parts(session, team_id, meta)
-    samples = parse(raw)
+    samples = parse(raw, meta.thrust_sign)
     flags = flag_samples(samples.throttle, samples.bus_voltage_v, samples.bus_current_a, samples.rpm,
                          samples.thrust_n)
     run = BenchRun(team_id=team_id, created_by_id=user_id, filename=filename[:255],
@@ -162,7 +162,7 @@ def delete_run(session: Session, *, team_id: int, run_id: int) -> None:
 def run_summary(row: BenchRun) -> dict[str, Any]:
     return {c: getattr(row, c) for c in (
         "id", "name", "motor_id", "propeller_id", "esc_id", "pack_id", "supply_voltage_v", "altitude_m",
-        "air_temperature_c", "air_pressure_pa", "throttle_offset", "throttle_scale", "air_density_kg_m3",
+        "air_temperature_c", "air_pressure_pa", "throttle_offset", "throttle_scale", "thrust_sign", "air_density_kg_m3",
         "filename", "notes", "sample_count", "flagged_count", "created_at")}
 
 
@@ -221,8 +221,9 @@ def model_at_samples(session: Session, *, team_id: int, run: BenchRun) -> list[d
     thrust = np.array([s.thrust_n for s in run.samples])
     voltage = np.array([s.bus_voltage_v for s in run.samples])
     measured = voltage * np.array([s.bus_current_a for s in run.samples])
-    op = drive.for_thrust(thrust, motor=motor, esc=esc, propeller=static, open_circuit_voltage_v=voltage,
-                          density_kg_m3=run.air_density_kg_m3)
+    # only positive thrust has an operating point (an idle sample may read slightly negative: a load-cell offset)
+    op = drive.for_thrust(np.where(thrust > 0, thrust, np.nan), motor=motor, esc=esc, propeller=static,
+                          open_circuit_voltage_v=voltage, density_kg_m3=run.air_density_kg_m3)
     ok = np.isin(op.status, [Status.OK, Status.OVER_CURRENT]) & (thrust > 0)
     out: list[dict[str, float | None]] = []
     for i in range(n):

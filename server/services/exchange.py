@@ -27,7 +27,8 @@ VERSION = 1
 SAMPLE_FIELDS = ["position", "throttle", "bus_voltage_v", "bus_current_a", "rpm", "thrust_n", "torque_nm",
                  "temperature_c", "flag"]
 RUN_FIELDS = ["name", "altitude_m", "air_temperature_c", "air_pressure_pa", "throttle_offset", "throttle_scale",
-              "air_density_kg_m3", "filename", "notes", "sample_count", "flagged_count", "supply_voltage_v"]
+              "thrust_sign", "air_density_kg_m3", "filename", "notes", "sample_count", "flagged_count",
+              "supply_voltage_v"]
 MAX_REPORTED = 200
 CALIBRATION_FIELDS = ["part_kind", "parameters", "residual_rms", "residual_unit", "sample_count", "notes",
                       "engine_version", "active"]

@@ -17,16 +17,13 @@ from fastapi.testclient import TestClient
 from server.db import transaction
 from server.models import BenchRun, BenchSample, Calibration
 from tests.bench_runs.reference import load_tests
+from tests.bench_runs.test_idle_thrust import csv_of as reference_csv
 from tests.factories import TeamFixture, make_team, part_payload
 
 
 def csv_of(test_id: str) -> str:
-    test = load_tests()[test_id]
-    lines = ["throttle,bus_voltage_v,bus_current_a,rpm,thrust_n"]
-    for i in range(len(test.throttle)):
-        rpm = 0.0 if test.rpm[i] != test.rpm[i] else test.rpm[i]  # the bench's empty rpm means 0
-        lines.append(f"{test.throttle[i]},{test.bus_voltage_v[i]},{test.current_a[i]},{rpm},{max(test.thrust_n[i], 0)}")
-    return "\n".join(lines) + "\n"
+    """A published sweep in our CSV format, every value as published (the bench's empty rpm means 0)."""
+    return reference_csv(load_tests()[test_id])
 
 
 @pytest.fixture
@@ -257,3 +254,65 @@ def test_rankings_use_the_calibration(
     assert prop["calibrated"] == ["static_table"] and len(prop["static_table"]) >= 3
     started = client.post("/api/v1/rankings", json={"mission_id": mission_id}, headers=h)
     assert started.status_code == 202
+
+
+def test_an_idle_load_cell_offset_is_stored_and_flagged(client: TestClient,
+                                                         stand: tuple[TeamFixture, dict[str, int]]) -> None:
+    team, ids = stand
+    response = upload(client, team, ids, csv_of("m_e_p_5_v7p4"), supply_voltage_v=7.4)  # first row: -0.0016 N
+    assert response.status_code == 201, response.text
+    assert response.json()["flags"]["thrust_offset"] == 1
+    detail = client.get(f"/api/v1/bench-runs/{response.json()['id']}", headers=team.headers()).json()
+    idle = detail["samples"][0]
+    assert idle["thrust_n"] == -0.0016 and "thrust_offset" in idle["flag"] and "zero offset" in idle["flag_text"]
+
+
+def test_a_clearly_negative_sample_mid_run_is_rejected_with_row_and_column(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]], app: FastAPI
+) -> None:
+    team, ids = stand
+    lines = csv_of("m_e_p_5_v7p4").splitlines()
+    lines[6] = ",".join([*lines[6].split(",")[:4], "-0.8"])
+    response = upload(client, team, ids, "\n".join(lines) + "\n", supply_voltage_v=7.4)
+    assert response.status_code == 422, response.text
+    assert [(e["field"], e["row"]) for e in response.json()["errors"]] == [("thrust_n", 7)]
+    with transaction(app.state.sessionmaker) as session:
+        assert session.query(BenchRun).count() == 0
+
+
+def test_a_reversed_load_cell_is_named_and_thrust_sign_flips_it(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]]
+) -> None:
+    team, ids = stand
+    h = team.headers()
+    # m_m is the collection's 1806-size motor whose data point to about 1400 rpm/V (PROVENANCE.md)
+    motor = client.post("/api/v1/parts/motors", headers=h, json=part_payload(
+        "motors", name="1806 1400", kv_rpm_per_v=1400, winding_resistance_ohm=None, no_load_current_a=None,
+        max_cells=4, mass_g=20)).json()["id"]
+    prop = client.post("/api/v1/parts/propellers", headers=h, json=part_payload(
+        "propellers", name="5x5.3x3", diameter_in=5, pitch_in=5.3, blades=3, ct=None, cp=None, static_table=None,
+        mass_g=4)).json()["id"]
+    stand_ids = ids | {"motor": motor, "prop": prop}
+    rejected = upload(client, team, stand_ids, csv_of("m_m_p_8_v11p1"), supply_voltage_v=11.1)
+    assert rejected.status_code == 422
+    (error,) = rejected.json()["errors"]
+    assert error["field"] == "thrust_n" and "load cell looks reversed" in error["message"]
+    assert "thrust_sign -1" in error["message"]
+    bad_sign = upload(client, team, stand_ids, csv_of("m_m_p_8_v11p1"), supply_voltage_v=11.1, thrust_sign=2)
+    assert bad_sign.status_code == 422 and bad_sign.json()["errors"][0]["field"] == "metadata.thrust_sign"
+    for test_id, volts in (("m_m_p_8_v7p4", 7.4), ("m_m_p_8_v11p1", 11.1)):  # both runs of this pair are reversed
+        flipped = upload(client, team, stand_ids, csv_of(test_id), supply_voltage_v=volts, thrust_sign=-1)
+        assert flipped.status_code == 201, flipped.text
+    body = flipped.json()
+    assert body["thrust_sign"] == -1
+    calibration = calibration_of(client, team, flipped)
+    assert calibration["error"] is None
+    fitted = {c["part_kind"]: c for c in calibration["calibrations"]}
+    assert fitted["propellers"]["parameters"]["static_table"]["status"] == "identified"
+    kv = fitted["motors"]["parameters"]["kv_rpm_per_v"]
+    # PROVENANCE: the label reads 2400 or 1400 and the data point to about 1400 (measured here: 1529 ± 2)
+    assert kv["status"] == "identified" and 1200 < kv["value"] < 1800
+    detail = client.get(f"/api/v1/bench-runs/{body['id']}", headers=h).json()
+    assert detail["run"]["thrust_sign"] == -1
+    assert detail["samples"][-1]["thrust_n"] == 2.3087  # stored corrected: the published -2.3087 N, flipped
+    assert all(s["thrust_coefficient"] > 0 for s in detail["samples"] if s["flag"] is None)

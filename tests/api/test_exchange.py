@@ -59,3 +59,30 @@ def test_a_bad_file_imports_nothing(app: FastAPI, client: TestClient) -> None:
     assert "parts.motors.1.kv_rpm_per_v" in fields and "missions.0.airframe_id" in fields
     assert client.get("/api/v1/parts/motors", headers=h).json()["total"] == 0
     assert client.post("/api/v1/import", json=bad, headers=team.headers("read")).status_code == 403
+
+
+def test_round_trip_keeps_thrust_sign_and_idle_offsets(app: FastAPI, client: TestClient) -> None:
+    """A run flipped on import (thrust_sign -1) and one with a negative idle reading survive export and import
+    unchanged: the stored samples are the corrected ones and are not flipped again. Sweeps: the published 5-inch
+    bench data (tests/data/reference/bench-5in, PROVENANCE.md)."""
+    from tests.api.test_bench_runs import csv_of, upload
+    from tests.factories import part_payload
+
+    team = make_team(app)
+    h = team.headers()
+    ids = {key: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
+           for key, kind in (("motor", "motors"), ("prop", "propellers"), ("esc", "escs"))}
+    assert upload(client, team, ids, csv_of("m_m_p_8_v11p1"), supply_voltage_v=11.1, thrust_sign=-1).status_code == 201
+    assert upload(client, team, ids, csv_of("m_e_p_5_v7p4"), supply_voltage_v=7.4).status_code == 201
+    exported = client.get("/api/v1/export", headers=h).json()
+    assert [r["thrust_sign"] for r in exported["bench_runs"]] == [-1, 1]
+    assert exported["bench_runs"][1]["samples"][0]["thrust_n"] == -0.0016
+    other = make_team(app, "Copy")
+    assert client.post("/api/v1/import", json=exported, headers=other.headers()).status_code == 201
+    again = client.get("/api/v1/export", headers=other.headers()).json()
+    assert strip_refs(again) == strip_refs(exported)
+    copied = client.get("/api/v1/bench-runs", headers=other.headers()).json()
+    assert sorted(r["thrust_sign"] for r in copied) == [-1, 1]
+    flipped = next(r for r in copied if r["thrust_sign"] == -1)
+    samples = client.get(f"/api/v1/bench-runs/{flipped['id']}", headers=other.headers()).json()["samples"]
+    assert samples[-1]["thrust_n"] == 2.3087  # the published -2.3087 N, flipped once

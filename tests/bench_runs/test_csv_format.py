@@ -56,7 +56,6 @@ def test_torque_in_newton_millimetre_is_converted() -> None:
     ("0.5,11,4,nan,1.9", 2, "rpm", "not a finite number"),
     ("0.5,11,4,12000,inf", 2, "thrust_n", "not a finite number"),
     ("0.5,11,-0.1,12000,1.9", 2, "bus_current_a", "negative current"),
-    ("0.5,11,4,12000,-1.9", 2, "thrust_n", "negative thrust"),
     ("0.5,11,4,-5,1.9", 2, "rpm", "negative rpm"),
     ("0.5,-11,4,12000,1.9", 2, "bus_voltage_v", "negative voltage"),
     ("1.2,11,4,12000,1.9", 2, "throttle", "outside 0..1"),

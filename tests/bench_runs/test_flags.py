@@ -59,11 +59,15 @@ def test_inconsistent_rows() -> None:
     assert flags.reasons[3] == (FlagReason.RPM_MISSING,)
     assert flags.reasons[4] == (FlagReason.RPM_MISSING,)
     assert flags.reasons[5] == (FlagReason.NO_CURRENT,)
-    assert flags.reasons[6] == (FlagReason.NO_THRUST,)
+    assert flags.reasons[6] == (FlagReason.NO_THRUST, FlagReason.THRUST_OFFSET)  # -0.01 N: a load-cell offset
     assert flags.reasons[0] == (FlagReason.MOTOR_STOPPED,)
     assert flags.count == 5
-    rpm[1] = 29.0  # a tachometer that has not locked on: thrust 0.18 N at 29 rpm
+    rpm[1] = 290.0  # a tachometer that has not locked on: thrust 0.18 N at 290 rpm
     assert flag_samples(throttle, voltage, current, rpm, thrust).reasons[1] == (FlagReason.RPM_IMPLAUSIBLE,)
+    rpm[1] = 29.0  # below MIN_TURNING_RPM it counts as no reading at all
+    assert flag_samples(throttle, voltage, current, rpm, thrust).reasons[1] == (FlagReason.RPM_MISSING,)
+    rpm[0], thrust[0] = 2.0, 0.0127  # bench-5in's idle rows read 1-2 rpm with the motor stopped
+    assert flag_samples(throttle, voltage, current, rpm, thrust).reasons[0] == (FlagReason.MOTOR_STOPPED,)
 
 
 def test_reference_supply_limited_rows_are_flagged() -> None:

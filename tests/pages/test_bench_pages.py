@@ -9,17 +9,21 @@ from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
 from tests.api.test_bench_runs import csv_of
-from tests.factories import login, make_team, part_payload
+from tests.factories import TeamFixture, login, make_team, part_payload
+
+
+def stand_form(app: FastAPI, client: TestClient, name: str) -> tuple[TeamFixture, dict[str, str]]:
+    """A new team with an ESC, a motor and a propeller, its owner logged in; the upload form's fields."""
+    team = make_team(app)
+    ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=team.headers()).json()["id"]
+           for kind in ("escs", "motors", "propellers")}
+    return team, {"csrf_token": login(client, team.owner_email), "motor_id": str(ids["motors"]),
+                  "propeller_id": str(ids["propellers"]), "esc_id": str(ids["escs"]), "supply_voltage_v": "11.1",
+                  "name": name}
 
 
 def test_preview_upload_and_detail(app: FastAPI, client: TestClient) -> None:
-    team = make_team(app)
-    h = team.headers()
-    ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
-           for kind in ("escs", "motors", "propellers")}
-    token = login(client, team.owner_email)
-    form = {"csrf_token": token, "motor_id": str(ids["motors"]), "propeller_id": str(ids["propellers"]),
-            "esc_id": str(ids["escs"]), "supply_voltage_v": "11.1", "name": "Stand test 1"}
+    _, form = stand_form(app, client, "Stand test 1")
     sweep = csv_of("m_a_p_1_v11p1")
     preview = client.post("/bench-runs/preview", data=form, files={"file": ("s.csv", sweep, "text/csv")},
                           headers={"HX-Request": "true"})
@@ -43,6 +47,27 @@ def test_preview_upload_and_detail(app: FastAPI, client: TestClient) -> None:
     assert page.select_one("#bench-chart-data") is not None
     assert len(page.select("#samples tbody tr")) == len(sweep.strip().splitlines()) - 1
     switch = page.select_one("#calibration-motors form")
-    client.post(switch["action"], data={"csrf_token": token, "active": "0"})
+    client.post(switch["action"], data={"csrf_token": form["csrf_token"], "active": "0"})
     again = BeautifulSoup(client.get(uploaded.headers["location"]).text, "html.parser")
     assert "Use this calibration: off" in again.select_one("#calibration-motors").text
+
+
+def test_the_upload_form_names_a_reversed_load_cell_and_flips_it(app: FastAPI, client: TestClient) -> None:
+    # m_m_p_8_v11p1: a published 5-inch sweep whose thrust reads negative throughout (PROVENANCE.md, bench-5in)
+    team, form = stand_form(app, client, "Reversed cell")
+    upload_page = BeautifulSoup(client.get("/bench-runs").text, "html.parser")
+    assert [o["value"] for o in upload_page.select("#thrust_sign option")] == ["1", "-1"]
+    sweep = csv_of("m_m_p_8_v11p1")
+    rejected = client.post("/bench-runs", data=form, files={"file": ("s.csv", sweep, "text/csv")})
+    assert rejected.status_code == 422
+    errors = BeautifulSoup(rejected.text, "html.parser").select_one("ul.errors").text
+    assert "load cell looks reversed" in errors
+    kept = BeautifulSoup(rejected.text, "html.parser")
+    assert kept.select_one("#thrust_sign option[selected]") is None  # the form keeps what was sent (1)
+    uploaded = client.post("/bench-runs", data=form | {"thrust_sign": "-1"},
+                           files={"file": ("s.csv", sweep, "text/csv")}, follow_redirects=False)
+    assert uploaded.status_code == 303
+    page = BeautifulSoup(client.get(uploaded.headers["location"]).text, "html.parser")
+    assert "flipped on import" in page.select_one("#thrust-flipped").text
+    run = client.get("/api/v1/bench-runs", headers=team.headers()).json()[0]
+    assert run["thrust_sign"] == -1
