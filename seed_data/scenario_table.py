@@ -1,0 +1,120 @@
+"""Print the engine's figures for the demo's intended and deliberately failing combinations (seed_data/README.md).
+
+SYNTHETIC DEMO DATA in, engine figures out: the demo is loaded into a throwaway SQLite file (with its synthetic
+bench runs and their calibrations, as ``liftmatch load-demo`` does) and every combination listed below is evaluated
+with the same service the shortlist compare page uses. Never a check value.
+Run: python seed_data/scenario_table.py
+"""
+
+from __future__ import annotations
+
+import tempfile
+from pathlib import Path
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session, sessionmaker
+
+from server.config import Settings
+from server.db import make_engine, make_sessionmaker, transaction
+from server.migrate import upgrade
+from server.models import PART_MODELS, Mission
+from server.services import candidate, explain, rankings, seed
+
+INTENDED = [
+    ("Q4 mapping survey", "NS-B4S-5200", "NS-E30", "NS-M3508-460", "NS-P13x4.4", 1),
+    ("Q4 mapping survey", "NS-B6S-5000", "NS-E30", "NS-M4010-370", "NS-P13x4.4", 1),
+    ("Q4 mapping survey, hot and high", "NS-B4S-5200", "NS-E30", "NS-M3508-580", "NS-P13x4.4", 1),
+    ("Q4 mapping survey, hot and high", "NS-B6S-5000", "NS-E30", "NS-M4010-370", "NS-P13x4.4", 1),
+    ("H6 structure inspection", "NS-B6S-16000", "NS-E45", "NS-M6010-190", "NS-P22x7.2", 1),
+    ("H6 structure inspection", "NS-B12S-12000", "NS-E60", "NS-M6010-130", "NS-P20x6.5", 1),
+    ("V1 corridor cruise", "NS-B6S-10000", "NS-E80", "NS-M4120-420", "NS-PF13x8", 1),
+    ("V1 corridor cruise", "NS-LI6S4P-20000", "NS-E60", "NS-M4120-420", "NS-PF12x8", 1),
+]
+FAILING = [
+    ("Q4 mapping survey", "NS-B4S-5200", "NS-E45", "NS-M2814-700", "NS-P11x4.5", 1),
+    ("Q4 mapping survey", "NS-B4S-5200", "NS-E45", "NS-M2212-920", "NS-P10x4.5", 1),
+    ("Q4 mapping survey", "NS-B4S-5200", "NS-E45", "NS-M2814-880", "NS-P12x4.5", 1),
+    ("Q4 mapping survey", "NS-B4S-5200", "NS-E20", "NS-M2814-880", "NS-P10x4.5", 1),
+    ("Q4 mapping survey", "NS-B6S-5000", "NS-E45", "NS-M2814-700", "NS-P11x4.5", 1),
+    ("Q4 mapping survey", "NS-B3S-2200", "NS-E20", "NS-M2212-1400", "NS-P10x4.5", 1),
+    ("Q4 mapping survey, hot and high", "NS-B4S-5200", "NS-E30", "NS-M3508-460", "NS-P13x4.4", 1),
+    ("H6 structure inspection", "NS-LI6S4P-20000", "NS-E45", "NS-M6010-190", "NS-P22x7.2", 1),
+    ("H6 structure inspection", "NS-B12S-22000", "NS-E60", "NS-M6010-130", "NS-P20x6.5", 1),
+    ("H6 structure inspection", "NS-B12S-12000", "NS-E60", "NS-M6010-190", "NS-P18x6.1", 1),
+    ("V1 corridor cruise", "NS-B6S-10000", "NS-E60", "NS-M4120-420", "NS-PF13x8", 1),
+    ("V1 corridor cruise", "NS-B6S-10000", "NS-E60", "NS-M4120-500", "NS-PF15x10", 1),
+    ("V1 corridor cruise", "NS-B4S-5200", "NS-E45", "NS-M4120-500", "NS-PF15x10", 2),
+    ("V1 corridor cruise", "NS-B6S-10000", "NS-E45", "NS-M4010-370", "NS-PF15x10", 1),
+]
+HEADER = ("| mission | packs × pack × ESC × motor × prop | all-up mass (g) | T per rotor (N) | rpm | duty | "
+          "electrical power (W) | g/W | endurance (min) | T/W at d = 1 | I_motor at d = 1 (A) | "
+          "P at d = 1 per motor (W) | pack current at d = 1 (A) | ranking (cruise power) | failed checks |")
+Combo = tuple[str, str, str, str, str, int]
+
+
+def _ranks(factory: sessionmaker[Session], team_id: int, mission_id: int) -> tuple[dict[tuple[int, ...], int], int]:
+    """Every feasible combination of a mission with its rank (lowest cruise power first), and their number."""
+    with transaction(factory) as session:
+        ranking_id = rankings.start(session, team_id=team_id, user_id=None, mission_id=mission_id,
+                                    objective="cruise_power", top_n=500).id
+    rankings.run(factory, ranking_id)
+    with factory() as session:
+        rows, total = rankings.results(session, team_id=team_id, ranking_id=ranking_id, page_size=500)
+    return {(r["battery_id"], r["esc_id"], r["motor_id"], r["propeller_id"], r["packs_in_parallel"]): r["rank"]
+            for r in rows}, total
+
+
+def _row(session: Session, team_id: int, missions: dict[str, Mission], ids: dict[str, dict[str, int]],
+         ranks: dict[str, tuple[dict[tuple[int, ...], int], int]], combo: Combo) -> str:
+    mission_name, pack, esc, motor, prop, packs = combo
+    mission = missions[mission_name]
+    key = candidate.CandidateIds(ids["batteries"][pack], ids["escs"][esc], ids["motors"][motor],
+                                 ids["propellers"][prop], packs)
+    m = candidate.evaluate(session, team_id=team_id, mission=mission, ids=key)
+    ranked, feasible = ranks[mission_name]
+    rank = ranked.get((key.battery_id, key.esc_id, key.motor_id, key.propeller_id, key.packs_in_parallel))
+    verdict = explain.explain(session, team_id=team_id, mission_id=mission.id, battery_id=key.battery_id,
+                              esc_id=key.esc_id, motor_id=key.motor_id, propeller_id=key.propeller_id,
+                              packs_in_parallel=packs)
+    failed = ", ".join(c["reason"] for c in verdict["checks"] if c["passed"] is False) or "none"
+    cruise, full = m["cruise"], m["full_throttle"]
+    rotors = mission.airframe.rotor_count
+
+    def num(value: float | None, digits: int = 0) -> str:
+        return "—" if value is None else f"{value:,.{digits}f}".replace(",", " ")
+
+    return (f"| {mission_name} | {packs} × {pack} × {esc} × {motor} × {prop} | {num(m['all_up_mass_g'])} | "
+            f"{num(m['thrust_required_n'], 2)} | {num(cruise['rpm'])} | {num(cruise['duty'], 2)} | "
+            f"{num(cruise['electrical_power_w'])} | {num(cruise['specific_thrust_g_per_w'], 1)} | "
+            f"{num(m['endurance_min'], 1)} | {num(full['thrust_to_weight'], 2)} | {num(full['motor_current_a'], 1)} | "
+            f"{num(None if full['electrical_power_w'] is None else full['electrical_power_w'] / rotors)} | "
+            f"{num(full['bus_current_a'], 1)} | {'rejected' if rank is None else f'{rank} of {feasible}'} | {failed} |")
+
+
+def main() -> None:
+    with tempfile.TemporaryDirectory() as tmp:
+        url = f"sqlite:///{Path(tmp) / 'scenario.db'}"
+        upgrade(url)
+        factory = make_sessionmaker(make_engine(url))
+        settings = Settings(database_url=url, demo=True, password_time_cost=1, password_memory_kib=1024,
+                            password_parallelism=1)
+        with transaction(factory) as session:
+            seed.load_demo(session, settings=settings)
+        with factory() as session:
+            missions = {m.name: m for m in session.scalars(select(Mission))}
+            team_id = next(iter(missions.values())).team_id
+            ids = {kind: {p.part_number: p.id for p in session.scalars(select(model))}
+                   for kind, model in PART_MODELS.items()}
+            mission_ids = {name: m.id for name, m in missions.items()}
+        ranks = {name: _ranks(factory, team_id, mission_id) for name, mission_id in mission_ids.items()}
+        with factory() as session:
+            missions = {m.name: m for m in session.scalars(select(Mission))}
+            for title, combos in (("Intended good combinations", INTENDED),
+                                  ("Combinations that deliberately fail a limit", FAILING)):
+                print(f"\n**{title}**\n\n{HEADER}\n|{'---|' * 15}")
+                for combo in combos:
+                    print(_row(session, team_id, missions, ids, ranks, combo))
+
+
+if __name__ == "__main__":
+    main()
