@@ -36,6 +36,8 @@ class CalibrationRead(Result):
     engine_version: str
     active: bool = Field(description="Whether predictions and rankings use this calibration")
     created_at: datetime
+    covariance: dict[str, Any] | None = Field(
+        default=None, description="Covariance of the identified parameters: {names, matrix} in their units")
 
 
 class CalibrationOutcome(Result):

@@ -156,6 +156,22 @@ def _check_parameter(kind: str, name: str, p: LibraryParameter) -> None:
             raise ValueError(f"{name}: an identified value must lie between 0 and {bounds['maximum']:g}")
 
 
+class LibraryCovariance(_Strict):
+    """Covariance of a calibration's identified parameters: one row and column per name, finite numbers."""
+
+    names: list[text(32)] = Field(min_length=1, max_length=64)  # type: ignore[valid-type]
+    matrix: list[list[float]] = Field(max_length=64)
+
+    @model_validator(mode="after")
+    def _square_and_finite(self) -> LibraryCovariance:
+        n = len(self.names)
+        if len(self.matrix) != n or any(len(row) != n for row in self.matrix):
+            raise ValueError(f"matrix: must be {n} x {n}, one row and column per name")
+        if not all(math.isfinite(v) for row in self.matrix for v in row):
+            raise ValueError("matrix: every value must be a finite number")
+        return self
+
+
 class LibraryCalibration(_Strict):
     part_kind: Literal["escs", "motors", "propellers"]
     part_ref: Ref
@@ -167,6 +183,7 @@ class LibraryCalibration(_Strict):
     notes: text(4000) = ""  # type: ignore[valid-type]
     engine_version: text(32) = ""  # type: ignore[valid-type]
     active: bool = True
+    covariance: LibraryCovariance | None = None
 
     @model_validator(mode="after")
     def _parameters_of_the_kind(self) -> LibraryCalibration:

@@ -167,6 +167,15 @@ class Craft(BaseModel):
     thrust_to_weight: float | None = None
 
 
+class PointBands(BaseModel):
+    """The central 80 % of the predictions over every uncertain parameter (per rotor; 10th and 90th percentiles)."""
+
+    level: float = Field(description="Central probability of each band")
+    electrical_power_w: list[float | None] = Field(default_factory=list, description="[low, high] per rotor [W]")
+    thrust_n: list[float | None] = Field(default_factory=list, description="[low, high] per rotor [N]")
+    motor_current_a: list[float | None] = Field(default_factory=list, description="[low, high] per rotor [A]")
+
+
 class PointOut(BaseModel):
     request: dict[str, float]
     status: str
@@ -186,6 +195,7 @@ class PointOut(BaseModel):
     losses_w: Losses
     craft: Craft
     warnings: list[str]
+    bands: PointBands | None = None
 
 
 class EnduranceOut(BaseModel):
@@ -195,6 +205,7 @@ class EnduranceOut(BaseModel):
     final_state_of_charge: float | None
     start: dict[str, float | None]
     end: dict[str, float | None]
+    minutes_band: list[float | None] | None = Field(default=None, description="[low, high] 80 % band [min]")
 
 
 class PredictResponse(BaseModel):
@@ -202,4 +213,6 @@ class PredictResponse(BaseModel):
     points: list[PointOut]
     endurance: EnduranceOut | None = None
     parameters: dict[str, dict[str, dict[str, Any]]]
+    assumed: dict[str, list[str]] = Field(default_factory=dict,
+                                          description="Per part, the parameters that rest on a prior (not measured)")
     warnings: list[str]

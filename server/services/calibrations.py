@@ -47,14 +47,26 @@ def _clean(v: float) -> float | None:
     return float(v) if math.isfinite(v) else None
 
 
+def _covariance(report: Any, names: dict[str, str] | None = None) -> dict[str, Any] | None:
+    """A fit's covariance as stored: {"names": [stored parameter names], "matrix": [[...]]} (finite only)."""
+    if report.covariance is None:
+        return None
+    fit_names, matrix = report.covariance
+    matrix = np.asarray(matrix, dtype=np.float64)
+    if not fit_names or not np.all(np.isfinite(matrix)):
+        return None
+    return {"names": [(names or {}).get(n, n) for n in fit_names], "matrix": matrix.tolist()}
+
+
 def _store(session: Session, *, team_id: int, kind: str, part_id: int, parameters: dict[str, Any],
-           fit: Any, run_ids: list[int], notes: str) -> Calibration:
+           fit: Any, run_ids: list[int], notes: str, covariance: dict[str, Any] | None = None) -> Calibration:
     session.execute(update(Calibration).where(Calibration.team_id == team_id, Calibration.part_kind == kind,
                                               Calibration.part_id == part_id).values(active=False))
     notes = "; ".join(dict.fromkeys(n.strip() for n in notes.split(";") if n.strip()))  # each note once
     row = Calibration(team_id=team_id, part_kind=kind, part_id=part_id, parameters=parameters,
                       residual_rms=_clean(fit.residual_rms), residual_unit="relative", sample_count=fit.samples_used,
-                      run_ids=run_ids, notes=notes, engine_version=ENGINE_VERSION, active=True)
+                      run_ids=run_ids, notes=notes, engine_version=ENGINE_VERSION, active=True,
+                      covariance=covariance)
     session.add(row)
     return row
 
@@ -103,7 +115,9 @@ def _store_esc(session: Session, team_id: int, esc_id: int, fit: JointFit, run_i
     p = fit.esc.parameters
     params = {"k_pwm": _param(p["pwm_loss_coefficient"]), "r_on_path_ohm": _param(p["on_path_resistance_ohm"])}
     return _store(session, team_id=team_id, kind="escs", part_id=esc_id, parameters=params, fit=fit,
-                  run_ids=run_ids, notes="; ".join([notes, *fit.esc.notes]).strip("; "))
+                  run_ids=run_ids, notes="; ".join([notes, *fit.esc.notes]).strip("; "),
+                  covariance=_covariance(fit.esc, {"pwm_loss_coefficient": "k_pwm",
+                                                   "on_path_resistance_ohm": "r_on_path_ohm"}))
 
 
 def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, mfit: Any, run_ids: list[int],
@@ -120,7 +134,8 @@ def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, m
         if value["source"] == "start":  # a starting guess is not a measurement
             value["status"] = "fixed"
     return _store(session, team_id=team_id, kind="motors", part_id=motor_id, parameters=params, fit=mfit,
-                  run_ids=run_ids, notes="; ".join([notes, *mfit.notes]).strip("; "))
+                  run_ids=run_ids, notes="; ".join([notes, *mfit.notes]).strip("; "),
+                  covariance=_covariance(mfit, {"resistance_ohm": "winding_resistance_ohm"}))
 
 
 def _store_propeller(session: Session, team_id: int, prop_id: int, pfit: Any, run_ids: list[int],
@@ -135,7 +150,8 @@ def _store_propeller(session: Session, team_id: int, prop_id: int, pfit: Any, ru
         "status": "identified" if identified else "fixed", "unit": "", "source": "fit",
     }}
     return _store(session, team_id=team_id, kind="propellers", part_id=prop_id, parameters=params, fit=pfit,
-                  run_ids=run_ids, notes="; ".join([notes, *pfit.notes]).strip("; "))
+                  run_ids=run_ids, notes="; ".join([notes, *pfit.notes]).strip("; "),
+                  covariance=_covariance(pfit) if identified else None)
 
 
 def calibrate_part(session: Session, *, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
@@ -191,4 +207,4 @@ def calibration_dict(row: Calibration) -> dict[str, Any]:
     return {"id": row.id, "part_kind": row.part_kind, "part_id": row.part_id, "parameters": row.parameters,
             "residual_rms": row.residual_rms, "residual_unit": row.residual_unit, "sample_count": row.sample_count,
             "run_ids": row.run_ids, "notes": row.notes, "engine_version": row.engine_version, "active": row.active,
-            "created_at": row.created_at}
+            "created_at": row.created_at, "covariance": row.covariance}

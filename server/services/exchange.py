@@ -31,7 +31,7 @@ RUN_FIELDS = ["name", "altitude_m", "air_temperature_c", "air_pressure_pa", "thr
               "supply_voltage_v"]
 MAX_REPORTED = 200
 CALIBRATION_FIELDS = ["part_kind", "parameters", "residual_rms", "residual_unit", "sample_count", "notes",
-                      "engine_version", "active"]
+                      "engine_version", "active", "covariance"]
 
 
 def export(session: Session, *, team_id: int, team_name: str) -> dict[str, Any]:

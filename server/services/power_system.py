@@ -24,31 +24,22 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput, NotFound
 from server.models import Calibration, PartColumns
+from server.physics import priors
 from server.physics._types import as_float_array
 from server.physics.battery import CELL_VOLTAGES_V, PackParams, full_voltage_per_cell_v, nominal_voltage_per_cell_v
 from server.physics.esc import EscParams
-from server.physics.motor import DEFAULT_INDUCTANCE_H, MotorParams
+from server.physics.motor import MotorParams
 from server.physics.propeller import PropellerTable
 from server.services import parts as parts_service
 
 INCH_M = 0.0254
 FULL_VOLTAGE_PER_CELL_V = {chemistry: full for chemistry, (full, _) in CELL_VOLTAGES_V.items()}
-_ESC_DEFAULTS = EscParams()
-ESC_DEFAULTS: dict[str, float] = {
-    "r_on_path_ohm": float(_ESC_DEFAULTS.on_path_resistance_ohm),
-    "pwm_frequency_khz": float(_ESC_DEFAULTS.switching_frequency_hz) / 1e3,
-    "switching_time_ns": float(_ESC_DEFAULTS.transition_time_s) * 1e9,
-    "dead_time_ns": float(_ESC_DEFAULTS.dead_time_s) * 1e9,
-    "diode_drop_v": float(_ESC_DEFAULTS.body_diode_drop_v),
-    "input_esr_ohm": float(_ESC_DEFAULTS.input_esr_ohm),
-    "k_pwm": float(_ESC_DEFAULTS.pwm_loss_coefficient),
-}
-MOTOR_DEFAULTS: dict[str, float] = {"inductance_uh": DEFAULT_INDUCTANCE_H * 1e6}
+ESC_LOSS_FIELDS = [*priors.ESC_PRIORS, "k_pwm"]
+"""The ESC's loss parameters (each a part field; unstated ones take priors)."""
 BATTERY_DEFAULTS: dict[str, Any] = {"cells_parallel": 1, "chemistry": "lipo"}
-DEFAULTS: dict[str, Mapping[str, Any]] = {
-    "escs": ESC_DEFAULTS, "motors": MOTOR_DEFAULTS, "propellers": {}, "batteries": BATTERY_DEFAULTS,
-}
-"""What a part kind takes when neither the part, a calibration nor a request gives a value."""
+DEFAULTS: dict[str, Mapping[str, Any]] = {"batteries": BATTERY_DEFAULTS}
+"""Settings (not model parameters) a part takes when it states none; model parameters take priors instead
+(:mod:`server.physics.priors`)."""
 UNITS = {
     "r_on_path_ohm": "Ω", "pwm_frequency_khz": "kHz", "switching_time_ns": "ns", "dead_time_ns": "ns",
     "diode_drop_v": "V", "input_esr_ohm": "Ω", "k_pwm": "", "continuous_current_a": "A",
@@ -58,7 +49,7 @@ UNITS = {
     "supply_voltage_v": "V", "chemistry": "", "wiring_resistance_ohm": "Ω", "packs_in_parallel": "packs",
     "state_of_charge": "", "blades": "blades", "static_table": "", "forward_table": "",
 }
-ESC_FIELDS = [*ESC_DEFAULTS, "continuous_current_a"]
+ESC_FIELDS = [*ESC_LOSS_FIELDS, "continuous_current_a"]
 MOTOR_FIELDS = ["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh", "max_current_a"]
 PROP_FIELDS = ["diameter_in", "pitch_in", "blades", "ct", "cp", "static_table", "forward_table"]
 BATTERY_FIELDS = ["chemistry", "cells_series", "cells_parallel", "capacity_mah", "cell_resistance_mohm",
@@ -71,18 +62,27 @@ MODEL_FIELDS: dict[str, list[str]] = {
 
 @dataclass
 class Resolved:
-    """Merged values of one part and the source of each."""
+    """Merged values of one part: the source, standard uncertainty and origin of each model parameter."""
 
     kind: str
     values: dict[str, Any]
     sources: dict[str, str] = field(default_factory=dict)
     part_id: int | None = None
+    sd: dict[str, float] = field(default_factory=dict)
+    """Standard uncertainty of each model parameter, in the field's unit (0: exact)."""
+    origins: dict[str, str] = field(default_factory=dict)
+    """Where a prior or a calibrated value comes from (plain words)."""
+    covariance: dict[str, Any] | None = None
+    """The active calibration's covariance of its identified parameters: {names, matrix}."""
+    residual_rms: float | None = None
+    """The active calibration's relative residual (model against its own bench runs). [-]"""
 
     def report(self) -> dict[str, dict[str, Any]]:
         out = {}
         for name, value in self.values.items():
             if name in self.sources:
-                out[name] = {"value": value, "source": self.sources[name], "unit": UNITS.get(name, "")}
+                out[name] = {"value": value, "source": self.sources[name], "unit": UNITS.get(name, ""),
+                             "sd": self.sd.get(name), "origin": self.origins.get(name)}
         return out
 
     def require(self, names: list[str], where: str) -> None:
@@ -94,56 +94,120 @@ class Resolved:
                             "calibration can supply it)") for n in missing],
             )
 
-    def fill_defaults(self) -> Resolved:
-        """Give every still-missing parameter its kind's default (source ``default``)."""
+    @property
+    def assumed(self) -> list[str]:
+        """Model parameters that rest on a prior (not stated by the part, not measured)."""
+        return sorted(name for name, source in self.sources.items() if source == "prior")
+
+    def state(self, name: str, value: Any, source: str) -> None:
+        """A value stated by the part or the request: its datasheet uncertainty (not measured)."""
+        self.values[name], self.sources[name] = value, source
+        relative = priors.STATED_RELATIVE_SD.get(name)
+        if relative is not None and isinstance(value, int | float):
+            self.sd[name] = abs(float(value)) * relative
+        self.origins.pop(name, None)
+
+    def calibrate(self, row: Calibration) -> None:
+        """The identified parameters of an active calibration (standard errors, covariance, residual)."""
+        for name, p in row.parameters.items():
+            if p.get("status") != "identified" or name not in MODEL_FIELDS[self.kind]:
+                continue
+            self.values[name], self.sources[name] = p["value"], "calibrated"
+            stderr = p.get("stderr")
+            if isinstance(stderr, int | float):
+                self.sd[name] = float(stderr)
+            self.origins[name] = f"calibration {row.id} ({len(row.run_ids or [])} bench runs)"
+        self.covariance = row.covariance
+        self.residual_rms = row.residual_rms
+
+    def fill_priors(self, session: Session | None, team_id: int | None) -> Resolved:
+        """Every still-missing model parameter takes its prior (source ``prior``); other settings their default."""
+        table = {"escs": priors.ESC_PRIORS, "motors": priors.MOTOR_PRIORS}.get(self.kind, {})
+        for name, prior in table.items():
+            if self.values.get(name) is None:
+                self._assume(name, prior)
+        if self.kind == "escs" and self.values.get("k_pwm") is None:
+            self._assume("k_pwm", team_k_pwm_prior(session, team_id))
         for name, value in DEFAULTS.get(self.kind, {}).items():
             if self.values.get(name) is None:
                 self.values[name], self.sources[name] = value, "default"
         return self
 
+    def _assume(self, name: str, prior: priors.Prior) -> None:
+        self.values[name], self.sources[name] = prior.value, "prior"
+        self.sd[name], self.origins[name] = prior.sd_of(), prior.origin
 
-def calibrated_values(session: Session, *, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
-    """Identified parameters of the part's newest active calibration (fixed ones are not measurements)."""
-    row = session.scalar(
+
+def active_calibration(session: Session, *, team_id: int, kind: str, part_id: int) -> Calibration | None:
+    """The part's newest active calibration."""
+    return session.scalar(
         select(Calibration)
         .where(Calibration.team_id == team_id, Calibration.part_kind == kind, Calibration.part_id == part_id,
                Calibration.active.is_(True))
         .order_by(Calibration.created_at.desc(), Calibration.id.desc())
     )
-    if row is None:
-        return {}
-    return {name: p["value"] for name, p in row.parameters.items() if p.get("status") == "identified"}
 
 
-def from_part(session: Session, team_id: int, kind: str, part: PartColumns, fields: list[str],
-              use_calibration: bool = True) -> tuple[dict[str, Any], dict[str, str]]:
-    """A saved part's fields, with calibrated values replacing them (measured wins over entered)."""
-    values: dict[str, Any] = {}
-    sources: dict[str, str] = {}
-    for name in fields:
+def team_k_pwm_prior(session: Session | None, team_id: int | None) -> priors.Prior:
+    """k_pwm for an ESC without a bench run: the team's pooled fit over its calibrated ESCs, else the published one.
+
+    Pooled: the inverse-variance weighted mean of the ESCs' identified k_pwm; its uncertainty for a new ESC is the
+    spread between ESCs (their sample standard deviation from three calibrated ESCs on, else the published
+    between-setup spread) combined with the mean's own standard error. Cached per session.
+    """
+    if session is None or team_id is None:
+        return priors.K_PWM_PUBLISHED
+    cache = session.info.setdefault("k_pwm_prior", {})
+    if team_id in cache:
+        return cache[team_id]  # type: ignore[no-any-return]
+    rows = session.scalars(select(Calibration).where(Calibration.team_id == team_id, Calibration.part_kind == "escs",
+                                                     Calibration.active.is_(True)))
+    found: dict[int, tuple[float, float]] = {}
+    for row in rows:  # newest active per ESC
+        p = row.parameters.get("k_pwm") or {}
+        if p.get("status") == "identified" and isinstance(p.get("value"), int | float):
+            if row.part_id not in found or row.id > found[row.part_id][1]:
+                found[row.part_id] = (float(p["value"]), float(p.get("stderr") or 0.0))
+    if not found:
+        prior = priors.K_PWM_PUBLISHED
+    else:
+        values = np.array([v for v, _ in found.values()])
+        errors = np.array([max(e, 1e-6) for _, e in found.values()])
+        weights = 1.0 / errors**2
+        mean = float(np.sum(weights * values) / np.sum(weights))
+        spread = float(np.std(values, ddof=1)) if values.size >= 3 else priors.K_PWM_PUBLISHED.sd
+        sd = float(np.hypot(spread, 1.0 / np.sqrt(np.sum(weights))))
+        prior = priors.Prior(mean, sd, f"the team's pooled fit over {values.size} calibrated ESC"
+                                       f"{'s' if values.size > 1 else ''} (ids {', '.join(map(str, sorted(found)))})")
+    cache[team_id] = prior
+    return prior
+
+
+def _saved(session: Session, team_id: int, kind: str, part: PartColumns, use_calibration: bool,
+           extra_fields: list[str] | None) -> Resolved:
+    """What a saved part states, with its active calibration's identified values replacing them."""
+    resolved = Resolved(kind, {}, {}, part.id)
+    for name in MODEL_FIELDS[kind] + (extra_fields or []):
         value = getattr(part, name, None)
         if value is not None:
-            values[name], sources[name] = value, "part"
+            resolved.state(name, value, "part")
     if use_calibration:
-        for name, value in calibrated_values(session, team_id=team_id, kind=kind, part_id=part.id).items():
-            if name in fields:
-                values[name], sources[name] = value, "calibrated"
-    return values, sources
+        row = active_calibration(session, team_id=team_id, kind=kind, part_id=part.id)
+        if row is not None:
+            resolved.calibrate(row)
+    return resolved
 
 
 def resolve_part(session: Session, team_id: int, kind: str, part: PartColumns, *, use_calibration: bool = True,
                  extra_fields: list[str] | None = None) -> Resolved:
-    """A saved part's model parameters by the one rule of this module (part, calibration, default)."""
-    values, sources = from_part(session, team_id, kind, part, MODEL_FIELDS[kind] + (extra_fields or []),
-                                use_calibration)
-    return Resolved(kind, values, sources, part.id).fill_defaults()
+    """A saved part's model parameters by the one rule of this module (part, calibration, prior)."""
+    return _saved(session, team_id, kind, part, use_calibration, extra_fields).fill_priors(session, team_id)
 
 
 def resolve(session: Session | None, team_id: int | None, kind: str, given: BaseModel, where: str) -> Resolved:
-    """Saved part (when ``given.id``; calibration wins) overlaid with the request's fields, then defaults."""
-    values: dict[str, Any] = {}
-    sources: dict[str, str] = {}
+    """Saved part (when ``given.id``; calibration wins) overlaid with the request's fields, then priors."""
     part_id = getattr(given, "id", None)
+    resolved = Resolved(kind, {}, {}, part_id)
     if part_id is not None:
         if session is None or team_id is None:
             raise InvalidInput("Parts by id need a team", [FieldError(f"{where}.id", "no team context for ids")])
@@ -151,11 +215,11 @@ def resolve(session: Session | None, team_id: int | None, kind: str, given: Base
             part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
         except NotFound as exc:
             raise InvalidInput("Unknown part", [FieldError(f"{where}.id", str(exc))]) from None
-        values, sources = from_part(session, team_id, kind, part, MODEL_FIELDS[kind])
+        resolved = _saved(session, team_id, kind, part, True, None)
     for name, value in given.model_dump(exclude_unset=True, exclude={"id"}, mode="json").items():
         if value is not None:
-            values[name], sources[name] = value, "request"
-    return Resolved(kind, values, sources, part_id).fill_defaults()
+            resolved.state(name, value, "request")
+    return resolved.fill_priors(session, team_id)
 
 
 def esc_params(esc: Resolved) -> EscParams:

@@ -9,12 +9,13 @@ import numpy as np
 from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
-from server.physics import atmosphere, drive, endurance
-from server.physics._types import STANDARD_GRAVITY_M_S2, Status
-from server.physics.battery import PackParams
+from server.physics import atmosphere, drive, endurance, fast, uncertainty
+from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
+from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.physics.propeller import PropellerTable, tip_mach_number
 from server.schemas.predict import PredictRequest
+from server.services import bands
 from server.services import power_system as ps
 
 TIP_MACH_LIMIT = 0.7  # common practice, no source (docs/model-reference.md#propeller-typical-values)
@@ -214,19 +215,90 @@ def _state(point: OperatingPoint) -> dict[str, float | None]:
             "motor_current_a": _f(np.ravel(point.motor_current_a)[0])}
 
 
+def _drawn_kwargs(system: System, d: bands.Draws) -> dict[str, Any]:
+    """The solver arguments of ``system`` with every uncertain parameter replaced by its draws (axis 0)."""
+    kwargs = system.solve_kwargs() | {"motor": d.motor, "esc": d.esc,
+                                      "propeller": d.forward if system.airspeed > 0 else d.static}
+    if system.pack is not None:
+        pack = system.pack
+        kwargs["pack_resistance_ohm"] = (pack.cells_series * d.cell_resistance_ohm / pack.cells_parallel
+                                         + pack.wiring_resistance_ohm)
+    return kwargs
+
+
+def point_bands(system: System, kinds: list[str], values: np.ndarray, d: bands.Draws) -> list[dict[str, Any]]:
+    """The 80 % band of electrical power, thrust and motor current (per rotor) at every requested point."""
+    kinds_arr = np.array(kinds)
+    kwargs = _drawn_kwargs(system, d)
+    out: list[dict[str, Any]] = [{} for _ in kinds]
+    for kind, fn in (("throttle", drive.at_duty), ("thrust_n", drive.for_thrust), ("rpm", drive.at_rpm)):
+        mask = np.flatnonzero(kinds_arr == kind)
+        if not mask.size:
+            continue
+        op = fn(values[mask][None, :], **kwargs)
+        solved = np.isin(op.status, [Status.OK, Status.OVER_CURRENT])
+        for name, array in (("electrical_power_w", op.electrical_power_w * d.discrepancy),
+                            ("thrust_n", op.thrust_n), ("motor_current_a", op.motor_current_a)):
+            lo, hi = uncertainty.band(np.where(solved, array, np.nan), axis=0)
+            for j, i in enumerate(mask):
+                out[i][name] = [_f(lo[j]), _f(hi[j])]
+    return [{"level": uncertainty.BAND_LEVEL, **b} for b in out]
+
+
+def endurance_band(system: System, d: bands.Draws) -> list[float | None] | None:
+    """The 80 % band of the endurance [min] over the same draws (constant thrust or constant power)."""
+    spec = system.request.endurance
+    if spec is None or system.pack is None:
+        return None
+    p = system.pack
+    samples = d.samples
+    k = float(system.request.battery.packs_in_parallel)
+    pack = PackParams(cells_series=np.full(samples, float(p.cells_series)), capacity_ah=d.capacity_ah.ravel() * k,
+                      cell_resistance_ohm=d.cell_resistance_ohm.ravel(),
+                      cells_parallel=np.full(samples, float(p.cells_parallel)),
+                      wiring_resistance_ohm=p.wiring_resistance_ohm, full_voltage_per_cell_v=p.full_voltage_per_cell_v,
+                      usable_fraction=as_float_array(spec.usable_fraction),
+                      cutoff_voltage_per_cell_v=as_float_array(spec.cutoff_v_per_cell),
+                      peukert_exponent=as_float_array(spec.peukert_exponent))
+    start_soc = system.request.battery.state_of_charge
+    if spec.power_w is not None:
+        minutes = endurance.constant_power(spec.power_w, pack=pack, initial_state_of_charge=start_soc).time_s / 60
+    else:
+        assert spec.thrust_n is not None
+        nodes = fast.constant_thrust_nodes(start_soc, pack, (samples,))
+        voc = pack.cells_series[:, None] * open_circuit_voltage_per_cell_v(nodes, pack.full_voltage_per_cell_v)
+        kwargs = _drawn_kwargs(system, d) | {"open_circuit_voltage_v": voc}
+        kwargs["pack_resistance_ohm"] = np.asarray(pack.resistance_ohm)[:, None]
+        op = drive.for_thrust(spec.thrust_n, **kwargs)
+        reachable = ~np.isin(op.status, [Status.INFEASIBLE_THRUST, Status.NO_SOLUTION, Status.POWER_LIMIT])
+        result = fast.march_constant_thrust(nodes, op.pack_current_a * d.discrepancy, op.bus_voltage_v, op.duty,
+                                            reachable, op.status == Status.NON_FINITE, pack=pack)
+        minutes = result.time_s / 60
+    lo, hi = uncertainty.band(minutes, axis=0)
+    return [_f(lo), _f(hi)]
+
+
 def predict(session: Session | None, team_id: int | None, request: PredictRequest) -> dict[str, Any]:
-    """Operating points (request order) and optional endurance for one power system."""
+    """Operating points (request order) and optional endurance for one power system, with their 80 % bands."""
     system = System(session, team_id, request)
     kinds = [p.kind for p in request.points]
     values = np.array([getattr(p, p.kind) for p in request.points], dtype=float)
     op = solve_points(system, kinds, values)
     points = [_point(system, op, i, {kinds[i]: float(values[i])}) for i in range(len(kinds))]
+    d = bands.draws(system.system)
+    for point, b in zip(points, point_bands(system, kinds, values, d), strict=True):
+        point["bands"] = b
     warnings = sorted({w for p in points for w in p["warnings"]})
+    result = _endurance(system)
+    if result is not None:
+        result["minutes_band"] = endurance_band(system, d)
     return {
         "air_density_kg_m3": system.density,
         "points": points,
-        "endurance": _endurance(system),
+        "endurance": result,
         "parameters": system.parameters(),
+        "assumed": {kind: r.assumed for kind, r in (("battery", system.battery), ("esc", system.esc),
+                                                    ("motor", system.motor), ("propeller", system.prop))},
         "warnings": warnings,
     }
 

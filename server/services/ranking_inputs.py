@@ -38,7 +38,7 @@ PART_FIELDS = {
         "continuous_current_a",
         "min_cells",
         "max_cells",
-        *ps.ESC_DEFAULTS,
+        *ps.ESC_LOSS_FIELDS,
     ],
     "motors": [
         "name",

@@ -316,3 +316,30 @@ def test_a_reversed_load_cell_is_named_and_thrust_sign_flips_it(
     assert detail["run"]["thrust_sign"] == -1
     assert detail["samples"][-1]["thrust_n"] == 2.3087  # stored corrected: the published -2.3087 N, flipped
     assert all(s["thrust_coefficient"] > 0 for s in detail["samples"] if s["flag"] is None)
+
+
+def test_prediction_bands_shrink_as_bench_runs_are_added(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]]
+) -> None:
+    """Published sweeps (bench-5in, Cao & Strawson 2018): before any bench run the prediction rests on stated values
+    (datasheet-like R, I0 and coefficients, the Kv label) and the ESC's k_pwm prior; once the sweeps are calibrated
+    the 80 % band of the predicted power is much narrower."""
+    team, ids = stand
+    h = team.headers()
+    stated = {"motor": {"id": ids["motor"], "winding_resistance_ohm": 0.09, "no_load_current_a": 0.8},
+              "propeller": {"id": ids["prop"], "ct": 0.13, "cp": 0.07}}
+    request = {"battery": {"supply_voltage_v": 11.1}, "esc": {"id": ids["esc"]}, "motor": {"id": ids["motor"]},
+               "propeller": {"id": ids["prop"]}, "points": [{"thrust_n": 3.0}]}
+
+    def width(body: dict[str, Any]) -> float:
+        response = client.post("/api/v1/predict", json=body, headers=h)
+        assert response.status_code == 200, response.text
+        point = response.json()["points"][0]
+        lo, hi = point["bands"]["electrical_power_w"]
+        assert lo <= point["electrical_power_w"] <= hi
+        return float((hi - lo) / point["electrical_power_w"])
+
+    before = width(request | stated)
+    upload_sweeps(client, team, ids)
+    after = width(request)
+    assert after < 0.5 * before, (before, after)

@@ -22,7 +22,10 @@ from tests.factories import TeamFixture, make_team, part_payload
 # MOT check-case motor (Kv 920, R 0.10 Ω, I0 0.5 A) and 10x7 propeller (CT 0.1564, CP 0.0763, D 0.254 m).
 MOTOR = {"kv_rpm_per_v": 920, "winding_resistance_ohm": 0.1, "no_load_current_a": 0.5, "inductance_uh": 1e5}
 PROP = {"diameter_in": 10, "pitch_in": 7, "ct": 0.1564, "cp": 0.0763}
-LOSSLESS_ESC = {"r_on_path_ohm": 0, "switching_time_ns": 0, "dead_time_ns": 0, "diode_drop_v": 0, "input_esr_ohm": 0}
+# The OP and BAT check cases leave out every partial-throttle term, the calibrated one too: k_pwm = 0 is stated (an
+# ESC that states nothing would take the k_pwm prior, docs/model-reference.md#uncertainty).
+LOSSLESS_ESC = {"r_on_path_ohm": 0, "switching_time_ns": 0, "dead_time_ns": 0, "diode_drop_v": 0, "input_esr_ohm": 0,
+                "k_pwm": 0}
 ESC_DEFAULTS_CASE = {"r_on_path_ohm": 0.010, "pwm_frequency_khz": 24, "switching_time_ns": 200, "dead_time_ns": 500,
                      "diode_drop_v": 0.8, "input_esr_ohm": 0.02, "k_pwm": 0}
 
@@ -178,10 +181,16 @@ def test_saved_parts_by_id_with_overrides_and_sources(client: TestClient, team: 
     out = api(client, team, request(motor={"id": motor["id"], "no_load_current_a": 0.7},
                                     propeller={"id": prop["id"]}, esc={}))
     params = out["parameters"]
-    assert params["motor"]["kv_rpm_per_v"] == {"value": 920, "source": "part", "unit": "rpm/V"}
+    # stated on the part, not measured: the Kv label's spread (15 %, the same as the calibration's Kv prior)
+    assert params["motor"]["kv_rpm_per_v"] == {"value": 920, "source": "part", "unit": "rpm/V",
+                                               "sd": pytest.approx(0.15 * 920), "origin": None}
     assert params["motor"]["no_load_current_a"]["source"] == "request"
-    assert params["motor"]["inductance_uh"]["source"] == "default"
-    assert params["esc"]["pwm_frequency_khz"] == {"value": 24.0, "source": "default", "unit": "kHz"}
+    assert params["motor"]["inductance_uh"]["source"] == "prior"
+    frequency = params["esc"]["pwm_frequency_khz"]
+    assert (frequency["value"], frequency["source"], frequency["unit"]) == (24.0, "prior", "kHz")
+    assert frequency["sd"] > 0 and "from memory" in frequency["origin"]
+    k_pwm = params["esc"]["k_pwm"]  # no bench run, and the team has calibrated no ESC: the published prior
+    assert k_pwm["source"] == "prior" and k_pwm["value"] == pytest.approx(0.4655) and "5-inch" in k_pwm["origin"]
     assert params["propeller"]["static_table"]["source"] == "part"
     other = make_team(client.app, "Other")  # type: ignore[arg-type]
     response = client.post("/api/v1/predict", json=request(motor={"id": motor["id"]}), headers=other.headers())

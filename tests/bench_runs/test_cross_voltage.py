@@ -30,6 +30,7 @@ reference-model defaults (docs/model-reference.md#esc: every physical term at it
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 
@@ -65,6 +66,7 @@ class CrossVoltage:
         return float(np.quantile(np.abs(self.errors), 0.9))
 
 
+@functools.lru_cache(maxsize=2)  # shared with test_priors_and_bands.py within one run
 def cross_voltage(fit_pwm_loss: bool) -> CrossVoltage:
     tests = {k: t for k, t in load_tests().items() if not excluded(t)}
     held_out = sorted({t.motor_id for t in tests.values() if t.supply_nominal_v > 10.0})

@@ -30,7 +30,7 @@ def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
     assert shown_power == f"{api['points'][1]['electrical_power_w']:.3g}".replace(",", "")
     assert soup.select_one("#predict-chart-data") is not None and soup.select_one("#chart-curves") is not None
     sources = {r.select("td")[1].text: r.select("td")[3].text.strip() for r in soup.select("#parameters tbody tr")}
-    assert sources["kv_rpm_per_v"] == "part" and sources["k_pwm"] == "default"
+    assert sources["kv_rpm_per_v"] == "part" and sources["k_pwm"] == "prior"
     fragment = client.get("/predict", params=params, headers={"HX-Request": "true"})
     assert "<html" not in fragment.text and 'id="predict-results"' in fragment.text
 

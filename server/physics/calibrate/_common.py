@@ -12,13 +12,14 @@ from scipy.optimize import least_squares
 from .._types import FloatArray, as_float_array
 from ..esc import EscParams
 from ..motor import DEFAULT_INDUCTANCE_H, MotorParams
+from ..priors import STATED_RELATIVE_SD
 from ..propeller import PropellerTable
 
 MAX_RELATIVE_STANDARD_ERROR = 0.3
 """A parameter whose data-only standard error exceeds this fraction of its value is not identified."""
-KV_PRIOR_RELATIVE_SIGMA = 0.15
+KV_PRIOR_RELATIVE_SIGMA = STATED_RELATIVE_SD["kv_rpm_per_v"]
 """Spread of the Kv label around the true Kv (labels are nominal). [-]"""
-DATASHEET_RELATIVE_SIGMA = 0.5
+DATASHEET_RELATIVE_SIGMA = STATED_RELATIVE_SD["winding_resistance_ohm"]
 """Spread given to datasheet R and I0 when used as priors. [-]"""
 POWER_SIGMA = (0.02, 0.2)
 """(relative, absolute [W]) noise scale of the electrical-power residual."""
@@ -60,6 +61,9 @@ class FitReport:
     residual_rms: float
     samples_used: int
     notes: tuple[str, ...] = ()
+    covariance: tuple[tuple[str, ...], FloatArray] | None = None
+    """(names, matrix): covariance of the identified parameters named (units of the parameters); None when the
+    fit gives none. Fixed parameters are not in it."""
 
     def value(self, name: str) -> float:
         return self.parameters[name].value
@@ -161,7 +165,9 @@ class MotorPrior:
 
 # --- least squares ---------------------------------------------------------------------------------------
 
-def _linear_fit(design: FloatArray, target: FloatArray, sigma: FloatArray) -> tuple[FloatArray, FloatArray, float]:
+def _linear_fit(design: FloatArray, target: FloatArray,
+                sigma: FloatArray) -> tuple[FloatArray, FloatArray, float, FloatArray]:
+    """Weighted linear least squares: (coefficients, standard errors, RMS of the weighted residual, covariance)."""
     a, b = design / sigma[:, None], target / sigma
 
     def residual(c: FloatArray) -> FloatArray:
@@ -169,11 +175,21 @@ def _linear_fit(design: FloatArray, target: FloatArray, sigma: FloatArray) -> tu
 
     start = np.linalg.lstsq(a, b, rcond=None)[0]
     sol = least_squares(residual, start, jac=lambda c: a, method="lm")
-    return sol.x, _standard_errors(sol.jac, sol.fun, a.shape[1]), float(np.sqrt(np.mean(sol.fun**2)))
+    se, cov = _covariance(sol.jac, sol.fun, a.shape[1])
+    return sol.x, se, float(np.sqrt(np.mean(sol.fun**2))), cov
 
 
 def _standard_errors(jac: FloatArray, resid: FloatArray, p: int, groups: np.ndarray | None = None) -> FloatArray:
-    """``sqrt(diag(s^2 (J^T J)^+))``, ``s^2 = SS/(m - p)``; infinite for parameters in the null space of J.
+    """``sqrt(diag(s^2 (J^T J)^+))``, ``s^2 = SS/(m - p)``; infinite for parameters in the null space of J."""
+    return _covariance(jac, resid, p, groups)[0]
+
+
+def _covariance(jac: FloatArray, resid: FloatArray, p: int,
+                groups: np.ndarray | None = None) -> tuple[FloatArray, FloatArray]:
+    """Standard errors and the covariance ``s^2 (J^T J)^+`` of least-squares parameters (units of the parameters).
+
+    Standard errors are infinite for parameters in the null space of J (their covariance rows are then
+    meaningless: callers fix such parameters).
 
     With ``groups`` (a label per residual row), each kind of residual gets its own ``s_g^2`` (same
     ``m/(m - p)`` correction) and the covariance is ``A^+ (sum_g s_g^2 J_g^T J_g) A^+`` with ``A = J^T J``,
@@ -183,7 +199,7 @@ def _standard_errors(jac: FloatArray, resid: FloatArray, p: int, groups: np.ndar
     m = resid.size
     s2 = float(resid @ resid) / max(m - p, 1)
     if j.size == 0:
-        return np.full(j.shape[1], np.inf)
+        return np.full(j.shape[1], np.inf), np.full((j.shape[1], j.shape[1]), np.nan)
     # column-normalise so that the rank test does not depend on the parameters' units
     norms = np.linalg.norm(j, axis=0)
     scaled = j / np.where(norms > 0.0, norms, 1.0)
@@ -203,4 +219,4 @@ def _standard_errors(jac: FloatArray, resid: FloatArray, p: int, groups: np.ndar
         cov = cov @ meat @ cov
     se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
     unidentified = (norms == 0.0) | (np.max(np.abs(null), axis=0) > 1e-6 if null.size else False)
-    return np.where(unidentified, np.inf, se)
+    return np.asarray(np.where(unidentified, np.inf, se), dtype=np.float64), np.asarray(cov, dtype=np.float64)

@@ -7,6 +7,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
+import scipy.linalg
 from scipy.optimize import least_squares
 from scipy.sparse import lil_matrix
 
@@ -30,6 +31,7 @@ from ._common import (
     MotorPrior,
     PropellerFit,
     RunData,
+    _covariance,
     _standard_errors,
 )
 from .propeller import _hat, _knots, fit_propeller_static
@@ -258,6 +260,7 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
 
     notes: list[str] = []
     se = np.zeros(len(problem.params))
+    cov = np.zeros((len(problem.params), len(problem.params)))
     for _ in range(len(problem.params)):
         free = [k for k, q in enumerate(problem.params) if q.free]
         x, jac, fun = problem.solve()
@@ -268,9 +271,11 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
         data_rows = fun.size - n_prior
         groups = np.concatenate([problem.row_groups(), np.full(n_prior, 3)])
         se_data = _standard_errors(jac[:data_rows], fun[:data_rows], len(free), groups[:data_rows])
-        se_all = _standard_errors(jac, fun, len(free), groups)
+        se_all, cov_all = _covariance(jac, fun, len(free), groups)
         se[:] = 0.0
         se[free] = se_all
+        cov[:] = 0.0
+        cov[np.ix_(free, free)] = cov_all
         with np.errstate(divide="ignore", invalid="ignore"):
             relative = se_data / np.abs(x)
         offenders = [(k, rel) for k, rel in zip(free, relative, strict=True)
@@ -289,10 +294,17 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
         free_after = [q for q in problem.params if q.free]
         if not free_after:
             break
-    return _assemble(problem, se, thrust_fits, fixed_propellers, esc, notes)
+    return _assemble(problem, se, cov, thrust_fits, fixed_propellers, esc, notes)
 
 
-def _assemble(problem: _PooledProblem, se: FloatArray, thrust_fits: Mapping[str, PropellerFit],
+def _block(problem: _PooledProblem, cov: FloatArray, names: Mapping[str, str]) -> tuple[tuple[str, ...], FloatArray]:
+    """The covariance of the identified parameters among ``names`` (registry name -> name in the part's fit)."""
+    keep = [(problem.index(reg), short) for reg, short in names.items() if problem.params[problem.index(reg)].free]
+    idx = [i for i, _ in keep]
+    return tuple(short for _, short in keep), cov[np.ix_(idx, idx)]
+
+
+def _assemble(problem: _PooledProblem, se: FloatArray, cov: FloatArray, thrust_fits: Mapping[str, PropellerFit],
               fixed_propellers: Mapping[str, PropellerTable], esc: EscParams, notes: list[str]) -> JointFit:
     def fitted(k: int) -> FittedParameter:
         q = problem.params[k]
@@ -310,23 +322,28 @@ def _assemble(problem: _PooledProblem, se: FloatArray, thrust_fits: Mapping[str,
         motor_notes = tuple(n for n in notes if n.startswith(f"{mid}:"))
         if not np.any(problem.known_duty & sel):
             motor_notes += ("no full-throttle (d = 1) samples: Kv and R rest on the power equation alone",)
-        motors[mid] = MotorFit(params, _relative_rms(power[sel], measured[sel]), int(np.sum(sel)), motor_notes)
+        motors[mid] = MotorFit(params, _relative_rms(power[sel], measured[sel]), int(np.sum(sel)), motor_notes,
+                               _block(problem, cov, {f"{mid}:{attr}": attr for attr in _MOTOR_UNITS}))
     propellers = {}
     for k, pid in enumerate(problem.prop_ids):
         sel = problem.p == k
         if pid in fixed_propellers:
             t = fixed_propellers[pid]
             propellers[pid] = PropellerFit({}, math.nan, int(np.sum(sel)), ("given table, not refitted",),
-                                           float(t.diameter_m), t.axis_values, t.thrust_coefficient,
-                                           t.power_coefficient)
+                                           diameter_m=float(t.diameter_m), rpm=t.axis_values,
+                                           thrust_coefficient=t.thrust_coefficient,
+                                           power_coefficient=t.power_coefficient)
             continue
         ct_fit = thrust_fits[pid]
         cols = [problem.index(f"{pid}:cp[{j}]") for j in range(problem.knots[k].size)]
         params = dict(ct_fit.parameters) | {f"cp[{j}]": fitted(c) for j, c in enumerate(cols)}
         how = ("CP from torque and electrical power" if np.any(np.isfinite(problem.torque[sel]))
                else "no torque: CP identified jointly with the motor losses from electrical power")
+        cp_names, cp_cov = _block(problem, cov, {f"{pid}:cp[{j}]": f"cp[{j}]" for j in range(problem.knots[k].size)})
+        ct_names, ct_cov = ct_fit.covariance or ((), np.zeros((0, 0)))
         propellers[pid] = replace(ct_fit, parameters=params, power_coefficient=full[cols],
-                                  notes=ct_fit.notes[:1] + (how,))
+                                  notes=ct_fit.notes[:1] + (how,),
+                                  covariance=(ct_names + cp_names, scipy.linalg.block_diag(ct_cov, cp_cov)))
     esc_params = {name: fitted(problem.index(f"esc:{name}"))
                   for name in ("pwm_loss_coefficient", "on_path_resistance_ohm")}
     esc_notes = tuple(n for n in notes if n.startswith("esc:"))
@@ -335,11 +352,12 @@ def _assemble(problem: _PooledProblem, se: FloatArray, thrust_fits: Mapping[str,
                      "(the motors' R' include the ESC path)",)
     partial = problem.duty < 1.0
     esc_fit = EscFit(esc_params, _relative_rms(power[partial], measured[partial]), int(np.sum(partial)), esc_notes,
+                     _block(problem, cov, {f"esc:{n}": n for n in ("pwm_loss_coefficient", "on_path_resistance_ohm")}),
                      base=esc)
     everything = {f"{mid}:{a}": p for mid, m in motors.items() for a, p in m.parameters.items()}
     everything |= {f"esc:{a}": p for a, p in esc_params.items()}
-    return JointFit(everything, _relative_rms(power, measured), int(measured.size), tuple(notes), motors,
-                    propellers, esc_fit)
+    return JointFit(everything, _relative_rms(power, measured), int(measured.size), tuple(notes), motors=motors,
+                    propellers=propellers, esc=esc_fit)
 
 
 def fit_joint(runs: Sequence[RunData], *, esc: EscParams | None = None,

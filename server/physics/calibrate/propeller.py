@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import scipy.linalg
 
 from .._types import ArrayLike, FloatArray, as_float_array
 from ._common import THRUST_SIGMA_RELATIVE, TORQUE_SIGMA, FittedParameter, PropellerFit, _linear_fit
@@ -63,16 +64,21 @@ def fit_propeller_static(rpm: ArrayLike, thrust_n: ArrayLike, density_kg_m3: Arr
     basis = _hat(speed, knots)
     t_scale = rho * n**2 * diameter_m**4
     floor = 0.02 * float(np.max(np.abs(thrust)))
-    ct, ct_se, _ = _linear_fit(basis * t_scale[:, None], thrust, THRUST_SIGMA_RELATIVE * np.abs(thrust) + floor)
+    ct, ct_se, _, ct_cov = _linear_fit(basis * t_scale[:, None], thrust, THRUST_SIGMA_RELATIVE * np.abs(thrust)
+                                       + floor)
     params = {f"ct[{k}]": FittedParameter(float(ct[k]), float(ct_se[k]), "identified", "-")
               for k in range(knots.size)}
     cp = np.full(knots.size, np.nan)
+    names = [f"ct[{k}]" for k in range(knots.size)]
+    blocks = [ct_cov]
     notes = [f"{knots.size} rpm knots between {knots[0]:.0f} and {knots[-1]:.0f} rpm"]
     if torque_nm is not None:
         torque = as_float_array(torque_nm).ravel()
         q_scale = rho * n**2 * diameter_m**5 / (2.0 * math.pi)
         sigma = TORQUE_SIGMA[0] * np.abs(torque) + max(TORQUE_SIGMA[1], 0.02 * float(np.max(np.abs(torque))))
-        cp, cp_se, _ = _linear_fit(basis * q_scale[:, None], torque, sigma)
+        cp, cp_se, _, cp_cov = _linear_fit(basis * q_scale[:, None], torque, sigma)
+        names += [f"cp[{k}]" for k in range(knots.size)]
+        blocks.append(cp_cov)
         params |= {f"cp[{k}]": FittedParameter(float(cp[k]), float(cp_se[k]), "identified", "-")
                    for k in range(knots.size)}
     else:
@@ -82,4 +88,5 @@ def fit_propeller_static(rpm: ArrayLike, thrust_n: ArrayLike, density_kg_m3: Arr
         rel = np.where(thrust > 0.0, predicted / thrust - 1.0, np.nan)
     return PropellerFit(parameters=params, residual_rms=float(np.sqrt(np.nanmean(rel**2))),
                         samples_used=int(speed.size), notes=tuple(notes), diameter_m=float(diameter_m),
-                        rpm=knots, thrust_coefficient=ct, power_coefficient=cp)
+                        rpm=knots, thrust_coefficient=ct, power_coefficient=cp,
+                        covariance=(tuple(names), scipy.linalg.block_diag(*blocks)))
