@@ -8,7 +8,10 @@ The model, its sources and its check cases are documented in docs/model-referenc
 
 from ._types import FloatArray, Status
 
-ENGINE_VERSION = "1.0-ref-v1"
-"""Version of the engine's numbers; stored with every ranking, calibration and shortlist snapshot."""
+ENGINE_VERSION = "1.1-ref-v1"
+"""Version of the engine's numbers; stored with every ranking, calibration and shortlist snapshot.
+
+1.1: priors instead of zeros for unmeasured parameters (k_pwm above all), fitted CP knots held at or above the
+momentum limit, ties broken in favour of measured parts, bands on predictions and ranking rows."""
 
 __all__ = ["ENGINE_VERSION", "FloatArray", "Status"]

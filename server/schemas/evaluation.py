@@ -61,6 +61,9 @@ class RankedCruise(Result):
     shaft_power_w: float | None = Field(default=None, description="Shaft power per rotor [W]")
     state_of_charge: float | None = Field(default=None, description="Pack state of charge of this point [-]")
     losses: LossBreakdown = Field(default_factory=lambda: LossBreakdown())
+    electrical_power_w_band: list[float] | None = Field(
+        default=None, description="80 % band [10th, 90th percentile] of the craft's electrical power [W]")
+    specific_thrust_g_per_w_band: list[float] | None = Field(default=None, description="80 % band of g/W")
 
 
 class RankedFullThrottle(Result):
@@ -72,6 +75,16 @@ class RankedFullThrottle(Result):
     bus_current_a: float | None = Field(default=None, description="Pack current, whole craft, full pack [A]")
     bus_voltage_v: float | None = Field(default=None, description="Bus voltage, full pack [V]")
     rpm: float | None = Field(default=None, description="Shaft speed, full pack [rpm]")
+    thrust_to_weight_band: list[float] | None = Field(default=None, description="80 % band of thrust ÷ weight")
+
+
+class RowAssumptions(Result):
+    """Model parameters of each part that rest on a prior (neither stated on the part nor measured)."""
+
+    battery: list[str] = Field(default_factory=list)
+    esc: list[str] = Field(default_factory=list)
+    motor: list[str] = Field(default_factory=list)
+    propeller: list[str] = Field(default_factory=list)
 
 
 class RankedCandidate(Result):
@@ -96,6 +109,15 @@ class RankedCandidate(Result):
     cells_series: int | None = None
     pareto: bool = False
     result_id: int | None = None
+    endurance_min_band: list[float] | None = Field(default=None, description="80 % band of the endurance [min]")
+    indistinguishable_from_best: bool | None = Field(
+        default=None, description="The objective's 80 % band overlaps rank 1's: the data cannot tell them apart "
+                                  "(mass and cost: equal values). None without bands or rank")
+    feasible_share: float | None = Field(
+        default=None, description="Share of the uncertainty draws in which the system passes every limit [-]")
+    assumed_share: float | None = Field(
+        default=None, description="Width of the cruise-power band with only priors varied ÷ its full width [-]")
+    assumed: RowAssumptions | None = Field(default=None, description="Parameters resting on priors, per part")
 
 
 class EvaluatedCruise(Result):

@@ -96,6 +96,9 @@ class PackLibrary:
     max_continuous_c: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
+    assumed: np.ndarray | None = None
+    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
+    otherwise equal candidates go to the better-measured part. None: all measured alike."""
 
     def __post_init__(self) -> None:
         _freeze(self)
@@ -150,6 +153,9 @@ class EscLibrary:
     pwm_loss_coefficient: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
+    assumed: np.ndarray | None = None
+    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
+    otherwise equal candidates go to the better-measured part. None: all measured alike."""
     constants: EscConstants = field(init=False, repr=False, compare=False)
     """The loss-term constants of every ESC, combined once (:class:`server.physics.esc.EscConstants`)."""
 
@@ -225,6 +231,9 @@ class MotorLibrary:
     max_cells: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
+    assumed: np.ndarray | None = None
+    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
+    otherwise equal candidates go to the better-measured part. None: all measured alike."""
 
     def __post_init__(self) -> None:
         _freeze(self)
@@ -272,6 +281,9 @@ class PropellerLibrary:
     forward: PropellerTable | None
     mass_kg: np.ndarray
     cost: np.ndarray
+    assumed: np.ndarray | None = None
+    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
+    otherwise equal candidates go to the better-measured part. None: all measured alike."""
 
     def __post_init__(self) -> None:
         _freeze(self, skip=("ids", "static", "forward"))

@@ -27,9 +27,11 @@ SCREEN_SHARE = 0.9
 
 
 def _id_ranks(library: PartsLibrary) -> tuple[np.ndarray, ...]:
+    """Per part kind, each part's tie-break position: parts with fewer assumed parameters first, then by id."""
     ranks = []
     for part in (library.packs, library.escs, library.motors, library.propellers):
-        order = np.argsort(part.ids, kind="stable")
+        assumed = np.zeros(len(part.ids)) if part.assumed is None else part.assumed
+        order = np.lexsort((part.ids, assumed))
         rank = np.empty(len(order), dtype=np.intp)
         rank[order] = np.arange(len(order))
         ranks.append(rank)
@@ -125,7 +127,8 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
         Airframe and mission (rotor count, masses, limits, flight condition).
     objective : {"cruise_power", "endurance", "specific_thrust", "mass", "cost"}
         Lowest craft electrical power at the cruise point, longest endurance, best g/W, lowest all-up mass,
-        lowest cost. Ties fall to the other metrics in that order (after thrust-to-weight), then part ids.
+        lowest cost. Ties fall to the other metrics in that order (after thrust-to-weight), then to the parts
+        with fewer assumed (prior) parameters, then part ids.
     top_n : int, default 50
         Rows to return; these are refined by the discharge simulation and re-ranked with it.
     chunk_size : int

@@ -74,9 +74,10 @@ def primary_key(cs: CandidateSet, objective: str) -> np.ndarray:
 
 
 def ranking_order(cs: CandidateSet, objective: str, id_ranks: tuple[np.ndarray, ...]) -> np.ndarray:
-    """Order of ``cs`` by the objective, then the other metrics, then part ids (a total, deterministic order).
+    """Order of ``cs`` by the objective, then the other metrics, then parts (fewer assumed parameters first, then
+    id; ``id_ranks``) — a total, deterministic order.
 
-    ``id_ranks`` holds, per part kind (pack, ESC, motor, propeller), each part's position in id order.
+    ``id_ranks`` holds, per part kind (pack, ESC, motor, propeller), each part's tie-break position.
     """
     keys = [primary_key(cs, objective)]
     keys += [primary_key(cs, name) for name, _, _ in _METRIC_ORDER if name != objective]

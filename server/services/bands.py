@@ -90,20 +90,61 @@ def _table_draws(resolved: Resolved, key: str, rows: tuple[list[float], list[flo
     return (scale["ct_scale"][:, None] * np.asarray(ct)[None, :], scale["cp_scale"][:, None] * np.asarray(cp)[None, :])
 
 
-def draws(system: PowerSystem, samples: int = uncertainty.DEFAULT_SAMPLES, *,
-          vary: tuple[str, ...] = VARIED_SOURCES, seed: int = uncertainty.SEED) -> Draws:
+@dataclass(frozen=True)
+class DrawnValues:
+    """Sampled values of one power system's uncertain parameters, in the parts' own fields and units.
+
+    ``parts`` maps a part kind (``batteries``, ``escs``, ``motors``) to field -> array of shape (S,); ``tables``
+    maps ``static_table``/``forward_table`` to (axis values, CT (S, K), CP (S, K)) in the table's row order, or
+    None for a table the propeller does not have.
+    """
+
+    parts: dict[str, dict[str, FloatArray]]
+    tables: dict[str, tuple[list[float], FloatArray, FloatArray] | None]
+    discrepancy: FloatArray
+    """Multiplicative model-discrepancy factor on electrical power (and currents), shape (S,). [-]"""
+
+    @property
+    def samples(self) -> int:
+        return int(self.discrepancy.shape[0])
+
+
+def drawn_values(system: PowerSystem, samples: int = uncertainty.DEFAULT_SAMPLES, *,
+                 vary: tuple[str, ...] = VARIED_SOURCES, seed: int = uncertainty.SEED) -> DrawnValues:
     """``samples`` draws of every uncertain parameter of ``system`` (only those whose source is in ``vary``).
 
     Draws with the same seed and fewer varied sources share their random numbers, so comparing ``vary`` settings
     shows what each kind of value contributes.
     """
     rng = uncertainty.generator(seed)
-    col = (samples, 1)
     m = _part_draws(system.motor, MOTOR_FIELDS, samples, rng, vary,
                     frozenset({"kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh"}))
     e = _part_draws(system.esc, ESC_LOSS_FIELDS, samples, rng, vary, frozenset(priors.ESC_PRIORS))
     b = _part_draws(system.battery, ["cell_resistance_mohm", "capacity_mah"], samples, rng, vary,
                     frozenset({"cell_resistance_mohm", "capacity_mah"}))
+    tables: dict[str, tuple[list[float], FloatArray, FloatArray] | None] = {}
+    for key in ("static_table", "forward_table"):
+        rows = table_rows(system.propeller.values, key)
+        if rows is None:
+            tables[key] = None
+            continue
+        ct, cp = _table_draws(system.propeller, key, rows, samples, rng, vary)
+        tables[key] = (list(rows[0]), ct, cp)
+    # The electrical-power residuals of the calibrations (a propeller's is a thrust residual: not this quantity).
+    residuals = [r.residual_rms for r in (system.esc, system.motor) if r.residual_rms]
+    discrepancy_sd = max(residuals) if residuals else priors.MODEL_DISCREPANCY_RELATIVE
+    if not any(s in vary for s in ("part", "request", "calibrated")):
+        discrepancy_sd = 0.0  # only priors vary: the share of the band that rests on assumptions
+    return DrawnValues(parts={"motors": m, "escs": e, "batteries": b}, tables=tables,
+                       discrepancy=uncertainty.discrepancy(samples, discrepancy_sd, rng))
+
+
+def draws(system: PowerSystem, samples: int = uncertainty.DEFAULT_SAMPLES, *,
+          vary: tuple[str, ...] = VARIED_SOURCES, seed: int = uncertainty.SEED) -> Draws:
+    """The draws of :func:`drawn_values` as the physics engine's parameter objects (leading sample axis)."""
+    drawn = drawn_values(system, samples, vary=vary, seed=seed)
+    col = (samples, 1)
+    m, e, b = drawn.parts["motors"], drawn.parts["escs"], drawn.parts["batteries"]
     system.motor.require(["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a"], "motor")
     motor = MotorParams(kv_rpm_per_v=m["kv_rpm_per_v"].reshape(col),
                         resistance_ohm=m["winding_resistance_ohm"].reshape(col),
@@ -120,24 +161,19 @@ def draws(system: PowerSystem, samples: int = uncertainty.DEFAULT_SAMPLES, *,
     diameter = float(system.propeller.values["diameter_in"]) * INCH_M
     tables: list[PropellerTable | None] = []
     for key, axis in (("static_table", "rpm"), ("forward_table", "advance_ratio")):
-        rows = table_rows(system.propeller.values, key)
-        if rows is None:
+        drawn_table = drawn.tables[key]
+        if drawn_table is None:
             tables.append(None)
             continue
-        ct, cp = _table_draws(system.propeller, key, rows, samples, rng, vary)
-        order = np.argsort(rows[0], kind="stable")
-        axis_values = np.asarray(rows[0], dtype=np.float64)[order][None, None, :]
+        knots, ct, cp = drawn_table
+        order = np.argsort(knots, kind="stable")
+        axis_values = np.asarray(knots, dtype=np.float64)[order][None, None, :]
         tables.append(PropellerTable(as_float_array(diameter), axis_values, ct[:, order][:, None, :],
                                      cp[:, order][:, None, :], axis))  # type: ignore[arg-type]
     static = tables[0]
     if static is None:
         static, _ = system.tables()  # raises the missing-data error
-    # The electrical-power residuals of the calibrations (a propeller's is a thrust residual: not this quantity).
-    residuals = [r.residual_rms for r in (system.esc, system.motor) if r.residual_rms]
-    discrepancy_sd = max(residuals) if residuals else priors.MODEL_DISCREPANCY_RELATIVE
-    if not any(s in vary for s in ("part", "request", "calibrated")):
-        discrepancy_sd = 0.0  # only priors vary: the share of the band that rests on assumptions
     return Draws(motor=motor, esc=esc, static=static, forward=tables[1],
                  cell_resistance_ohm=(b.get("cell_resistance_mohm", np.full(samples, np.nan)) / 1000).reshape(col),
                  capacity_ah=(b.get("capacity_mah", np.full(samples, np.nan)) / 1000).reshape(col),
-                 discrepancy=uncertainty.discrepancy(samples, discrepancy_sd, rng).reshape(col))
+                 discrepancy=drawn.discrepancy.reshape(col))

@@ -117,10 +117,24 @@ def snapshot(session: Session, *, team_id: int, mission: Mission,
                     **{f: resolved.values.get(f) for f in PART_FIELDS[kind]},
                     "calibrated": sorted(k for k, s in resolved.sources.items() if s == "calibrated"),
                     "sources": {k: s for k, s in resolved.sources.items() if s != "part"},
+                    "uncertainty": part_uncertainty(resolved),
                 }
             )
     mission_values, airframe_values = mission_dicts(mission)
     return {"mission": mission_values, "airframe": airframe_values, "parts": parts}
+
+
+def part_uncertainty(resolved: ps.Resolved) -> dict[str, Any]:
+    """What the snapshot keeps of a resolved part's uncertainty (JSON values): standard uncertainties, origins,
+    the calibration's covariance and residual (the ranking's bands are drawn from them)."""
+    return {"sd": {k: v for k, v in resolved.sd.items() if v}, "origins": dict(resolved.origins),
+            "covariance": resolved.covariance, "residual_rms": resolved.residual_rms}
+
+
+def _assumed(rows: list[dict[str, Any]]) -> np.ndarray:
+    """How many model parameters of each part rest on priors (the ranking's tie-break prefers measured parts)."""
+    return np.array([sum(1 for source in r.get("sources", {}).values() if source == "prior") for r in rows],
+                    dtype=np.float64)
 
 
 def _num(value: Any, missing: float = np.nan) -> float:
@@ -155,48 +169,50 @@ def _table(rows: list[dict[str, Any]], key: str, axis_key: str, axis: PropellerA
     return PropellerTable.from_rows(diameters, tables, axis=axis)
 
 
+INF = np.inf
+LIBRARY_COLUMNS: dict[str, dict[str, tuple[str, float, float]]] = {
+    "batteries": {
+        "cells_series": ("cells_series", 1.0, np.nan), "cells_parallel": ("cells_parallel", 1.0, np.nan),
+        "capacity_ah": ("capacity_mah", 1e-3, np.nan), "cell_resistance_ohm": ("cell_resistance_mohm", 1e-3, np.nan),
+        "max_continuous_c": ("max_continuous_c", 1.0, np.nan),
+        "mass_kg": ("mass_g", 1e-3, np.nan), "cost": ("unit_cost", 1.0, np.nan),
+    },
+    "escs": {
+        "continuous_current_a": ("continuous_current_a", 1.0, np.nan), "min_cells": ("min_cells", 1.0, np.nan),
+        "max_cells": ("max_cells", 1.0, INF), "r_on_path_ohm": ("r_on_path_ohm", 1.0, np.nan),
+        "switching_frequency_hz": ("pwm_frequency_khz", 1e3, np.nan),
+        "switching_time_s": ("switching_time_ns", 1e-9, np.nan), "dead_time_s": ("dead_time_ns", 1e-9, np.nan),
+        "diode_drop_v": ("diode_drop_v", 1.0, np.nan), "input_esr_ohm": ("input_esr_ohm", 1.0, np.nan),
+        "pwm_loss_coefficient": ("k_pwm", 1.0, np.nan),
+        "mass_kg": ("mass_g", 1e-3, np.nan), "cost": ("unit_cost", 1.0, np.nan),
+    },
+    "motors": {
+        "kv_rpm_per_v": ("kv_rpm_per_v", 1.0, np.nan), "resistance_ohm": ("winding_resistance_ohm", 1.0, np.nan),
+        "no_load_current_a": ("no_load_current_a", 1.0, np.nan), "inductance_h": ("inductance_uh", 1e-6, np.nan),
+        "max_current_a": ("max_current_a", 1.0, INF), "max_cells": ("max_cells", 1.0, INF),
+        "mass_kg": ("mass_g", 1e-3, np.nan), "cost": ("unit_cost", 1.0, np.nan),
+    },
+}
+"""Library array <- (part field, scale to SI, value when the part has none), per part kind."""
+
+
+def _columns(rows: list[dict[str, Any]], kind: str) -> dict[str, np.ndarray]:
+    return {attr: _column(rows, name, scale, missing) for attr, (name, scale, missing) in LIBRARY_COLUMNS[kind].items()}
+
+
 def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
     """Engine inputs (SI arrays) from a snapshot; unknown values become NaN, unstated limits infinity."""
     p = snap["parts"]
     b, e, m, pr = p["batteries"], p["escs"], p["motors"], p["propellers"]
-    inf = np.inf
     packs = PackLibrary(
         ids=np.array([r["id"] for r in b], dtype=np.int64),
-        cells_series=_column(b, "cells_series"),
-        cells_parallel=_column(b, "cells_parallel"),
-        capacity_ah=_column(b, "capacity_mah", 1e-3),
-        cell_resistance_ohm=_column(b, "cell_resistance_mohm", 1e-3),
         full_voltage_per_cell_v=np.array([ps.FULL_VOLTAGE_PER_CELL_V[r["chemistry"]] for r in b]),
-        max_continuous_c=_column(b, "max_continuous_c"),
-        mass_kg=_column(b, "mass_g", 1e-3),
-        cost=_column(b, "unit_cost"),
+        assumed=_assumed(b),
+        **_columns(b, "batteries"),
     )
-    escs = EscLibrary(
-        ids=np.array([r["id"] for r in e], dtype=np.int64),
-        continuous_current_a=_column(e, "continuous_current_a"),
-        min_cells=_column(e, "min_cells"),
-        max_cells=_column(e, "max_cells", missing=inf),
-        r_on_path_ohm=_column(e, "r_on_path_ohm"),
-        switching_frequency_hz=_column(e, "pwm_frequency_khz", 1e3),
-        switching_time_s=_column(e, "switching_time_ns", 1e-9),
-        dead_time_s=_column(e, "dead_time_ns", 1e-9),
-        diode_drop_v=_column(e, "diode_drop_v"),
-        input_esr_ohm=_column(e, "input_esr_ohm"),
-        pwm_loss_coefficient=_column(e, "k_pwm"),
-        mass_kg=_column(e, "mass_g", 1e-3),
-        cost=_column(e, "unit_cost"),
-    )
-    motors = MotorLibrary(
-        ids=np.array([r["id"] for r in m], dtype=np.int64),
-        kv_rpm_per_v=_column(m, "kv_rpm_per_v"),
-        resistance_ohm=_column(m, "winding_resistance_ohm"),
-        no_load_current_a=_column(m, "no_load_current_a"),
-        inductance_h=_column(m, "inductance_uh", 1e-6),
-        max_current_a=_column(m, "max_current_a", missing=inf),
-        max_cells=_column(m, "max_cells", missing=inf),
-        mass_kg=_column(m, "mass_g", 1e-3),
-        cost=_column(m, "unit_cost"),
-    )
+    escs = EscLibrary(ids=np.array([r["id"] for r in e], dtype=np.int64), assumed=_assumed(e), **_columns(e, "escs"))
+    motors = MotorLibrary(ids=np.array([r["id"] for r in m], dtype=np.int64), assumed=_assumed(m),
+                          **_columns(m, "motors"))
     propellers = PropellerLibrary(
         ids=np.array([r["id"] for r in pr], dtype=np.int64),
         diameter_m=_column(pr, "diameter_in", INCH_M),
@@ -205,6 +221,7 @@ def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
         forward=_table(pr, "forward_table", "j", "advance_ratio"),
         mass_kg=_column(pr, "mass_g", 1e-3),
         cost=_column(pr, "unit_cost"),
+        assumed=_assumed(pr),
     )
     mission = mission_spec(snap["mission"], snap["airframe"])
     return PartsLibrary(packs, escs, motors, propellers), mission

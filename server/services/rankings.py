@@ -16,6 +16,7 @@ from server.jobs import JobContext, request_cancel
 from server.models import Ranking, RankingResult
 from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, constraints, rank
 from server.services import missions as missions_service
+from server.services import ranking_bands
 from server.services.ranking_inputs import engine_inputs, snapshot
 
 log = logging.getLogger("liftmatch.rankings")
@@ -106,19 +107,29 @@ def run_job(factory: sessionmaker[Session], ranking_id: int, context: JobContext
     if outcome.cancelled:
         context.check()
     escs = {int(i): float(c) for i, c in zip(library.escs.ids, library.escs.continuous_current_a, strict=True)}
+    banded = time.monotonic()
+    top = ranking_bands.with_bands(inputs, inputs["objective"], outcome.top)
+    ranking_bands.mark_indistinguishable(top, inputs["objective"])
+    keys = {_candidate_key(c) for c in outcome.top}
+    extra = [c for c in outcome.pareto if _candidate_key(c) not in keys]
+    pareto_only = ranking_bands.with_bands(inputs, inputs["objective"], extra,
+                                           limit=max(0, ranking_bands.MAX_ROWS - len(top)))
+    context.check()
+    bands_s = time.monotonic() - banded
     stored: dict[tuple[Any, ...], RankingResult] = {}
-    for candidate in outcome.top:
+    for candidate, metrics in zip(outcome.top, top, strict=True):
         stored[_candidate_key(candidate)] = RankingResult(
-            ranking_id=ranking_id, rank=candidate.rank, pareto=False, metrics=candidate.as_dict(),
+            ranking_id=ranking_id, rank=candidate.rank, pareto=False, metrics=metrics,
             **_metric_columns(candidate, escs))
     for candidate in outcome.pareto:
         key = _candidate_key(candidate)
         if key in stored:
             stored[key].pareto = True
-        else:
-            stored[key] = RankingResult(ranking_id=ranking_id, rank=None, pareto=True,
-                                        metrics=candidate.as_dict() | {"rank": None},
-                                        **_metric_columns(candidate, escs))
+    for candidate, metrics in zip(extra, pareto_only, strict=True):
+        stored[_candidate_key(candidate)] = RankingResult(
+            ranking_id=ranking_id, rank=None, pareto=True, metrics=metrics | {"rank": None,
+                                                                              "indistinguishable_from_best": None},
+            **_metric_columns(candidate, escs))
     with factory() as s, s.begin():
         s.execute(sql_delete(RankingResult).where(RankingResult.ranking_id == ranking_id))  # a rerun replaces them
         s.add_all(stored.values())
@@ -126,7 +137,8 @@ def run_job(factory: sessionmaker[Session], ranking_id: int, context: JobContext
             combinations=outcome.combinations, evaluated=outcome.evaluated, feasible=outcome.feasible,
             rejected=dict(outcome.rejected), rejected_examples=dict(outcome.rejected_examples), status="done",
             progress=1.0, finished_at=datetime.now(UTC),
-            timings={**{k: float(v) for k, v in outcome.timings.items()}, "job_s": time.monotonic() - started}))
+            timings={**{k: float(v) for k, v in outcome.timings.items()}, "bands_s": bands_s,
+                     "job_s": time.monotonic() - started}))
 
 
 def get(session: Session, *, team_id: int, ranking_id: int) -> Ranking:

@@ -343,3 +343,49 @@ def test_prediction_bands_shrink_as_bench_runs_are_added(
     upload_sweeps(client, team, ids)
     after = width(request)
     assert after < 0.5 * before, (before, after)
+
+
+def test_a_tested_esc_is_not_beaten_by_its_untested_twin(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]]
+) -> None:
+    """Two ESCs with the same stated values, one calibrated on the published 5-inch sweeps (Cao & Strawson 2018):
+    the untested one takes the team's pooled k_pwm (source 'prior') instead of a free zero, so the ranking no
+    longer puts it first; its rows carry bands, 'assumed' and the indistinguishable flag."""
+    from tests.api.test_rankings import wait_done
+
+    team, ids = stand
+    h = team.headers()
+    upload_sweeps(client, team, ids)
+    twin = client.post("/api/v1/parts/escs", headers=h, json=part_payload("escs", name="Untested twin")).json()["id"]
+    pack = client.post("/api/v1/parts/batteries", headers=h, json=part_payload(
+        "batteries", name="3S 1800", cells_series=3, capacity_mah=1800, mass_g=160, cell_resistance_mohm=4,
+        max_continuous_c=100, max_burst_c=150))
+    assert pack.status_code == 201, pack.text
+    airframe = client.post("/api/v1/airframes", headers=h,
+                           json={"name": "5 in quad", "rotor_count": 4, "frame_mass_g": 250}).json()["id"]
+    mission = client.post("/api/v1/missions", headers=h, json={
+        "name": "Hover", "airframe_id": airframe, "kind": "hover", "min_thrust_to_weight": 1.5,
+        "min_endurance_min": 0}).json()["id"]
+    started = client.post("/api/v1/rankings", json={"mission_id": mission, "top_n": 20}, headers=h)
+    assert started.status_code == 202, started.text
+    status = wait_done(client, h, started.json()["id"])
+    assert status["feasible"] >= 2, status["rejected"]
+    rows = client.get(f"/api/v1/rankings/{started.json()['id']}/results?page_size=100", headers=h).json()["items"]
+    by_esc = {r["esc_id"]: r for r in reversed(rows)}  # each ESC's best row
+    tested, untested = by_esc[ids["esc"]], by_esc[twin]
+    assert tested["rank"] < untested["rank"]
+    assert "k_pwm" in untested["assumed"]["esc"] and "k_pwm" not in tested["assumed"]["esc"]
+    # the same power system but for the ESC: the pooled prior reproduces the tested ESC's loss, not zero
+    same = next(r for r in rows if r["esc_id"] == twin and all(
+        r[k] == tested[k] for k in ("battery_id", "motor_id", "propeller_id", "packs_in_parallel")))
+    assert same["cruise"]["electrical_power_w"] == pytest.approx(tested["cruise"]["electrical_power_w"], rel=1e-9)
+    assert same["cruise"]["losses"]["calibrated_pwm_w"] > 0
+    for r in rows:
+        lo, hi = r["cruise"]["electrical_power_w_band"]
+        tw_lo, tw_hi = r["full_throttle"]["thrust_to_weight_band"]
+        assert lo < hi and tw_lo < tw_hi
+        assert r["endurance_min_band"][0] < r["endurance_min_band"][1]
+        assert 0.0 <= r["feasible_share"] <= 1.0
+    assert rows[0]["indistinguishable_from_best"] is True
+    assert same["indistinguishable_from_best"] is True  # identical central values: bands overlap
+    assert untested["assumed_share"] > 0 and tested["assumed_share"] == 0

@@ -30,6 +30,7 @@ ESC_DEFAULTS = EscParams()
 class Record:
     key: tuple[int, int, int, int, int]  # pack, k, esc, motor, prop (library positions)
     ids: tuple[object, object, object, object]
+    tie: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)  # assumed parameters per part (fewer first)
     metrics: dict[str, float] = field(default_factory=dict)
 
 
@@ -146,14 +147,16 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             continue
         cost = float(sizing.system_cost(k, float(pk.cost[p]), n_r, float(es.cost[e]), float(mo.cost[m]),
                                         float(pr.cost[q])))
-        feasible.append(Record((p, k, e, m, q), (pk.ids[p], es.ids[e], mo.ids[m], pr.ids[q]), {
+        feasible.append(Record((p, k, e, m, q), (pk.ids[p], es.ids[e], mo.ids[m], pr.ids[q]), metrics={
             "electrical_power_w": float(op.craft_electrical_power_w[0]), "endurance_min": screening_endurance,
             "specific_thrust_g_per_w": float(op.specific_thrust_g_per_w[0]), "thrust_to_weight": tw,
             "mass_kg": mass, "cost": cost, "duty": duty, "rpm": float(op.rpm[0]),
             "bus_current_a": pack_current, "drive_efficiency": float(op.drive_efficiency[0]),
             "thrust_n": float(op.thrust_n[0]), "full_motor_current_a": i_full,
             "full_thrust_n": float(low.thrust_n[0]), "extra_loss_w": float(op.extra_loss_w[0]),
-            "cruise_thrust_n": thrust}))
+            "cruise_thrust_n": thrust}, tie=tuple(  # type: ignore[arg-type]
+                0.0 if lib.assumed is None else float(lib.assumed[i])
+                for lib, i in ((pk, p), (es, e), (mo, m), (pr, q)))))
     return counts, feasible
 
 
@@ -186,7 +189,8 @@ _SENSE = {"cruise_power": ("electrical_power_w", 1), "endurance": ("endurance_mi
 
 
 def sort_key(record: Record, objective: str, endurance_field: str = "endurance_min") -> tuple[object, ...]:
-    """Objective first, then power, endurance, g/W, thrust-to-weight, mass, cost, then part ids."""
+    """Objective first, then power, endurance, g/W, thrust-to-weight, mass, cost, then parts (fewer assumed
+    parameters first, then id)."""
     order = [objective] + [name for name in _SENSE if name != objective]
     values = []
     for name in order:
@@ -194,7 +198,8 @@ def sort_key(record: Record, objective: str, endurance_field: str = "endurance_m
         value = record.metrics[endurance_field if metric == "endurance_min" else metric]
         values.append(sense * value)
     p, k, e, m, q = record.key
-    return (*values, record.ids[0], k, record.ids[1], record.ids[2], record.ids[3])
+    t = record.tie
+    return (*values, t[0], record.ids[0], k, t[1], record.ids[1], t[2], record.ids[2], t[3], record.ids[3])
 
 
 def pareto(records: list[Record]) -> set[tuple[int, int, int, int, int]]:

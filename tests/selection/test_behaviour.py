@@ -86,6 +86,26 @@ def test_library_row_order_does_not_change_the_ranking() -> None:
             assert ids[pos + 1] == 11
 
 
+def test_a_twin_with_assumed_parameters_ranks_after_the_measured_one() -> None:
+    """Twin packs with equal metrics: the tie goes to the one with fewer assumed (prior) parameters, even when its
+    id is higher; with nothing assumed the lower id wins as before."""
+    lib = parts.library()
+    pk = lib.packs
+    order = np.array([0, 0, 1, 2])
+    twin = PackLibrary(ids=np.array([10, 11, 12, 13]), cells_series=pk.cells_series[order],
+                       cells_parallel=pk.cells_parallel[order], capacity_ah=pk.capacity_ah[order],
+                       cell_resistance_ohm=pk.cell_resistance_ohm[order],
+                       full_voltage_per_cell_v=pk.full_voltage_per_cell_v[order],
+                       max_continuous_c=pk.max_continuous_c[order], mass_kg=pk.mass_kg[order], cost=pk.cost[order],
+                       assumed=np.array([2.0, 0.0, 0.0, 0.0]))
+    ids = [r.battery_id for r in rank(replace(lib, packs=twin), parts.hover_mission(), top_n=60).top]
+    assert 10 in ids and 11 in ids
+    assert all(ids[pos - 1] == 11 for pos, i in enumerate(ids) if i == 10)
+    plain = [r.battery_id for r in rank(replace(lib, packs=replace(twin, assumed=None)), parts.hover_mission(),
+                                        top_n=60).top]
+    assert all(plain[pos + 1] == 11 for pos, i in enumerate(plain) if i == 10)
+
+
 def test_heavier_pack_raises_hover_thrust_per_rotor_and_power() -> None:
     """Mass feedback: the same system with a 200 g heavier pack needs (m g0 / N) more thrust per rotor."""
     lib = parts.library()

@@ -15,7 +15,7 @@ from .. import esc as esc_model
 from .._types import RAD_S_PER_RPM, FloatArray
 from ..esc import EscParams
 from ..motor import DEFAULT_INDUCTANCE_H, MotorParams
-from ..propeller import PropellerTable, coefficients_at
+from ..propeller import PropellerTable, coefficients_at, momentum_limit_ratio
 from ._common import (
     DATASHEET_RELATIVE_SIGMA,
     DEFAULT_START,
@@ -35,6 +35,16 @@ from ._common import (
     _standard_errors,
 )
 from .propeller import _hat, _knots, fit_propeller_static
+
+CP_MOMENTUM_FLOOR = 1.001
+"""A fitted CP knot stays this factor above the momentum-theory minimum sqrt(2/pi) CT^1.5 (figure of merit 1,
+Leishman 2006, ch. 2): near idle the electrical power barely depends on CP and an unbounded fit can return a
+propeller that beats momentum theory, which the ranking must reject as impossible data."""
+
+
+def _momentum_cp(ct: float) -> float:
+    """Smallest static CP momentum theory allows at thrust coefficient ``ct`` (figure of merit 1). [-]"""
+    return float(momentum_limit_ratio(max(ct, 0.0), 1.0))  # FM at CP = 1 is the CP at which FM = 1
 
 
 @dataclass
@@ -248,9 +258,11 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
         _add_motor_params(problem, k, mid, [r for r in runs if r.motor_id == mid],
                           motor_priors.get(mid, MotorPrior()), fixed_motors.get(mid), esc)
     for k, knots in problem.knots.items():
+        ct_knots = thrust_fits[problem.prop_ids[k]].thrust_coefficient
         for j in range(knots.size):
-            problem.params.append(_Param(f"{problem.prop_ids[k]}:cp[{j}]", 0.05, 1e-5, 2.0, "-", fixable=False,
-                                         kind="prop", owner=k))
+            floor = max(1e-5, CP_MOMENTUM_FLOOR * _momentum_cp(float(ct_knots[j])))
+            problem.params.append(_Param(f"{problem.prop_ids[k]}:cp[{j}]", max(0.05, 1.5 * floor), floor, 2.0, "-",
+                                         fixable=False, kind="prop", owner=k))
     problem.params.append(_Param("esc:pwm_loss_coefficient", float(esc.pwm_loss_coefficient), 0.0, 50.0, "-",
                                  free=fit_pwm_loss, source="default"))
     problem.params.append(_Param("esc:on_path_resistance_ohm", float(esc.on_path_resistance_ohm), 0.0, 1.0, "Ω",
@@ -294,6 +306,11 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
         free_after = [q for q in problem.params if q.free]
         if not free_after:
             break
+    for q in problem.params:
+        if q.kind == "prop" and q.free and q.value <= q.lower * (1.0 + 1e-6) and q.lower > 1e-5:
+            notes.append(f"{q.name} at the momentum limit (figure of merit 1): the samples near that knot do not "
+                         "separate the propeller's power from the motor's no-load loss, and no propeller beats "
+                         "momentum theory")
     return _assemble(problem, se, cov, thrust_fits, fixed_propellers, esc, notes)
 
 
