@@ -43,9 +43,18 @@ def quantity(value: Any, unit: str = "", digits: int = 3) -> Markup:
     return Markup(f'<span class="num">{escape(number)}</span>\u00a0<span class="unit">{escape(unit)}</span>')
 
 
+def fmt_band(band: Any, digits: int = 3) -> Markup:
+    """An 80 % band [lo, hi] as a small 'lo–hi' span (empty when there is none)."""
+    if not band or len(band) != 2 or band[0] is None or band[1] is None:
+        return Markup("")
+    return Markup(f'<span class="band" title="80 % band (10th–90th percentile)">'
+                  f'{escape(fmt_number(band[0], digits))}–{escape(fmt_number(band[1], digits))}</span>')
+
+
 def make_templates(directory: Path) -> Jinja2Templates:
     templates = Jinja2Templates(directory=str(directory))
     templates.env.filters["num"] = fmt_number
+    templates.env.filters["band"] = fmt_band
     templates.env.globals["quantity"] = quantity
     templates.env.globals["csrf_token"] = csrf_token
     # Macros as a global (not a per-template import) so a single block can be rendered on its own.

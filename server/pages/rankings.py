@@ -23,6 +23,10 @@ NEAR_LIMIT = 0.9  # common practice, no source: flag a part run at ≥ 90 % of i
 OBJECTIVE_LABELS = {"cruise_power": "lowest cruise power", "endurance": "longest endurance",
                     "specific_thrust": "best specific thrust", "mass": "lowest mass", "cost": "lowest cost"}
 REASON_LABELS = rankings_service.REASON_TEXT
+GROUP_METRICS = {"cruise_power": "cruise power", "endurance": "endurance", "specific_thrust": "specific thrust",
+                 "thrust_to_weight": "thrust-to-weight", "mass": "all-up mass (equal values)",
+                 "cost": "cost (equal values)"}
+"""What 'cannot be told apart from rank 1' compares, per objective (mass and cost carry no band)."""
 SORTS = {"rank": "rank", "all_up_mass_g": "mass", "cruise_duty": "duty", "cruise_power_w": "cruise power",
          "specific_thrust_g_per_w": "g/W", "endurance_min": "endurance", "thrust_to_weight": "T/W", "cost": "cost"}
 
@@ -98,7 +102,8 @@ def ranking_page(
     ctx: dict[str, Any] = {"caller": caller, "nav": "rankings", "ranking": status, "sort": sort, "q": q,
                            "filters": filters, "sorts": SORTS, "objectives": OBJECTIVE_LABELS,
                            "reason_labels": REASON_LABELS, "rows": [], "total": 0, "pareto": [], "shortlists": [],
-                           "page": page, "page_size": 50, "cautions": []}
+                           "page": page, "page_size": 50, "cautions": [], "grouping": {"count": 0},
+                           "assumptions": {"rows": 0}}
     if status["status"] == "done":
         rows, total = rankings_service.results(session, team_id=caller.team_id, ranking_id=ranking_id, sort=sort,
                                                page=page, page_size=50, filters=filters)
@@ -117,7 +122,12 @@ def ranking_page(
                                      f"{names['batteries'][p['battery_id']]['name']}"} for p in pareto],
                    shortlists=[s for s in shortlists_service.list_all(session, team_id=caller.team_id)
                                if s.mission_id == ranking.mission_id],
-                   cautions=sorted({n for r in rows for n in r["near_limit"]}))
+                   cautions=sorted({n for r in rows for n in r["near_limit"]}),
+                   grouping={"count": sum(1 for r in rows if r.get("indistinguishable_from_best")),
+                             "metric": GROUP_METRICS.get(ranking.objective, "the objective")},
+                   assumptions={"rows": sum(1 for r in rows if any((r.get("assumed") or {}).values())),
+                                "best_share": next((r.get("assumed_share") for r in rows if r.get("rank") == 1),
+                                                   None)})
     block = "results" if request.headers.get("hx-target") == "ranking-results" else "job"
     return render(request, "pages/ranking.html", ctx, block=block)
 

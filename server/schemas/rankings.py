@@ -7,7 +7,14 @@ from datetime import datetime
 from pydantic import BaseModel, ConfigDict, Field
 
 from server.schemas._fields import ranged
-from server.schemas.evaluation import Margins, RankedCandidate, RankedCruise, RankedFullThrottle, Result
+from server.schemas.evaluation import (
+    Margins,
+    RankedCandidate,
+    RankedCruise,
+    RankedFullThrottle,
+    Result,
+    RowAssumptions,
+)
 from server.selection.result import Objective
 
 
@@ -124,3 +131,9 @@ class Explanation(Result):
     sources: dict[str, dict[str, str]] = Field(default_factory=dict,
                                                description="Per part kind, parameters not from the part itself")
     notes: list[str] = Field(default_factory=list)
+    endurance_min_band: list[float] | None = Field(default=None, description="80 % band of the endurance [min]")
+    feasible_share: float | None = Field(
+        default=None, description="Share of the uncertainty draws in which the system passes every limit [-]")
+    assumed_share: float | None = Field(
+        default=None, description="Width of the cruise-power band with only priors varied ÷ its full width [-]")
+    assumed: RowAssumptions | None = Field(default=None, description="Parameters resting on priors, per part")

@@ -16,6 +16,7 @@ from server.errors import FieldError, InvalidInput, NotFound
 from server.selection.explain import explain as explain_candidate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
+from server.services import ranking_bands
 from server.services import rankings as rankings_service
 from server.services.ranking_inputs import engine_inputs, snapshot
 
@@ -64,6 +65,11 @@ def explain(session: Session, *, team_id: int, mission_id: int | None, battery_i
             "packs_in_parallel", f"this airframe flies 1 to {spec.max_packs_in_parallel} packs in parallel")])
     verdict = explain_candidate(library, spec, pack=0, packs_in_parallel=packs_in_parallel, esc=0, motor=0, prop=0)
     row = verdict.row.as_dict() if verdict.row is not None else None
+    if row is not None and verdict.row is not None and ranking_bands.has_uncertainty(snap):
+        (b,) = ranking_bands.rows_bands(snap, [verdict.row])
+        row["cruise"].update(b.pop("cruise"))
+        row["full_throttle"].update(b.pop("full_throttle"))
+        row |= b
     return {
         "mission_id": mission_id, "ranking_id": ranking_id, **ids, "packs_in_parallel": packs_in_parallel,
         "feasible": verdict.feasible, "first_failed": verdict.first_failed,
@@ -72,6 +78,10 @@ def explain(session: Session, *, team_id: int, mission_id: int | None, battery_i
         "endurance_min": row["endurance_min"] if row else None,
         "all_up_mass_g": row["all_up_mass_g"] if row else None, "cost": row["cost"] if row else None,
         "margins": row["margins"] if row else None,
+        "endurance_min_band": row.get("endurance_min_band") if row else None,
+        "feasible_share": row.get("feasible_share") if row else None,
+        "assumed_share": row.get("assumed_share") if row else None,
+        "assumed": row.get("assumed") if row else None,
         "sources": {kind: rows[0].get("sources", {}) for kind, rows in snap["parts"].items() if rows},
         "notes": verdict.notes,
     }

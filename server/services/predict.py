@@ -322,6 +322,7 @@ def chart_data(system: System, result: dict[str, Any]) -> dict[str, Any]:
     return {
         "curve": curve(system),
         "points": [{"thrust_n": p["thrust_n"], "electrical_power_w": p["electrical_power_w"],
+                    "electrical_power_w_band": (p.get("bands") or {}).get("electrical_power_w"),
                     "specific_thrust_g_per_w": p["specific_thrust_g_per_w"], "label": next(iter(p["request"].items()))}
                    for p in result["points"] if p["thrust_n"] is not None],
         "losses": [{"label": f"{k} {v:g}", **p["losses"]} for p in result["points"] for k, v in p["request"].items()],

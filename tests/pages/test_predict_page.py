@@ -26,11 +26,14 @@ def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
         "battery": {"id": ids["batteries"]}, "esc": {"id": ids["escs"]}, "motor": {"id": ids["motors"]},
         "propeller": {"id": ids["propellers"]}, "rotor_count": 4,
         "points": [{"throttle": 1.0}, {"throttle": 0.6}, {"thrust_n": 4}]}, headers=h).json()
-    shown_power = rows[1].select("td")[8].text
-    assert shown_power == f"{api['points'][1]['electrical_power_w']:.3g}".replace(",", "")
+    power_cell = rows[1].select("td")[8]
+    assert power_cell.contents[0].strip() == f"{api['points'][1]['electrical_power_w']:.3g}".replace(",", "")
+    lo, hi = api["points"][1]["bands"]["electrical_power_w"]
+    assert power_cell.select_one(".band").text.replace("\u2009", "") == f"{lo:.3g}–{hi:.3g}".replace(",", "")
     assert soup.select_one("#predict-chart-data") is not None and soup.select_one("#chart-curves") is not None
     sources = {r.select("td")[1].text: r.select("td")[3].text.strip() for r in soup.select("#parameters tbody tr")}
-    assert sources["kv_rpm_per_v"] == "part" and sources["k_pwm"] == "prior"
+    assert sources["kv_rpm_per_v"] == "part" and sources["k_pwm"] == "assumed, not measured"
+    assert "Assumed, not measured: " in soup.text and "k_pwm" in soup.select_one("#predict-results").text
     fragment = client.get("/predict", params=params, headers={"HX-Request": "true"})
     assert "<html" not in fragment.text and 'id="predict-results"' in fragment.text
 

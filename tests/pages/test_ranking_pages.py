@@ -39,8 +39,14 @@ def test_rank_in_the_browser_and_read_the_results(app: FastAPI, client: TestClie
     assert len(rows) == len(api) == 30
     for row, item in zip(rows, api, strict=True):
         cells = row.select("td")
-        assert cells[0].text.strip() == str(item["rank"])
-        assert cells[7].text.strip() == f"{item['cruise']['electrical_power_w']:.3g}".replace(",", "")
+        assert cells[0].select_one(".rank").text == str(item["rank"])
+        assert cells[7].contents[0].strip() == f"{item['cruise']['electrical_power_w']:.3g}".replace(",", "")
+        lo, hi = item["cruise"]["electrical_power_w_band"]
+        assert cells[7].select_one(".band").text.replace("\u2009", "") == f"{lo:.3g}–{hi:.3g}".replace(",", "")
+        why = cells[0].select_one("a")["href"]
+        assert f"ranking_id={ranking_id}" in why and f"esc_id={item['esc_id']}" in why
+        assert ("same-as-best" in (row.get("class") or [])) == bool(item["indistinguishable_from_best"])
+        assert bool(row.select(".assumed")) == any(item["assumed"].values())
     rejections = page.select_one("#rejections").text
     assert "thrust-to-weight below the mission's minimum 2.00" in rejections
     assert page.select_one("#pareto-chart-data") is not None
@@ -55,3 +61,51 @@ def test_rank_in_the_browser_and_read_the_results(app: FastAPI, client: TestClie
     assert "added" in added.text
     shortlists = client.get("/api/v1/shortlists").json()
     assert shortlists[0]["entries"][0]["ranking_id"] == ranking_id
+
+
+@pytest.mark.demo_data
+def test_why_this_verdict_from_a_row_a_rejection_count_and_the_why_not_form(app: FastAPI, client: TestClient) -> None:
+    """Every way to the explain page gives the ranking engine's verdict: a ranked row passes every limit, a rejection
+    example fails first on the limit it is listed under, the form explains any combination, bad ids say what."""
+    from server.models import Mission, Ranking
+    from server.services import rankings as rankings_service
+
+    login(client, seed.DEMO_LOGIN[0], seed.DEMO_LOGIN[1])
+    with app.state.sessionmaker() as session:
+        mission = session.query(Mission).filter(Mission.name == "Q4 mapping survey").one()
+        ranking = rankings_service.start(session, team_id=mission.team_id, user_id=None, mission_id=mission.id,
+                                         objective="cruise_power", top_n=10)
+        session.commit()
+        ranking_id = ranking.id
+    rankings_service.run(app.state.sessionmaker, ranking_id)
+    page = BeautifulSoup(client.get(f"/rankings/{ranking_id}").text, "html.parser")
+    why = page.select_one("#results tbody tr a")["href"]
+    verdict = BeautifulSoup(client.get(why).text, "html.parser")
+    assert verdict.select_one("#verdict h2").text.strip() == "Passes every limit"
+    assert len(verdict.select("#checks tbody tr")) == len(rankings_service.REASON_TEXT)
+    assert verdict.select_one("#numbers .band") is not None  # the row's bands
+    examples = page.select("details.reason-examples")
+    assert examples
+    with app.state.sessionmaker() as session:
+        stored = session.get(Ranking, ranking_id)
+        assert stored is not None
+        rejected = {r: c for r, c in stored.rejected.items() if c}
+    for details in examples:
+        reason_line = details.find_parent("li").text
+        link = details.select_one("a")["href"]
+        reason = next(r for r in rejected if rankings_service.REASON_TEXT[r] in reason_line)
+        shown = BeautifulSoup(client.get(link).text, "html.parser")
+        assert shown.select_one("#verdict h2").text.strip() == f"Rejected: {rankings_service.REASON_TEXT[reason]}"
+        assert "first-failed" in shown.select("#checks tbody tr")[list(rankings_service.REASON_TEXT).index(reason)][
+            "class"]
+    form = page.select_one("#why-not form")
+    fields = {s["name"]: s.select("option")[-1]["value"] for s in form.select("select")}
+    answer = client.get("/explain", params={"ranking_id": ranking_id, **fields, "packs_in_parallel": 1})
+    assert answer.status_code == 200 and "#verdict" not in answer.text
+    assert BeautifulSoup(answer.text, "html.parser").select_one("#verdict h2") is not None
+    bad = client.get("/explain", params={"ranking_id": ranking_id, **fields, "motor_id": 999999})
+    assert bad.status_code == 422 and "was not in ranking" in bad.text
+    blank = client.get("/explain", params={"ranking_id": ranking_id, "motor_id": fields["motor_id"]})
+    assert blank.status_code == 422 and "Choose a pack, an ESC, a motor and a propeller" in blank.text
+    alone = client.get("/explain")
+    assert alone.status_code == 200 and BeautifulSoup(alone.text, "html.parser").select_one("#mission_id")

@@ -25,8 +25,14 @@
         { label: "electrical power [W]", data: xy(curve.electrical_power_w), showLine: true, pointRadius: 0, borderColor: PALETTE[0], yAxisID: "power" },
         { label: "specific thrust [g/W]", data: xy(curve.specific_thrust_g_per_w), showLine: true, pointRadius: 0, borderColor: PALETTE[1], borderDash: [6, 3], yAxisID: "gw" },
         { label: "requested points", data: data.points.map((p) => ({ x: p.thrust_n, y: p.electrical_power_w })), pointStyle: "rectRot", pointRadius: 7, backgroundColor: PALETTE[2], yAxisID: "power" },
+        // 80 % band of each requested point's electrical power: one vertical bar per point, one legend entry
+        ...data.points.filter((p) => p.electrical_power_w_band).map((p, i) => ({
+          label: "80 % band of power", data: [{ x: p.thrust_n, y: p.electrical_power_w_band[0] }, { x: p.thrust_n, y: p.electrical_power_w_band[1] }],
+          showLine: true, pointRadius: 3, pointStyle: "line", borderColor: PALETTE[2], borderWidth: 2, yAxisID: "power",
+          hiddenInLegend: i > 0 })),
       ] },
-      options: { scales: {
+      options: { plugins: { legend: { labels: { filter: (item, chart) => !chart.datasets[item.datasetIndex].hiddenInLegend } } },
+        scales: {
         x: { title: { display: true, text: "thrust per rotor [N]" } },
         power: { position: "left", title: { display: true, text: "electrical power [W]" } },
         gw: { position: "right", title: { display: true, text: "specific thrust [g/W]" }, grid: { drawOnChartArea: false } },
