@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import tempfile
 from pathlib import Path
+from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
@@ -52,20 +53,40 @@ HEADER = ("| mission | packs × pack × ESC × motor × prop | all-up mass (g) |
 Combo = tuple[str, str, str, str, str, int]
 
 
-def _ranks(factory: sessionmaker[Session], team_id: int, mission_id: int) -> tuple[dict[tuple[int, ...], int], int]:
-    """Every feasible combination of a mission with its rank (lowest cruise power first), and their number."""
+TOP = 10
+"""Rows per mission in the 'who leads' table (tested or untested ESC, bands, indistinguishable from rank 1)."""
+
+
+def _ranks(factory: sessionmaker[Session], team_id: int,
+           mission_id: int) -> tuple[dict[tuple[int, ...], int], int, list[dict[str, Any]]]:
+    """Every feasible combination of a mission with its rank (lowest cruise power first), their number and the top
+    rows."""
     with transaction(factory) as session:
         ranking_id = rankings.start(session, team_id=team_id, user_id=None, mission_id=mission_id,
                                     objective="cruise_power", top_n=500).id
     rankings.run(factory, ranking_id)
     with factory() as session:
         rows, total = rankings.results(session, team_id=team_id, ranking_id=ranking_id, page_size=500)
-    return {(r["battery_id"], r["esc_id"], r["motor_id"], r["propeller_id"], r["packs_in_parallel"]): r["rank"]
-            for r in rows}, total
+    return ({(r["battery_id"], r["esc_id"], r["motor_id"], r["propeller_id"], r["packs_in_parallel"]): r["rank"]
+             for r in rows}, total, rows[:TOP])
+
+
+def _leaders(mission_name: str, rows: list[dict[str, Any]], names: dict[str, dict[int, str]]) -> list[str]:
+    """The first rows of a mission's ranking: which ESC (bench-tested or resting on the k_pwm prior), the cruise
+    power and its 80 % band, and whether the data can tell the row from rank 1."""
+    out = []
+    for r in rows:
+        band = r["cruise"].get("electrical_power_w_band") or [float("nan")] * 2
+        tested = "prior" if "k_pwm" in (r.get("assumed") or {}).get("esc", []) else "bench run"
+        out.append(f"| {mission_name} | {r['rank']} | {r['packs_in_parallel']} × {names['batteries'][r['battery_id']]} "
+                   f"× {names['escs'][r['esc_id']]} × {names['motors'][r['motor_id']]} × "
+                   f"{names['propellers'][r['propeller_id']]} | {tested} | {r['cruise']['electrical_power_w']:.0f} "
+                   f"({band[0]:.0f}–{band[1]:.0f}) | {'yes' if r.get('indistinguishable_from_best') else 'no'} |")
+    return out
 
 
 def _row(session: Session, team_id: int, missions: dict[str, Mission], ids: dict[str, dict[str, int]],
-         ranks: dict[str, tuple[dict[tuple[int, ...], int], int]], combo: Combo) -> str:
+         ranks: dict[str, tuple[dict[tuple[int, ...], int], int]], combo: Combo) -> str:  # noqa: PLR0913
     mission_name, pack, esc, motor, prop, packs = combo
     mission = missions[mission_name]
     key = candidate.CandidateIds(ids["batteries"][pack], ids["escs"][esc], ids["motors"][motor],
@@ -106,7 +127,9 @@ def main() -> None:
             ids = {kind: {p.part_number: p.id for p in session.scalars(select(model))}
                    for kind, model in PART_MODELS.items()}
             mission_ids = {name: m.id for name, m in missions.items()}
-        ranks = {name: _ranks(factory, team_id, mission_id) for name, mission_id in mission_ids.items()}
+        ranked = {name: _ranks(factory, team_id, mission_id) for name, mission_id in mission_ids.items()}
+        ranks = {name: (r[0], r[1]) for name, r in ranked.items()}
+        names = {kind: {i: n for n, i in by_number.items()} for kind, by_number in ids.items()}
         with factory() as session:
             missions = {m.name: m for m in session.scalars(select(Mission))}
             for title, combos in (("Intended good combinations", INTENDED),
@@ -114,6 +137,11 @@ def main() -> None:
                 print(f"\n**{title}**\n\n{HEADER}\n|{'---|' * 15}")
                 for combo in combos:
                     print(_row(session, team_id, missions, ids, ranks, combo))
+        print(f"\n**Who leads each ranking (first {TOP} rows)**\n\n| mission | rank | packs × pack × ESC × motor × "
+              "prop | ESC's k_pwm | cruise power (W) and 80 % band | indistinguishable from rank 1 |\n"
+              "|---|---|---|---|---|---|")
+        for name, (_, _, top) in ranked.items():
+            print("\n".join(_leaders(name, top, names)))
 
 
 if __name__ == "__main__":
