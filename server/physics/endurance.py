@@ -258,21 +258,38 @@ def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams
     shape = np.broadcast_shapes(start.status.shape, np.shape(initial_state_of_charge),
                                 *(np.shape(getattr(pack, f.name)) for f in fields(pack)))
     pk = _broadcast_pack(pack, shape)
+    # Every SOC the march may visit is known in advance: solve them all in one vectorised call (node axis first, so
+    # it broadcasts with any batch shape), then hand the march the node it asks for. Same solver, same roots.
+    from .fast import constant_thrust_nodes
+
+    nodes = np.moveaxis(constant_thrust_nodes(initial_state_of_charge, pack, shape, soc_step), -1, 0)
+    full = nodes.shape
+    solved = solve(nodes)
+    at_nodes = [np.broadcast_to(a, full) for a in (solved.pack_current_a, solved.bus_voltage_v, solved.duty,
+                                                    solved.status)]
+    visit = iter(range(full[0]))
 
     def node_at(soc: FloatArray) -> _Node:
-        op = solve(soc)
-        unreachable = (op.status == Status.INFEASIBLE_THRUST) | (op.status == Status.NO_SOLUTION)
-        duty_margin = np.where(unreachable, -np.inf, 1.0 - op.duty)
-        cutoff_margin = op.bus_voltage_v / pk.cells_series - pk.cutoff_voltage_per_cell_v
-        return _Node(np.broadcast_to(op.pack_current_a, shape), np.broadcast_to(op.bus_voltage_v, shape),
+        k = next(visit, None)
+        if k is None or not np.array_equal(nodes[k], soc):
+            op = solve(soc)
+            current, voltage, duty, status = op.pack_current_a, op.bus_voltage_v, op.duty, op.status
+        else:
+            current, voltage, duty, status = (a[k] for a in at_nodes)
+        unreachable = (status == Status.INFEASIBLE_THRUST) | (status == Status.NO_SOLUTION)
+        duty_margin = np.where(unreachable, -np.inf, 1.0 - duty)
+        cutoff_margin = voltage / pk.cells_series - pk.cutoff_voltage_per_cell_v
+        return _Node(np.broadcast_to(current, shape), np.broadcast_to(voltage, shape),
                      (np.broadcast_to(cutoff_margin, shape), np.broadcast_to(duty_margin, shape)),
-                     np.broadcast_to(op.status == Status.NON_FINITE, shape))
+                     np.broadcast_to(status == Status.NON_FINITE, shape))
 
     s0 = np.broadcast_to(as_float_array(initial_state_of_charge), shape).astype(np.float64)
     result, last_valid, stop = _march(node_at, s0, 1.0 - pk.usable_fraction, pk.capacity_ah,
                                       (pk.peukert_exponent, pk.peukert_rated_hours_h), soc_step,
                                       (StopReason.CUTOFF_VOLTAGE, StopReason.THRUST_UNREACHABLE))
-    at_stop, at_last = solve(stop), solve(last_valid)
+    both = solve(np.stack([stop, last_valid]))  # one vectorised solve for the stop and the last valid node
+    at_stop, at_last = (both.map(lambda a, i=i: np.broadcast_to(a, np.broadcast_shapes(np.shape(a), (2, *shape)))[i])
+                        for i in (0, 1))
     solved_at_stop = np.isin(at_stop.status, (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR))
     end = at_stop.map(lambda stop, last: np.where(solved_at_stop, stop, last), at_last)
     return ThrustEnduranceResult(**{f.name: getattr(result, f.name) for f in fields(EnduranceResult)},

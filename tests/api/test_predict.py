@@ -126,6 +126,24 @@ def test_bat7_constant_power_and_bat8_constant_thrust(client: TestClient, team: 
     assert rel(end["end"]["duty"], 0.58017) < 1e-4 and rel(end["end"]["bus_voltage_v"], 10.5066) < 1e-4
 
 
+def test_the_endurance_band_march_step_moves_the_band_far_less_than_its_width(
+    client: TestClient, team: TeamFixture, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The endurance band's draws fly a coarser SOC step than the central value; against the reference step the band
+    moves by under 1 % of its own width (the BAT-8 case)."""
+    from server.services import predict as predict_service
+
+    body = request(battery={"cells_series": 3, "capacity_mah": 5000, "cell_resistance_mohm": 10}, rotor_count=4,
+                   esc={**LOSSLESS_ESC, "k_pwm": 0.3}, endurance={"thrust_n": 4.90332})
+    coarse = api(client, team, body)["endurance"]
+    monkeypatch.setattr(predict_service, "BAND_SOC_STEP", 0.01)
+    fine = api(client, team, body)["endurance"]
+    assert coarse["minutes"] == fine["minutes"]
+    (lo_c, hi_c), (lo_f, hi_f) = coarse["minutes_band"], fine["minutes_band"]
+    assert lo_f < coarse["minutes"] < hi_f
+    assert max(abs(lo_c - lo_f), abs(hi_c - hi_f)) < 0.01 * (hi_f - lo_f)
+
+
 def test_cli_gives_the_same_numbers_as_the_api(
     client: TestClient, team: TeamFixture, db_url: str, monkeypatch: pytest.MonkeyPatch,
     capsys: pytest.CaptureFixture[str],
