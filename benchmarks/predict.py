@@ -11,15 +11,10 @@ from __future__ import annotations
 
 import argparse
 import statistics
-import tempfile
 import time
-from pathlib import Path
 
 from sqlalchemy import select
 
-from server.config import Settings
-from server.db import make_engine, make_sessionmaker, transaction
-from server.migrate import upgrade
 from server.models import PART_MODELS
 from server.schemas.predict import PredictRequest
 from server.services import predict, seed
@@ -31,14 +26,7 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--n", type=int, default=30)
     args = parser.parse_args()
-    with tempfile.TemporaryDirectory() as tmp:
-        url = f"sqlite:///{Path(tmp) / 'bench.db'}"
-        upgrade(url)
-        factory = make_sessionmaker(make_engine(url))
-        settings = Settings(database_url=url, demo=True, password_time_cost=1, password_memory_kib=1024,
-                            password_parallelism=1)
-        with transaction(factory) as session:
-            seed.load_demo(session, settings=settings)
+    with seed.throwaway_demo() as factory:
         with factory() as session:
             ids = {kind: session.scalars(select(PART_MODELS[kind].id).where(
                 PART_MODELS[kind].part_number == number)).one() for kind, number in SYSTEM.items()}

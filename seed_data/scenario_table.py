@@ -8,16 +8,12 @@ Run: python seed_data/scenario_table.py
 
 from __future__ import annotations
 
-import tempfile
-from pathlib import Path
 from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
 
-from server.config import Settings
-from server.db import make_engine, make_sessionmaker, transaction
-from server.migrate import upgrade
+from server.db import transaction
 from server.models import PART_MODELS, Mission
 from server.services import candidate, explain, rankings, seed
 
@@ -113,14 +109,7 @@ def _row(session: Session, team_id: int, missions: dict[str, Mission], ids: dict
 
 
 def main() -> None:
-    with tempfile.TemporaryDirectory() as tmp:
-        url = f"sqlite:///{Path(tmp) / 'scenario.db'}"
-        upgrade(url)
-        factory = make_sessionmaker(make_engine(url))
-        settings = Settings(database_url=url, demo=True, password_time_cost=1, password_memory_kib=1024,
-                            password_parallelism=1)
-        with transaction(factory) as session:
-            seed.load_demo(session, settings=settings)
+    with seed.throwaway_demo() as factory:
         with factory() as session:
             missions = {m.name: m for m in session.scalars(select(Mission))}
             team_id = next(iter(missions.values())).team_id

@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import json
+import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, sessionmaker
 
 from server.config import REPO_ROOT, Settings
 from server.errors import Conflict
@@ -20,6 +23,28 @@ from server.services._validation import validate
 
 DEMO_FILE = REPO_ROOT / "seed_data" / "northfold.json"
 DEMO_LOGIN = ("engineer@northfold.example", "northfold-demo")
+
+
+@contextmanager
+def throwaway_demo() -> Iterator[sessionmaker[Session]]:
+    """The invented demo (with its synthetic bench runs and calibrations) in a temporary SQLite file, for scripts
+    and benchmarks that print what the engine makes of it; the file goes when the block ends."""
+    from server.db import make_engine, make_sessionmaker, transaction
+    from server.migrate import upgrade
+
+    with tempfile.TemporaryDirectory() as tmp:
+        url = f"sqlite:///{Path(tmp) / 'demo.db'}"
+        upgrade(url)
+        engine = make_engine(url)
+        factory = make_sessionmaker(engine)
+        settings = Settings(database_url=url, demo=True, password_time_cost=1, password_memory_kib=1024,
+                            password_parallelism=1)
+        with transaction(factory) as session:
+            load_demo(session, settings=settings)
+        try:
+            yield factory
+        finally:
+            engine.dispose()
 
 
 def read_demo(path: Path = DEMO_FILE) -> dict[str, Any]:

@@ -66,16 +66,19 @@ def test_cancel_between_chunks_stops_the_run() -> None:
     assert seen[-1] < 1.0
 
 
+def _packs(pk: PackLibrary, order: np.ndarray, ids: list[int]) -> PackLibrary:
+    """The packs of ``pk`` in ``order`` (rows may repeat) under new ids."""
+    return PackLibrary(ids=np.array(ids), **{f: getattr(pk, f)[order] for f in (
+        "cells_series", "cells_parallel", "capacity_ah", "cell_resistance_ohm", "full_voltage_per_cell_v",
+        "max_continuous_c", "mass_kg", "cost")})
+
+
 def test_library_row_order_does_not_change_the_ranking() -> None:
     """Rows shuffled, plus an identical twin of a pack under another id: same order, the twin by its id."""
     lib = parts.library()
     pk = lib.packs
     order = np.array([2, 0, 1, 0])
-    twin = PackLibrary(ids=np.array([13, 11, 12, 10]), cells_series=pk.cells_series[order],
-                       cells_parallel=pk.cells_parallel[order], capacity_ah=pk.capacity_ah[order],
-                       cell_resistance_ohm=pk.cell_resistance_ohm[order],
-                       full_voltage_per_cell_v=pk.full_voltage_per_cell_v[order],
-                       max_continuous_c=pk.max_continuous_c[order], mass_kg=pk.mass_kg[order], cost=pk.cost[order])
+    twin = _packs(pk, order, [13, 11, 12, 10])
     out = rank(replace(lib, packs=twin), parts.hover_mission(), top_n=60)
     ids = [r.battery_id for r in out.top]
     plain = [r.battery_id for r in rank(lib, parts.hover_mission(), top_n=60).top]
@@ -92,12 +95,7 @@ def test_a_twin_with_assumed_parameters_ranks_after_the_measured_one() -> None:
     lib = parts.library()
     pk = lib.packs
     order = np.array([0, 0, 1, 2])
-    twin = PackLibrary(ids=np.array([10, 11, 12, 13]), cells_series=pk.cells_series[order],
-                       cells_parallel=pk.cells_parallel[order], capacity_ah=pk.capacity_ah[order],
-                       cell_resistance_ohm=pk.cell_resistance_ohm[order],
-                       full_voltage_per_cell_v=pk.full_voltage_per_cell_v[order],
-                       max_continuous_c=pk.max_continuous_c[order], mass_kg=pk.mass_kg[order], cost=pk.cost[order],
-                       assumed=np.array([2.0, 0.0, 0.0, 0.0]))
+    twin = replace(_packs(pk, order, [10, 11, 12, 13]), assumed=np.array([2.0, 0.0, 0.0, 0.0]))
     ids = [r.battery_id for r in rank(replace(lib, packs=twin), parts.hover_mission(), top_n=60).top]
     assert 10 in ids and 11 in ids
     assert all(ids[pos - 1] == 11 for pos, i in enumerate(ids) if i == 10)
