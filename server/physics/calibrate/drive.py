@@ -4,26 +4,17 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import replace
 
 import numpy as np
 import scipy.linalg
-from scipy.optimize import least_squares
-from scipy.sparse import lil_matrix
 
-from .. import esc as esc_model
-from .._types import RAD_S_PER_RPM, FloatArray
+from .._types import FloatArray
 from ..esc import EscParams
-from ..motor import DEFAULT_INDUCTANCE_H, MotorParams
-from ..propeller import PropellerTable, coefficients_at, momentum_limit_ratio
+from ..motor import MotorParams
+from ..propeller import PropellerTable
 from ._common import (
-    DATASHEET_RELATIVE_SIGMA,
-    DEFAULT_START,
-    KV_PRIOR_RELATIVE_SIGMA,
     MAX_RELATIVE_STANDARD_ERROR,
-    POWER_SIGMA,
-    TORQUE_SIGMA,
-    VOLTAGE_SIGMA_V,
     EscFit,
     FittedParameter,
     JointFit,
@@ -34,205 +25,15 @@ from ._common import (
     _covariance,
     _standard_errors,
 )
-from .propeller import _hat, _knots, fit_propeller_static
-
-CP_MOMENTUM_FLOOR = 1.001
-"""A fitted CP knot stays this factor above the momentum-theory minimum sqrt(2/pi) CT^1.5 (figure of merit 1,
-Leishman 2006, ch. 2): near idle the electrical power barely depends on CP and an unbounded fit can return a
-propeller that beats momentum theory, which the ranking must reject as impossible data."""
-
-
-def _momentum_cp(ct: float) -> float:
-    """Smallest static CP momentum theory allows at thrust coefficient ``ct`` (figure of merit 1). [-]"""
-    return float(momentum_limit_ratio(max(ct, 0.0), 1.0))  # FM at CP = 1 is the CP at which FM = 1
-
-
-@dataclass
-class _Param:
-    name: str
-    value: float
-    lower: float
-    upper: float
-    unit: str
-    free: bool = True
-    prior: float | None = None
-    prior_sigma: float = math.inf
-    source: str = "start"
-    fixable: bool = True
-    kind: str = "esc"
-    owner: int = -1
-
-
-class _PooledProblem:
-    """Concatenated samples of many runs and the parameter registry of the pooled model."""
-
-    def __init__(self, runs: Sequence[RunData], esc: EscParams, inductance_h: Mapping[str, float],
-                 fixed_propellers: Mapping[str, PropellerTable], knot_count: int) -> None:
-        self.runs = list(runs)
-        self.esc = esc
-        def cat(name: str) -> FloatArray:
-            return np.concatenate([getattr(r, name) for r in self.runs])
-
-        self.v, self.i, self.rpm, self.thrust = cat("bus_voltage_v"), cat("bus_current_a"), cat("rpm"), cat("thrust_n")
-        self.duty = cat("duty")
-        self.rho = np.concatenate([np.full(r.rpm.size, r.density_kg_m3) for r in self.runs])
-        self.diameter = np.concatenate([np.full(r.rpm.size, r.diameter_m) for r in self.runs])
-        self.motor_ids = sorted({r.motor_id for r in self.runs})
-        self.prop_ids = sorted({r.propeller_id for r in self.runs})
-        self.m = np.concatenate([np.full(r.rpm.size, self.motor_ids.index(r.motor_id)) for r in self.runs])
-        self.p = np.concatenate([np.full(r.rpm.size, self.prop_ids.index(r.propeller_id)) for r in self.runs])
-        self.torque = np.concatenate([r.torque_nm if r.torque_nm is not None else np.full(r.rpm.size, np.nan)
-                                      for r in self.runs])
-        trusted = np.concatenate([np.full(r.rpm.size, r.duty_trusted) for r in self.runs])
-        self.known_duty = trusted | (self.duty >= 1.0)
-        self.inductance = np.array([inductance_h.get(mid, DEFAULT_INDUCTANCE_H) for mid in self.motor_ids])[self.m]
-        self.omega = self.rpm * RAD_S_PER_RPM
-        n = self.rpm / 60.0
-        self.torque_scale = self.rho * n**2 * self.diameter**5 / (2.0 * math.pi)
-        # CP per sample = basis_row . knots (free propellers) or a constant (fixed tables)
-        self.cp_fixed = np.full(self.rpm.size, np.nan)
-        self.knots: dict[int, FloatArray] = {}
-        self.basis: dict[int, tuple[np.ndarray, FloatArray]] = {}
-        for k, pid in enumerate(self.prop_ids):
-            sel = np.flatnonzero(self.p == k)
-            if pid in fixed_propellers:
-                _, cp = coefficients_at(fixed_propellers[pid], self.omega[sel])
-                self.cp_fixed[sel] = cp
-            else:
-                self.knots[k] = _knots(self.rpm[sel], knot_count)
-                self.basis[k] = (sel, _hat(self.rpm[sel], self.knots[k]))
-        self.params: list[_Param] = []
-        self.winding_only = np.zeros(len(self.motor_ids))
-        """1 for motors given as fixed MotorParams (their R is the winding alone: R' = R + R_on_path)."""
-
-    def index(self, name: str) -> int:
-        return next(k for k, q in enumerate(self.params) if q.name == name)
-
-    def values(self, x: FloatArray) -> FloatArray:
-        full = np.array([q.value for q in self.params])
-        full[[k for k, q in enumerate(self.params) if q.free]] = x
-        return full
-
-    def motor_columns(self, attr: str) -> list[int]:
-        return [self.index(f"{mid}:{attr}") for mid in self.motor_ids]
-
-    def model(self, full: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, EscParams]:
-        """Electrical power, motor voltage, current and torque per sample for parameter values ``full``."""
-        kv = full[self.motor_columns("kv_rpm_per_v")][self.m] * RAD_S_PER_RPM
-        r = full[self.motor_columns("resistance_ohm")][self.m] + self.winding_only[self.m] * full[
-            self.index("esc:on_path_resistance_ohm")]
-        i0 = full[self.motor_columns("no_load_current_a")][self.m]
-        cp = self.cp_fixed.copy()
-        for k, (sel, basis) in self.basis.items():
-            cp[sel] = basis @ full[[self.index(f"{self.prop_ids[k]}:cp[{j}]") for j in range(self.knots[k].size)]]
-        esc = replace(self.esc, pwm_loss_coefficient=full[self.index("esc:pwm_loss_coefficient")],
-                      on_path_resistance_ohm=full[self.index("esc:on_path_resistance_ohm")])
-        torque = cp * self.torque_scale
-        current = i0 + kv * torque
-        motor_voltage = self.omega / kv + current * r
-        # where the duty is known (full throttle, or a trusted mapping) the ESC losses use it, else V_m / V_bus
-        duty = np.where(self.known_duty, self.duty, motor_voltage / self.v)
-        extra = esc_model.extra_loss_w(self.v, duty, current, r - esc.on_path_resistance_ohm, self.inductance, esc)
-        return motor_voltage * current + extra, kv, r, torque, esc
-
-    def residuals(self, x: FloatArray, with_priors: bool = True) -> FloatArray:
-        full = self.values(x)
-        power, kv, r, torque, esc = self.model(full)
-        measured = self.v * self.i
-        out = [(power - measured) / (POWER_SIGMA[0] * measured + POWER_SIGMA[1])]
-        known = self.known_duty
-        d, v = self.duty[known], self.v[known]
-        extra = esc_model.extra_loss_w(v, d, self.i[known] / d, r[known] - esc.on_path_resistance_ohm,
-                                       self.inductance[known], esc)
-        motor_current = (v * self.i[known] - extra) / (d * v)
-        out.append((self.omega[known] / kv[known] + motor_current * r[known] - d * v) / VOLTAGE_SIGMA_V)
-        has_q = np.isfinite(self.torque)
-        q = self.torque[has_q]
-        out.append((torque[has_q] - q) / (TORQUE_SIGMA[0] * np.abs(q) + TORQUE_SIGMA[1]))
-        if with_priors:
-            out.append(np.array([(full[k] - q_.prior) / q_.prior_sigma for k, q_ in enumerate(self.params)
-                                 if q_.free and q_.prior is not None and math.isfinite(q_.prior_sigma)]))
-        return np.concatenate(out)
-
-    def sparsity(self) -> lil_matrix:
-        """Which residual rows each free parameter can move (finite differences then need ~10 evaluations)."""
-        free = [k for k, q in enumerate(self.params) if q.free]
-        known = np.flatnonzero(self.known_duty)
-        has_q = np.flatnonzero(np.isfinite(self.torque))
-        priors = [k for k in free if self.params[k].prior is not None and math.isfinite(self.params[k].prior_sigma)]
-        s = lil_matrix((self.rpm.size + known.size + has_q.size + len(priors), len(free)), dtype=np.int8)
-        row0 = 0
-        for samples, kinds in ((np.arange(self.rpm.size), ("motor", "prop", "esc")), (known, ("motor", "esc")),
-                               (has_q, ("prop",))):
-            for c, k in enumerate(free):
-                q = self.params[k]
-                if q.kind not in kinds:
-                    continue
-                if q.kind == "motor":
-                    hit = np.flatnonzero(self.m[samples] == q.owner)
-                elif q.kind == "prop":
-                    hit = np.flatnonzero(self.p[samples] == q.owner)
-                else:
-                    hit = np.arange(samples.size)
-                s[row0 + hit, c] = 1
-            row0 += samples.size
-        for j, k in enumerate(priors):
-            s[row0 + j, free.index(k)] = 1
-        return s
-
-    def row_groups(self) -> np.ndarray:
-        """Residual-row labels: 0 power, 1 full-throttle voltage, 2 torque, 3 priors."""
-        sizes = (self.rpm.size, int(np.sum(self.known_duty)), int(np.sum(np.isfinite(self.torque))))
-        return np.concatenate([np.full(n, g) for g, n in enumerate(sizes)])
-
-    def solve(self) -> tuple[FloatArray, FloatArray, FloatArray]:
-        free = [q for q in self.params if q.free]
-        x0 = np.array([min(max(q.value, q.lower), q.upper) for q in free])
-        bounds = (np.array([q.lower for q in free]), np.array([q.upper for q in free]))
-        # the sparsity pattern makes finite differences cheap for pooled fits; tiny problems go dense
-        sparsity = self.sparsity() if x0.size > 5 else None
-        sol = least_squares(self.residuals, x0, bounds=bounds, jac_sparsity=sparsity, x_scale="jac", method="trf")
-        jac = sol.jac.toarray() if hasattr(sol.jac, "toarray") else np.asarray(sol.jac)
-        return sol.x, jac, sol.fun
-
-
-def _start_motor(runs: Sequence[RunData], prior: MotorPrior) -> tuple[float, float]:
-    """Kv and R' starting values: a line through the full-throttle points ``V = Omega/Kv + I R'``."""
-    v = np.concatenate([r.bus_voltage_v[r.duty >= 1.0] for r in runs])
-    i = np.concatenate([r.bus_current_a[r.duty >= 1.0] for r in runs])
-    w = np.concatenate([r.rpm[r.duty >= 1.0] for r in runs]) * RAD_S_PER_RPM
-    kv = prior.kv_rpm_per_v or float(np.max(np.concatenate([r.rpm / r.bus_voltage_v for r in runs]))) * 1.1
-    resistance = prior.resistance_ohm or DEFAULT_START["resistance_ohm"]
-    if v.size >= 2 and np.ptp(i) > 0.0:
-        (inv_kv, r_fit), *_ = np.linalg.lstsq(np.column_stack([w, i]), v, rcond=None)
-        if inv_kv > 0.0 and r_fit > 0.0:
-            kv, resistance = 1.0 / (inv_kv * RAD_S_PER_RPM), float(r_fit)
-    return float(kv), float(resistance)
-
-
-_MOTOR_UNITS = {"kv_rpm_per_v": "rpm/V", "resistance_ohm": "Ω", "no_load_current_a": "A"}
-
-
-def _add_motor_params(problem: _PooledProblem, k: int, mid: str, runs: Sequence[RunData], prior: MotorPrior,
-                      fixed: MotorParams | None, esc: EscParams) -> None:
-    if fixed is not None:
-        problem.winding_only[k] = 1.0
-        for attr, value in (("kv_rpm_per_v", fixed.kv_rpm_per_v), ("resistance_ohm", fixed.resistance_ohm),
-                            ("no_load_current_a", fixed.no_load_current_a)):
-            problem.params.append(_Param(f"{mid}:{attr}", float(value), 0.0, math.inf, _MOTOR_UNITS[attr],
-                                         free=False, source="given", kind="motor", owner=k))
-        return
-    kv0, r0 = _start_motor(runs, prior)
-    r_prior = None if prior.resistance_ohm is None else prior.resistance_ohm + float(esc.on_path_resistance_ohm)
-    specs = (("kv_rpm_per_v", kv0, 1.0, prior.kv_rpm_per_v, KV_PRIOR_RELATIVE_SIGMA),
-             ("resistance_ohm", r0, 1e-4, r_prior, DATASHEET_RELATIVE_SIGMA),
-             ("no_load_current_a", prior.no_load_current_a or DEFAULT_START["no_load_current_a"], 0.0,
-              prior.no_load_current_a, DATASHEET_RELATIVE_SIGMA))
-    for attr, start, lower, prior_value, rel_sigma in specs:
-        problem.params.append(_Param(
-            f"{mid}:{attr}", float(start), lower, math.inf, _MOTOR_UNITS[attr], prior=prior_value,
-            prior_sigma=rel_sigma * prior_value if prior_value else math.inf,
-            source="datasheet" if prior_value is not None else "start", kind="motor", owner=k))
+from .drive_problem import (
+    _MOTOR_UNITS,
+    CP_MOMENTUM_FLOOR,
+    _add_motor_params,
+    _momentum_cp,
+    _Param,
+    _PooledProblem,
+)
+from .propeller import fit_propeller_static
 
 
 def _relative_rms(model: FloatArray, measured: FloatArray) -> float:
