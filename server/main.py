@@ -14,16 +14,15 @@ from starlette.types import ASGIApp
 
 from server import __version__, http_errors
 from server.api import api_router
-from server.config import REPO_ROOT, Settings, get_settings
+from server.config import Settings, get_settings
 from server.db import make_engine, make_sessionmaker
 from server.jobs.runners import runner_for
 from server.limits import MAX_BODY_BYTES
 from server.middleware import SecurityHeaders
 from server.pages import page_router
 from server.pages._render import make_templates
+from server.resources import web_dir
 from server.usage import KeyUsage
-
-WEB = REPO_ROOT / "web"
 
 
 class App(FastAPI):
@@ -70,7 +69,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         max_body_size=MAX_BODY_BYTES,
     )
     app.state.settings = settings
-    app.state.templates = make_templates(WEB / "templates")
+    web = web_dir()
+    app.state.templates = make_templates(web / "templates")
     app.add_middleware(
         SessionMiddleware,
         secret_key=settings.secret_key,
@@ -80,7 +80,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         https_only=settings.cookie_secure,
     )
     app.https = settings.cookie_secure
-    app.mount("/static", StaticFiles(directory=WEB / "static"), name="static")
+    app.mount("/static", StaticFiles(directory=web / "static"), name="static")
     app.include_router(api_router)
     app.include_router(page_router)
     http_errors.install(app)

@@ -1,16 +1,22 @@
-"""Run Alembic programmatically (configuration lives in pyproject.toml, no alembic.ini)."""
+"""Run Alembic programmatically (its configuration is built here; there is no alembic.ini)."""
 
 from __future__ import annotations
 
 from alembic import command
 from alembic.config import Config
 
-from server.config import REPO_ROOT
+from server.resources import migrations_dir
+
+FILE_TEMPLATE = "%(year)d-%(month).2d-%(day).2d_%(rev)s_%(slug)s"
+"""New revisions are named ``YYYY-MM-DD_rev_slug.py``."""
 
 
 def alembic_config(database_url: str) -> Config:
-    cfg = Config(toml_file=str(REPO_ROOT / "pyproject.toml"))
-    cfg.set_main_option("sqlalchemy.url", database_url)
+    """Alembic's configuration: the migrations shipped with the package, the given database."""
+    cfg = Config()
+    cfg.set_main_option("script_location", str(migrations_dir()))
+    cfg.set_main_option("file_template", FILE_TEMPLATE.replace("%", "%%"))  # configparser interpolation
+    cfg.set_main_option("sqlalchemy.url", database_url.replace("%", "%%"))
     return cfg
 
 

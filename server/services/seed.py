@@ -12,16 +12,17 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
 
-from server.config import REPO_ROOT, Settings
+from server.config import Settings
 from server.errors import Conflict
 from server.models import PART_MODELS, Team
+from server.resources import demo_file
 from server.schemas.bench_runs import BenchRunMeta
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.schemas.parts import CREATE_SCHEMAS
 from server.services import bench_runs, missions, parts, teams
 from server.services._validation import validate
 
-DEMO_FILE = REPO_ROOT / "seed_data" / "northfold.json"
+DEMO_FILE = demo_file()
 DEMO_LOGIN = ("engineer@northfold.example", "northfold-demo")
 
 
