@@ -39,6 +39,9 @@ class Settings(BaseSettings):
     job_team_limit: int = Field(default=2, ge=1, le=64)
     # A job that runs longer fails with that reason (cancel and time limits are checked between steps).
     job_time_limit_s: float = Field(default=1800.0, gt=0)
+    # A ranking that screens more combinations than this is split into shards of about this size, each a job of
+    # its own that any free worker runs (0: never split). The merged result equals the unsplit one.
+    ranking_shard_combinations: int = Field(default=2_000_000, ge=0)
     # Threads that serve requests touching the database (the database pool keeps a connection for each).
     request_threads: int = 40
     # Log-in throttling: failures allowed per account and per client address within the window, then 429.

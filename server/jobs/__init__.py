@@ -53,6 +53,10 @@ class Interrupted(JobStopped):
     status = "queued"
 
 
+Submit = Callable[[str, int, int], None]
+"""Queue a stored job: ``submit(kind, job_id, team_id)``."""
+
+
 @dataclass
 class JobContext:
     """What a job body gets: report progress, and ask whether it must stop (cancel, time limit, shutdown)."""
@@ -62,6 +66,10 @@ class JobContext:
     job_id: int
     time_limit_s: float
     stopping: threading.Event
+    submit: Submit | None = None
+    """Queue another job with the runner that runs this one (None: run it in this thread), e.g. a ranking's shards."""
+    shard_combinations: int = 0
+    """A ranking screening more combinations than this is split into shards (0: never)."""
     started: float = field(default_factory=time.monotonic)
     _last_progress: float = 0.0
     _last_check: float = 0.0
@@ -113,10 +121,11 @@ class Kind:
 
 def kinds() -> dict[str, Kind]:
     """Every job kind: the model holding its lifecycle and the body that runs one."""
-    from server.models import FleetPlan, Ranking, Refit
-    from server.services import fleet, rankings, refits
+    from server.models import FleetPlan, Ranking, RankingShard, Refit
+    from server.services import fleet, ranking_shards, rankings, refits
 
     return {"ranking": Kind("ranking", Ranking, rankings.run_job),
+            "ranking_shard": Kind("ranking_shard", RankingShard, ranking_shards.run_shard_job),
             "fleet_plan": Kind("fleet_plan", FleetPlan, fleet.run_job),
             "refit": Kind("refit", Refit, refits.run_job)}
 
@@ -131,7 +140,8 @@ def _end(factory: sessionmaker[Session], model: Any, job_id: int, **values: Any)
 
 
 def execute(factory: sessionmaker[Session], kind: str, job_id: int, *, time_limit_s: float,
-            stopping: threading.Event | None = None, reclaim_running: bool = False) -> str | None:
+            stopping: threading.Event | None = None, reclaim_running: bool = False, submit: Submit | None = None,
+            shard_combinations: int = 0) -> str | None:
     """Claim and run one job; returns how it ended (None when another runner had it, or it was not queued).
 
     ``reclaim_running``: the queue delivered this job again after its worker died mid-job (a retry of the same
@@ -154,7 +164,8 @@ def execute(factory: sessionmaker[Session], kind: str, job_id: int, *, time_limi
         _end(factory, model, job_id, status="failed", finished_at=datetime.now(UTC),
              error=f"failed: interrupted {attempts - 1} times (a worker stopped or died while running it)")
         return "failed"
-    context = JobContext(factory, model, job_id, time_limit_s, stopping or threading.Event())
+    context = JobContext(factory, model, job_id, time_limit_s, stopping or threading.Event(), submit,
+                         shard_combinations)
     try:
         spec.body(factory, job_id, context)
     except JobStopped as stop:

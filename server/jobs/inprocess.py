@@ -31,11 +31,12 @@ class _Queued:
 
 class InProcessRunner:
     def __init__(self, factory: sessionmaker[Session], *, concurrency: int, team_limit: int,
-                 time_limit_s: float) -> None:
+                 time_limit_s: float, shard_combinations: int = 0) -> None:
         self.factory = factory
         self.concurrency = max(1, concurrency)
         self.team_limit = max(1, team_limit)
         self.time_limit_s = time_limit_s
+        self.shard_combinations = shard_combinations
         self._queues: dict[int, deque[_Queued]] = {}
         self._running: Counter[int] = Counter()
         self._served: dict[int, int] = {}
@@ -69,7 +70,8 @@ class InProcessRunner:
                 if job is None:
                     return
             try:
-                execute(self.factory, job.kind, job.job_id, time_limit_s=self.time_limit_s, stopping=self._stopping)
+                execute(self.factory, job.kind, job.job_id, time_limit_s=self.time_limit_s, stopping=self._stopping,
+                        submit=self.submit, shard_combinations=self.shard_combinations)
             except Exception:  # execute records failures itself; this is the database being unreachable
                 log.exception("could not run %s %s", job.kind, job.job_id)
             finally:

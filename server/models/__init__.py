@@ -5,7 +5,7 @@ from server.models.calibrations import Calibration
 from server.models.fleet import FleetPlan
 from server.models.missions import Airframe, Mission
 from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
-from server.models.rankings import Ranking, RankingResult
+from server.models.rankings import Ranking, RankingResult, RankingShard
 from server.models.refits import Refit
 from server.models.shortlists import Shortlist, ShortlistEntry
 from server.models.teams import ApiKey, LoginFailure, LoginSession, Membership, Team, User
@@ -29,6 +29,7 @@ __all__ = [
     "Propeller",
     "Ranking",
     "RankingResult",
+    "RankingShard",
     "Refit",
     "Shortlist",
     "ShortlistEntry",

@@ -5,7 +5,7 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, Integer, String, Text
+from sqlalchemy import JSON, Boolean, DateTime, Float, ForeignKey, Integer, LargeBinary, String, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column
 
 from server.db import Base
@@ -68,3 +68,26 @@ class RankingResult(Base):
     esc_current_a: Mapped[float] = mapped_column(Float)
     cost: Mapped[float | None] = mapped_column(Float, nullable=True)
     metrics: Mapped[dict[str, Any]] = mapped_column(JSON)
+
+
+class RankingShard(TeamOwned, Base):
+    """One shard of a large ranking: a contiguous group of its chunks that any worker screens (a job of its own).
+
+    The reduced result (``partial``: counts, the best candidates, the Pareto set, rejection examples) is kept as
+    ``.npz`` bytes until the ranking merges every shard (server.selection.shards).
+    """
+
+    __tablename__ = "ranking_shard"
+    __table_args__ = (UniqueConstraint("ranking_id", "shard_index"),)
+
+    ranking_id: Mapped[int] = mapped_column(ForeignKey("ranking.id", ondelete="CASCADE"), index=True)
+    shard_index: Mapped[int] = mapped_column(Integer)
+    shard_count: Mapped[int] = mapped_column(Integer)
+    status: Mapped[str] = mapped_column(String(12), default="queued", index=True)
+    progress: Mapped[float] = mapped_column(Float, default=0.0)
+    error: Mapped[str] = mapped_column(Text, default="")
+    cancel_requested: Mapped[bool] = mapped_column(Boolean, default=False)
+    attempts: Mapped[int] = mapped_column(Integer, default=0)
+    partial: Mapped[bytes | None] = mapped_column(LargeBinary, nullable=True)
+    started_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)
+    finished_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from dataclasses import dataclass, replace
 from multiprocessing import get_all_start_methods, get_context
 from typing import Any
 
@@ -51,10 +52,15 @@ class _Progress:
         self.last = value
 
 
-def _tasks(all_chunks: list[Chunk], the_plan: Plan, count: int) -> list[list[Chunk]]:
+def chunk_sizes(all_chunks: list[Chunk], the_plan: Plan) -> np.ndarray:
+    """Candidates in each chunk."""
+    return np.array([(c.c1 - c.c0) * (c.e1 - c.e0) * the_plan.blocks[c.block].shape[2]
+                     * the_plan.blocks[c.block].shape[3] for c in all_chunks], dtype=np.float64)
+
+
+def split_chunks(all_chunks: list[Chunk], the_plan: Plan, count: int) -> list[list[Chunk]]:
     """Split chunks into ``count`` contiguous groups of about equal candidate counts."""
-    sizes = np.array([(c.c1 - c.c0) * (c.e1 - c.e0) * the_plan.blocks[c.block].shape[2]
-                      * the_plan.blocks[c.block].shape[3] for c in all_chunks], dtype=np.float64)
+    sizes = chunk_sizes(all_chunks, the_plan)
     if not sizes.size:
         return []
     edges = np.searchsorted(np.cumsum(sizes), np.linspace(0, sizes.sum(), count + 1)[1:-1], side="right")
@@ -72,7 +78,7 @@ def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropMod
     so that no core idles while work is queued. Partials merge in any order with the same result.
     """
     method = "fork" if "fork" in get_all_start_methods() else "spawn"
-    tasks = _tasks(all_chunks, the_plan, processes * 4)
+    tasks = split_chunks(all_chunks, the_plan, processes * 4)
     total = max(the_plan.evaluated, 1)
     if not tasks:
         return False
@@ -145,40 +151,92 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     RankingOutcome
         Counts per rejection reason, the top rows, the Pareto rows and timings [s].
     """
-    if objective not in OBJECTIVES:
-        raise ValueError(f"unknown objective {objective!r}; choose one of {OBJECTIVES}")
-    if top_n < 0 or chunk_size < 1 or processes < 1:
+    if processes < 1:
         raise ValueError("top_n must be >= 0, chunk_size and processes >= 1")
     report = _Progress(progress)
     report(0.0)
     t0 = time.perf_counter()
-    model = mission.propeller_model(library.propellers)
-    the_plan = plan(library, mission, model)
-    all_chunks = list(chunks(the_plan, chunk_size))
+    prepared = prepare(library, mission, objective=objective, top_n=top_n, chunk_size=chunk_size)
+    the_plan, all_chunks = prepared.plan, prepared.chunks
     t1 = time.perf_counter()
-    partial = Partial(objective, 2 * top_n + 16 if top_n else 0, _id_ranks(library))
+    partial = prepared.empty_partial()
     total = max(the_plan.evaluated, 1)
     cancelled = False
     if processes > 1 and len(all_chunks) > 1:
-        cancelled = _screen_parallel(library, mission, model, the_plan, all_chunks, partial, processes, report,
-                                     should_cancel)
+        cancelled = _screen_parallel(library, mission, prepared.model, the_plan, all_chunks, partial, processes,
+                                     report, should_cancel)
     else:
         for chunk in all_chunks:
             if should_cancel is not None and should_cancel():
                 cancelled = True
                 break
-            screen_chunk(partial, library, mission, model, the_plan, chunk)
+            screen_chunk(partial, library, mission, prepared.model, the_plan, chunk)
             report(SCREEN_SHARE * partial.evaluated / total)
     t2 = time.perf_counter()
+    timings = {"enumerate_s": t1 - t0, "screen_s": t2 - t1}
+    if cancelled:
+        rejected, violations = _counts(the_plan, partial)
+        return RankingOutcome(objective=objective, combinations=the_plan.combinations, evaluated=partial.evaluated,
+                              feasible=int(partial.counts[0]), rejected=rejected, violations=violations, top=[],
+                              pareto=[], timings=timings | {"refine_s": 0.0, "total_s": t2 - t0}, cancelled=True)
+    return finish(library, mission, prepared, partial, timings=timings, progress=report)
+
+
+@dataclass(frozen=True)
+class Prepared:
+    """What every screening pass of one ranking shares: the propeller model, the plan and its chunks (a fixed
+    order, a function of the inputs and the chunk size alone, so that separate processes cut the same chunks)."""
+
+    objective: str
+    top_n: int
+    model: PropModel
+    plan: Plan
+    chunks: list[Chunk]
+    id_ranks: tuple[np.ndarray, ...]
+
+    @property
+    def pool_size(self) -> int:
+        return 2 * self.top_n + 16 if self.top_n else 0
+
+    def empty_partial(self) -> Partial:
+        return Partial(self.objective, self.pool_size, self.id_ranks)
+
+    def rechunked(self, chunk_size: int) -> Prepared:
+        """The same plan cut into chunks of about ``chunk_size`` candidates (results do not depend on it)."""
+        return replace(self, chunks=list(chunks(self.plan, chunk_size)))
+
+
+def prepare(library: PartsLibrary, mission: MissionSpec, *, objective: str, top_n: int,
+            chunk_size: int = DEFAULT_CHUNK_SIZE) -> Prepared:
+    """Check the arguments, build the propeller model, the plan (part-level pruning) and its chunks."""
+    if objective not in OBJECTIVES:
+        raise ValueError(f"unknown objective {objective!r}; choose one of {OBJECTIVES}")
+    if top_n < 0 or chunk_size < 1:
+        raise ValueError("top_n must be >= 0, chunk_size and processes >= 1")
+    model = mission.propeller_model(library.propellers)
+    the_plan = plan(library, mission, model)
+    return Prepared(objective, top_n, model, the_plan, list(chunks(the_plan, chunk_size)), _id_ranks(library))
+
+
+def _counts(the_plan: Plan, partial: Partial) -> tuple[dict[str, int], dict[str, int]]:
     rejected = dict(the_plan.pruned) | {name: int(partial.counts[i + 1]) for i, name in enumerate(REASONS)
                                          if name not in the_plan.pruned}
     violations = {name: int(partial.violations[i]) for i, name in enumerate(REASONS) if name not in the_plan.pruned}
+    return rejected, violations
+
+
+def finish(library: PartsLibrary, mission: MissionSpec, prepared: Prepared, partial: Partial, *,
+           timings: dict[str, float], progress: Callable[[float], None] | None = None) -> RankingOutcome:
+    """From the merged partial of every chunk: refine the best, count, pick the rejection examples, build rows.
+
+    ``partial`` may be the merge, in any order, of partials of disjoint chunk groups (processes or shards): the
+    outcome is the same as one pass over every chunk.
+    """
+    report = progress if isinstance(progress, _Progress) else _Progress(progress)
+    t2 = time.perf_counter()
+    model, the_plan, objective, top_n = prepared.model, prepared.plan, prepared.objective, prepared.top_n
+    rejected, violations = _counts(the_plan, partial)
     feasible = int(partial.counts[0])
-    timings = {"enumerate_s": t1 - t0, "screen_s": t2 - t1}
-    if cancelled:
-        return RankingOutcome(objective=objective, combinations=the_plan.combinations, evaluated=partial.evaluated,
-                              feasible=feasible, rejected=rejected, violations=violations, top=[], pareto=[],
-                              timings=timings | {"refine_s": 0.0, "total_s": t2 - t0}, cancelled=True)
     top, dropped, notes = _refine_top(library, mission, model, partial, top_n, report)
     feasible -= len(dropped)
     rejected["endurance_short"] += len(dropped)
@@ -199,9 +257,10 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
     pareto_rows = build_rows(library, mission, model, front.take(pareto_order))
     t3 = time.perf_counter()
     report(1.0)
+    total = sum(timings.get(name, 0.0) for name in ("enumerate_s", "screen_s")) + (t3 - t2)
     return RankingOutcome(objective=objective, combinations=the_plan.combinations, evaluated=partial.evaluated,
                           feasible=feasible, rejected=rejected, violations=violations, top=top, pareto=pareto_rows,
-                          timings=timings | {"refine_s": t3 - t2, "total_s": t3 - t0}, engine_version=ENGINE_VERSION,
+                          timings=timings | {"refine_s": t3 - t2, "total_s": total}, engine_version=ENGINE_VERSION,
                           notes=notes, rejected_examples=_example_ids(library, examples.by_reason(keys)))
 
 

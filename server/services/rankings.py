@@ -13,11 +13,11 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from server.errors import Conflict, FieldError, InvalidInput, NotFound
 from server.jobs import JobContext, request_cancel
-from server.models import Ranking, RankingResult
+from server.models import Ranking, RankingResult, RankingShard
 from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, constraints, rank
 from server.services import missions as missions_service
-from server.services import ranking_bands
-from server.services.ranking_inputs import engine_inputs, snapshot
+from server.services import ranking_bands, ranking_shards
+from server.services.ranking_inputs import snapshot
 
 log = logging.getLogger("liftmatch.rankings")
 REASON_TEXT = constraints.REASON_TEXT
@@ -101,9 +101,12 @@ def run_job(factory: sessionmaker[Session], ranking_id: int, context: JobContext
         assert ranking is not None
         inputs = ranking.inputs
     started = time.monotonic()
-    library, mission = engine_inputs(inputs)
-    outcome = rank(library, mission, objective=inputs["objective"], top_n=inputs["top_n"],
-                   progress=context.progress, should_cancel=context.should_stop)
+    library, mission, prepared, count = ranking_shards.shards_for(inputs, context.shard_combinations)
+    if count > 1:
+        outcome = ranking_shards.rank_sharded(factory, ranking, library, mission, prepared, count, context)
+    else:
+        outcome = rank(library, mission, objective=inputs["objective"], top_n=inputs["top_n"],
+                       progress=context.progress, should_cancel=context.should_stop)
     if outcome.cancelled:
         context.check()
     escs = {int(i): float(c) for i, c in zip(library.escs.ids, library.escs.continuous_current_a, strict=True)}
@@ -158,6 +161,7 @@ def list_all(session: Session, *, team_id: int, mission_id: int | None = None, l
 def cancel(session: Session, *, team_id: int, ranking_id: int) -> Ranking:
     row = get(session, team_id=team_id, ranking_id=ranking_id)
     request_cancel(row, "ranking")
+    session.execute(update(RankingShard).where(RankingShard.ranking_id == row.id).values(cancel_requested=True))
     session.flush()
     return row
 
