@@ -56,6 +56,15 @@ def _ids(ids: object, n: int) -> np.ndarray:
     return arr
 
 
+def _rows(obj: DataclassInstance, counted: str, skip: tuple[str, ...] = ("ids",)) -> int:
+    """Freeze a part library's arrays, check its ids and that every array has as many rows as ``counted``."""
+    _freeze(obj, skip=skip)
+    n = int(getattr(obj, counted).shape[0])
+    object.__setattr__(obj, "ids", _ids(obj.ids, n))  # type: ignore[attr-defined]
+    _check_lengths(obj, n)
+    return n
+
+
 def _check_lengths(obj: DataclassInstance, n: int) -> None:
     for f in fields(obj):
         if not f.init:
@@ -101,10 +110,7 @@ class PackLibrary:
     otherwise equal candidates go to the better-measured part. None: all measured alike."""
 
     def __post_init__(self) -> None:
-        _freeze(self)
-        n = self.cells_series.shape[0]
-        object.__setattr__(self, "ids", _ids(self.ids, n))
-        _check_lengths(self, n)
+        _rows(self, "cells_series")
 
     def __len__(self) -> int:
         return int(self.cells_series.shape[0])
@@ -153,17 +159,12 @@ class EscLibrary:
     pwm_loss_coefficient: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
-    assumed: np.ndarray | None = None
-    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
-    otherwise equal candidates go to the better-measured part. None: all measured alike."""
+    assumed: np.ndarray | None = None  # as PackLibrary.assumed
     constants: EscConstants = field(init=False, repr=False, compare=False)
     """The loss-term constants of every ESC, combined once (:class:`server.physics.esc.EscConstants`)."""
 
     def __post_init__(self) -> None:
-        _freeze(self, skip=("ids", "constants"))
-        n = self.continuous_current_a.shape[0]
-        object.__setattr__(self, "ids", _ids(self.ids, n))
-        _check_lengths(self, n)
+        _rows(self, "continuous_current_a", skip=("ids", "constants"))
         defaults = EscParams()
         for name, default in (("r_on_path_ohm", defaults.on_path_resistance_ohm),
                               ("switching_frequency_hz", defaults.switching_frequency_hz),
@@ -231,15 +232,10 @@ class MotorLibrary:
     max_cells: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
-    assumed: np.ndarray | None = None
-    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
-    otherwise equal candidates go to the better-measured part. None: all measured alike."""
+    assumed: np.ndarray | None = None  # as PackLibrary.assumed
 
     def __post_init__(self) -> None:
-        _freeze(self)
-        n = self.kv_rpm_per_v.shape[0]
-        object.__setattr__(self, "ids", _ids(self.ids, n))
-        _check_lengths(self, n)
+        _rows(self, "kv_rpm_per_v")
         filled = np.where(np.isnan(self.inductance_h), DEFAULT_INDUCTANCE_H, self.inductance_h)
         filled.setflags(write=False)
         object.__setattr__(self, "inductance_h", filled)
@@ -281,15 +277,10 @@ class PropellerLibrary:
     forward: PropellerTable | None
     mass_kg: np.ndarray
     cost: np.ndarray
-    assumed: np.ndarray | None = None
-    """Per part, how many of its model parameters rest on priors (not stated, not measured); ties between
-    otherwise equal candidates go to the better-measured part. None: all measured alike."""
+    assumed: np.ndarray | None = None  # as PackLibrary.assumed
 
     def __post_init__(self) -> None:
-        _freeze(self, skip=("ids", "static", "forward"))
-        n = self.diameter_m.shape[0]
-        object.__setattr__(self, "ids", _ids(self.ids, n))
-        _check_lengths(self, n)
+        n = _rows(self, "diameter_m", skip=("ids", "static", "forward"))
         for name, table, axis in (("static", self.static, "rpm"), ("forward", self.forward, "advance_ratio")):
             if table is None:
                 continue
