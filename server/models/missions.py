@@ -47,6 +47,7 @@ class Mission(TeamOwned, Timestamped, Versioned, Base):
     pack_current_fraction: Mapped[float] = mapped_column(Float, default=0.8)
     cruise_state_of_charge: Mapped[float] = mapped_column(Float, default=0.5)
     max_all_up_mass_g: Mapped[float | None] = mapped_column(Float, nullable=True)
+    min_thrust_to_weight_motor_out: Mapped[float | None] = mapped_column(Float, nullable=True)
     notes: Mapped[str] = mapped_column(Text, default="")
 
     airframe: Mapped[Airframe] = relationship(back_populates="missions")

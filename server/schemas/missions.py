@@ -59,6 +59,9 @@ class MissionCreate(BaseModel):
         float, 0.05, 1, "", description="State of charge at which the cruise point is scored"
     ) = 0.5
     max_all_up_mass_g: ranged(float, 1, 1_000_000, "g", description="Largest acceptable all-up mass") | None = None  # type: ignore[valid-type]
+    min_thrust_to_weight_motor_out: ranged(  # type: ignore[valid-type]
+        float, 0, 20, "", description="Minimum thrust-to-weight with the worst single motor out (hexa and larger: "
+                                      "a quad cannot hold attitude with one out); blank: not checked") | None = None
     notes: text(4000) = ""  # type: ignore[valid-type]
 
     @model_validator(mode="after")

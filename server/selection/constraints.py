@@ -20,6 +20,8 @@ duty_out_of_band            cruise/hover duty outside [duty_min, duty_max]
 bus_collapse                full-throttle bus below half the open-circuit voltage (past the power peak, thrust
                             no longer rises with duty), at the full or the low state of charge
 below_thrust_to_weight      full-throttle thrust / weight below the floor, at SOC 1 - usable_fraction
+motor_out_thrust_short      that thrust-to-weight times the share left after the worst single motor failure
+                            (:mod:`server.physics.motor_out`) below the mission's motor-out floor (when set)
 motor_over_current          full-throttle motor current (full pack, SOC 1) above the motor's rating
 esc_over_current            ESC continuous rating below esc_current_margin x that current
 pack_over_current           full-throttle pack current above pack_current_fraction x C x capacity x k
@@ -37,6 +39,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from server.physics import motor_out
 from server.physics._types import STANDARD_GRAVITY_M_S2
 from server.physics.drive_screen import Batch, Cruise, FullThrottle, cruise_point, full_throttle_points
 from server.physics.propeller_segments import PropModel
@@ -56,6 +59,7 @@ REASON_TEXT: dict[str, str] = {
     "duty_out_of_band": "cruise duty outside the mission's band",
     "bus_collapse": "pack voltage collapses at full throttle",
     "below_thrust_to_weight": "thrust-to-weight below the mission's minimum",
+    "motor_out_thrust_short": "thrust-to-weight with one motor out below the mission's minimum",
     "motor_over_current": "full-throttle current above the motor's rating",
     "esc_over_current": "ESC rating below the required margin",
     "pack_over_current": "pack current above the allowed share of its C rating",
@@ -151,6 +155,12 @@ def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: Fu
             _at_least("bus_collapse", np.minimum(low.bus_voltage_v / batch.voc_low_v,
                                                  full.bus_voltage_v / batch.voc_full_v), BUS_COLLAPSE_FRACTION, "-"),
             _at_least("below_thrust_to_weight", thrust_to_weight, mission.min_thrust_to_weight, "-"),
+        ]
+        if mission.min_thrust_to_weight_motor_out is not None:
+            left = motor_out.worst_thrust_fraction(mission.rotor_count)
+            checks.append(_at_least("motor_out_thrust_short", left * thrust_to_weight,
+                                    mission.min_thrust_to_weight_motor_out, "-"))
+        checks += [
             _at_most("motor_over_current", full.motor_current_a, batch.motor_rating_a, "A"),
             # The ESC must carry the margin times the full-throttle current: the current it needs is compared.
             _at_most("esc_over_current", mission.esc_current_margin * full.motor_current_a, batch.esc_rating_a, "A"),

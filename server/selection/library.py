@@ -340,6 +340,8 @@ class MissionSpec:
     pack_current_fraction: float = 0.8
     cruise_state_of_charge: float = 0.5
     max_all_up_mass_kg: float | None = None
+    min_thrust_to_weight_motor_out: float | None = None
+    """Thrust-to-weight floor with the worst single motor out (:mod:`server.physics.motor_out`); None: unchecked."""
 
     def __post_init__(self) -> None:
         if self.kind not in ("hover", "cruise"):

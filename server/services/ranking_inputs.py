@@ -83,6 +83,7 @@ MISSION_FIELDS = [
     "pack_current_fraction",
     "cruise_state_of_charge",
     "max_all_up_mass_g",
+    "min_thrust_to_weight_motor_out",
 ]
 AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel"]
 
@@ -251,6 +252,7 @@ def mission_spec(ms: dict[str, Any], af: dict[str, Any]) -> MissionSpec:
         pack_current_fraction=ms["pack_current_fraction"],
         cruise_state_of_charge=ms["cruise_state_of_charge"],
         max_all_up_mass_kg=None if ms["max_all_up_mass_g"] is None else ms["max_all_up_mass_g"] / 1000,
+        min_thrust_to_weight_motor_out=ms.get("min_thrust_to_weight_motor_out"),  # absent in older snapshots
     )
 
 

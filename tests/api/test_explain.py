@@ -89,3 +89,24 @@ def test_cli_prints_the_api_document(client: TestClient, ranked: Any, db_url: st
     assert "feasible" in text and "below_thrust_to_weight" in text
     assert main(["explain", "--mission", "999999", "--battery", "1", "--esc", "1", "--motor", "1",
                  "--propeller", "1"]) == 1
+
+
+def test_the_motor_out_mission_checks_two_thirds_of_the_hexas_thrust(app: Any, client: TestClient) -> None:
+    """The demo hexa's motor-out mission: every ranked row keeps 2/3 of its T/W with the worst motor out (the hand
+    calculation in docs/model-reference.md#motor-out) above the floor, and the limit rejects systems the plain
+    mission keeps."""
+    headers, missions = demo_key(app)
+    counts = {}
+    for name in ("H6 structure inspection", "H6 structure inspection, motor-out"):
+        rid = client.post("/api/v1/rankings", json={"mission_id": missions[name], "top_n": 5},
+                          headers=headers).json()["id"]
+        counts[name] = wait_done(client, headers, rid)
+    status = counts["H6 structure inspection, motor-out"]
+    assert status["rejected"].get("motor_out_thrust_short", 0) > 0
+    assert status["feasible"] < counts["H6 structure inspection"]["feasible"]
+    row = client.get(f"/api/v1/rankings/{status['id']}/results?page_size=1", headers=headers).json()["items"][0]
+    body = client.post("/api/v1/explain", json={"ranking_id": status["id"], **{k: row[k] for k in KEYS}},
+                       headers=headers).json()
+    check = next(c for c in body["checks"] if c["reason"] == "motor_out_thrust_short")
+    assert check["passed"] and check["limit"] == 1.5
+    assert check["value"] == pytest.approx(2.0 / 3.0 * row["full_throttle"]["thrust_to_weight"], rel=1e-9)

@@ -26,6 +26,12 @@ G0 = STANDARD_GRAVITY_M_S2
 ESC_DEFAULTS = EscParams()
 
 
+MOTOR_OUT_SHARE = {4: 0.0, 6: 2.0 / 3.0, 8: 1.0 / math.sqrt(2.0)}
+"""Thrust share left with the worst single motor out, by hand (docs/model-reference.md#motor-out): a hexa trims by
+stopping the opposite rotor (4 of 6), an octo by running the three rotors across from the failed one at
+sqrt(2) - 1, 2 (sqrt(2) - 1) and sqrt(2) - 1 of full thrust; a quad cannot trim at all."""
+
+
 @dataclass
 class Record:
     key: tuple[int, int, int, int, int]  # pack, k, esc, motor, prop (library positions)
@@ -135,6 +141,8 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             ("bus_collapse", not (float(low.bus_voltage_v[0]) >= 0.5 * voc(1.0 - mission.usable_fraction)
                                   and float(full.bus_voltage_v[0]) >= 0.5 * voc(1.0))),
             ("below_thrust_to_weight", not tw >= mission.min_thrust_to_weight),
+            ("motor_out_thrust_short", mission.min_thrust_to_weight_motor_out is not None and not (
+                MOTOR_OUT_SHARE[int(mission.rotor_count)] * tw >= mission.min_thrust_to_weight_motor_out)),
             ("motor_over_current", not i_full <= float(mo.max_current_a[m])),
             ("esc_over_current", not float(es.continuous_current_a[e]) >= mission.esc_current_margin * i_full),
             ("pack_over_current", not n_r * i_full <= mission.pack_current_fraction * float(

@@ -72,6 +72,8 @@ CASES = {
     # 55 mOhm per cell (a worn pack): the full-throttle bus sags below half of V_oc; hover is still reachable.
     "bus_collapse": ({"pack": {"cell_resistance_ohm": [0.055]}}, {"duty_max": 1.0, "min_thrust_to_weight": 0.0}),
     "below_thrust_to_weight": ({}, {"min_thrust_to_weight": 4.0}),
+    # a quad keeps no trimmed hover with a motor out (share 0): any motor-out floor rejects it
+    "motor_out_thrust_short": ({}, {"min_thrust_to_weight_motor_out": 0.5}),
     "motor_over_current": ({"motor": {"max_current_a": [12.0]}}, {}),
     "esc_over_current": ({"esc": {"continuous_current_a": [16.0]}}, {}),
     "pack_over_current": ({"pack": {"max_continuous_c": [4.0]}}, {}),

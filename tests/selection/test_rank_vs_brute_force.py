@@ -16,6 +16,8 @@ MISSIONS = {
     "hover": parts.hover_mission(),
     # A fixed wing with a low launch floor and a wide band, so that several candidates are feasible.
     "cruise": parts.cruise_mission(duty_max=0.99, min_thrust_to_weight=0.25),
+    # A hexa that must hold T/W 1.4 with its worst motor out: some pass T/W 1.8 intact and fail this one.
+    "hexa_motor_out": parts.hover_mission(rotor_count=6, frame_mass_kg=1.3, min_thrust_to_weight_motor_out=1.4),
 }
 
 
@@ -39,7 +41,7 @@ def _brute_key(record: brute.Record) -> tuple[object, ...]:
 
 
 @pytest.mark.parametrize("objective", ["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
-@pytest.mark.parametrize("kind", ["hover", "cruise"])
+@pytest.mark.parametrize("kind", ["hover", "cruise", "hexa_motor_out"])
 def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objective: str) -> None:
     mission: MissionSpec = MISSIONS[kind]
     counts, feasible = reference[kind]
@@ -69,6 +71,8 @@ def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objecti
         assert row.endurance_refined
     rejected = {k: v for k, v in out.rejected.items() if v}
     assert rejected == counts
+    if mission.min_thrust_to_weight_motor_out is not None:
+        assert counts.get("motor_out_thrust_short", 0) > 0  # the limit bites on this library
     assert out.feasible == len(feasible)
     assert out.feasible + sum(out.rejected.values()) == out.combinations
     assert set(out.rejected) == set(REASONS)
