@@ -47,12 +47,13 @@ def _pack(library: PartsLibrary, mission: MissionSpec, cs: CandidateSet) -> Pack
 
 
 def refine(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: CandidateSet,
-           method: str = "fast") -> tuple[np.ndarray, list[str]]:
-    """Endurance [min] and stop reason of each candidate of ``cs`` by the constant-thrust discharge."""
+           method: str = "fast", soc_step: float = endurance.DEFAULT_SOC_STEP) -> tuple[np.ndarray, list[str]]:
+    """Endurance [min] and stop reason of each candidate of ``cs`` by the constant-thrust discharge
+    (``soc_step``: the march's step, fast path only; the ranking keeps the reference step)."""
     if len(cs) == 0:
         return np.empty(0), []
     if method == "fast":
-        time_s, reason = _fast(library, mission, model, cs)
+        time_s, reason = _fast(library, mission, model, cs, soc_step)
     elif method == "reference":
         time_s, reason = _reference(library, mission, model, cs)
     else:
@@ -61,12 +62,12 @@ def refine(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: Ca
     return minutes, [STOP_REASONS.get(int(r), "unknown") for r in np.asarray(reason)]
 
 
-def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel,
-          cs: CandidateSet) -> tuple[np.ndarray, np.ndarray]:
+def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: CandidateSet,
+          soc_step: float = endurance.DEFAULT_SOC_STEP) -> tuple[np.ndarray, np.ndarray]:
     """Every node of every candidate in one screening call, then the physics engine's march."""
     pack = _pack(library, mission, cs)
     n = len(cs)
-    nodes = fast.constant_thrust_nodes(1.0, pack, (n,))
+    nodes = fast.constant_thrust_nodes(1.0, pack, (n,), soc_step)
     full_v = library.packs.full_voltage_per_cell_v[cs.pack]
     voc = pack.cells_series[:, np.newaxis] * open_circuit_voltage_per_cell_v(nodes, full_v[:, np.newaxis])
     flat = batch_for(library, mission, *cs.indices())
@@ -77,7 +78,7 @@ def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel,
     pack_current = np.broadcast_to(float(mission.rotor_count) * cruise.bus_current_a, shape)
     result = fast.march_constant_thrust(
         nodes, pack_current, np.broadcast_to(cruise.bus_voltage_v, shape), np.broadcast_to(cruise.duty, shape),
-        np.broadcast_to(cruise.reachable, shape), ~np.isfinite(voc), pack=pack)
+        np.broadcast_to(cruise.reachable, shape), ~np.isfinite(voc), pack=pack, soc_step=soc_step)
     return result.time_s, result.stop_reason
 
 

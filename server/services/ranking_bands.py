@@ -37,6 +37,9 @@ from server.services.ranking_inputs import LIBRARY_COLUMNS, PART_FIELDS, engine_
 SAMPLES = 100
 """Draws per row: the 10th/90th percentiles of 100 draws move by about 1/4 of a standard uncertainty between
 seeds, fine for grouping rows; predict uses :data:`server.physics.uncertainty.DEFAULT_SAMPLES`."""
+DRAW_SOC_STEP = 0.04
+"""SOC step of the drawn discharges (the row itself keeps the reference 0.01; as for predict's endurance band, the
+coarser march moves a band by far less than its width)."""
 MAX_ROWS = 120
 """Rows that get bands (top rows first, then Pareto rows); the rest show none."""
 BAND_METRICS = {
@@ -139,7 +142,7 @@ def _metrics(snap: dict[str, Any], systems: list[tuple[dict[str, dict[str, Any]]
         which = index[refined]
         zeros = np.zeros(which.size)
         cs = CandidateSet(which, k_all[which], which, which, which, *(zeros for _ in range(6)))
-        endurance[which], _ = refine(library, mission, model, cs)
+        endurance[which], _ = refine(library, mission, model, cs, soc_step=DRAW_SOC_STEP)
     out = []
     for i, d in enumerate(drawn):
         rows = slice(i * samples, (i + 1) * samples)
@@ -150,13 +153,6 @@ def _metrics(snap: dict[str, Any], systems: list[tuple[dict[str, dict[str, Any]]
                     "endurance_min": endurance[rows] / factor,
                     "feasible": np.asarray(sc.code)[rows] == 0})
     return out
-
-
-def _band(values: np.ndarray) -> list[float] | None:
-    lo, hi = uncertainty.band(values)
-    if not (np.isfinite(lo) and np.isfinite(hi)):
-        return None
-    return [float(lo), float(hi)]
 
 
 def rows_bands(snap: dict[str, Any], rows: list[CandidateRow], samples: int = SAMPLES) -> list[dict[str, Any]]:
@@ -172,21 +168,31 @@ def rows_bands(snap: dict[str, Any], rows: list[CandidateRow], samples: int = SA
                     int(rows[i].packs_in_parallel), False) for i in with_priors]
     metrics = _metrics(snap, everything + priors_only, samples)
     assumed_metrics = dict(zip(with_priors, metrics[len(rows):], strict=True))
+
+    def bands_of(name: str, which: list[dict[str, np.ndarray]]) -> list[list[float] | None]:
+        lo, hi = uncertainty.band(np.stack([m[name] for m in which]), axis=1)  # one percentile call per metric
+        return [[float(a), float(b)] if np.isfinite(a) and np.isfinite(b) else None for a, b in zip(lo, hi,
+                                                                                                     strict=True)]
+
+    own = metrics[:len(rows)]
+    power, specific, tw, minutes = (bands_of(name, own) for name in (
+        "electrical_power_w", "specific_thrust_g_per_w", "thrust_to_weight", "endurance_min"))
+    assumed_power = dict(zip(with_priors, bands_of("electrical_power_w", [assumed_metrics[i] for i in with_priors]),
+                             strict=True)) if with_priors else {}
     out = []
-    for i, ((_, system), m) in enumerate(zip(systems, metrics[:len(rows)], strict=True)):
-        full = _band(m["electrical_power_w"])
+    for i, ((_, system), m) in enumerate(zip(systems, own, strict=True)):
+        full = power[i]
         share: float | None = 0.0
-        if i in assumed_metrics:
-            assumed = _band(assumed_metrics[i]["electrical_power_w"])
+        if i in assumed_power:
+            assumed = assumed_power[i]
             share = None
             if full is not None and assumed is not None and full[1] > full[0]:
                 share = min(1.0, (assumed[1] - assumed[0]) / (full[1] - full[0]))
         out.append({
             "level": uncertainty.BAND_LEVEL,
-            "cruise": {"electrical_power_w_band": full,
-                       "specific_thrust_g_per_w_band": _band(m["specific_thrust_g_per_w"])},
-            "full_throttle": {"thrust_to_weight_band": _band(m["thrust_to_weight"])},
-            "endurance_min_band": _band(m["endurance_min"]),
+            "cruise": {"electrical_power_w_band": full, "specific_thrust_g_per_w_band": specific[i]},
+            "full_throttle": {"thrust_to_weight_band": tw[i]},
+            "endurance_min_band": minutes[i],
             "feasible_share": float(np.mean(m["feasible"])),
             "assumed_share": share,
             "assumed": {"battery": system.battery.assumed, "esc": system.esc.assumed, "motor": system.motor.assumed,

@@ -39,6 +39,7 @@ def test_bands_without_uncertainty_are_the_rows_own_numbers(app: FastAPI, client
     assert rows
     exact = bands.drawn_values
     monkeypatch.setattr(bands, "drawn_values", lambda system, samples, **_: exact(system, samples, vary=()))
+    monkeypatch.setattr(ranking_bands, "DRAW_SOC_STEP", 0.01)  # the row's own discharge step: the same path
     for row, banded in zip(rows, ranking_bands.with_bands(snap, "cruise_power", rows), strict=True):
         for got, want in ((banded["cruise"]["electrical_power_w_band"], row.cruise["electrical_power_w"]),
                           (banded["cruise"]["specific_thrust_g_per_w_band"], row.cruise["specific_thrust_g_per_w"]),
@@ -75,3 +76,17 @@ def test_objectives_without_a_band_compare_values() -> None:
     assert ranking_bands.indistinguishable(best, c, "cruise_power") is True
     assert ranking_bands.indistinguishable(best, d, "cruise_power") is False
     assert ranking_bands.indistinguishable(best, {"rank": 4, "cruise": {}}, "cruise_power") is None
+
+
+def test_the_coarser_discharge_step_of_the_draws_moves_the_endurance_band_far_less_than_its_width(
+        app: FastAPI, client: TestClient, monkeypatch: pytest.MonkeyPatch) -> None:
+    snap = _snapshot(app, "hover")
+    library, mission = engine_inputs(snap)
+    rows = rank(library, mission, objective="cruise_power", top_n=8).top
+    coarse = ranking_bands.with_bands(snap, "cruise_power", rows)
+    monkeypatch.setattr(ranking_bands, "DRAW_SOC_STEP", 0.01)
+    fine = ranking_bands.with_bands(snap, "cruise_power", rows)
+    for c, f in zip(coarse, fine, strict=True):
+        (lo_c, hi_c), (lo_f, hi_f) = c["endurance_min_band"], f["endurance_min_band"]
+        assert max(abs(lo_c - lo_f), abs(hi_c - hi_f)) < 0.02 * (hi_f - lo_f)
+        assert c["cruise"]["electrical_power_w_band"] == f["cruise"]["electrical_power_w_band"]
