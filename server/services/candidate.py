@@ -8,15 +8,19 @@ pack. Limits are the mission's (defaults are common practice, no source).
 
 from __future__ import annotations
 
+import copy
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput, NotFound
-from server.models import Battery, Esc, Mission, Motor, Propeller
-from server.physics import drive, endurance, fast, sizing
+from server.models import Battery, Calibration, Esc, Mission, Motor, Propeller
+from server.physics import ENGINE_VERSION, drive, endurance, fast, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
@@ -107,10 +111,54 @@ def _losses(op: OperatingPoint) -> dict[str, float | None]:
     return {name: _f(loss_value(op, where)) for name, where, _ in LOSS_TERMS}
 
 
+CACHE_SIZE = 512
+"""Evaluations kept per process (a compare page of six entries needs six)."""
+_cache: OrderedDict[tuple[Any, ...], dict[str, Any]] = OrderedDict()
+_cache_lock = threading.Lock()
+
+
+def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds,
+               with_curves: bool) -> tuple[Any, ...]:
+    """Everything an evaluation depends on, by version: the engine, the mission and its airframe, the four parts and
+    every active calibration of the team (a part's own, and the ESCs' pooled k_pwm prior). Any edit, calibration
+    or switch changes a version or the set, so a cached evaluation is never served after a change."""
+    parts = []
+    for kind, part_id in (("batteries", ids.battery_id), ("escs", ids.esc_id), ("motors", ids.motor_id),
+                          ("propellers", ids.propeller_id)):
+        try:
+            part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+        except NotFound as exc:
+            raise InvalidInput("Unknown part", [FieldError("part", str(exc))]) from None
+        parts.append((kind, part.id, part.version))
+    calibrations = tuple(session.scalars(select(Calibration.id).where(
+        Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id)))
+    return (ENGINE_VERSION, team_id, mission.id, mission.version, mission.airframe.id, mission.airframe.version,
+            tuple(parts), ids.packs_in_parallel, calibrations, with_curves)
+
+
 def evaluate(
     session: Session, *, team_id: int, mission: Mission, ids: CandidateIds, with_curves: bool = False
 ) -> dict[str, Any]:
-    """Every number the compare page shows for one candidate (craft totals unless named per rotor)."""
+    """Every number the compare page shows for one candidate (craft totals unless named per rotor).
+
+    Cached per process by :func:`_cache_key` (the same inputs give the same numbers; a change gives a new key)."""
+    key = _cache_key(session, team_id=team_id, mission=mission, ids=ids, with_curves=with_curves)
+    with _cache_lock:
+        cached = _cache.get(key)
+        if cached is not None:
+            _cache.move_to_end(key)
+            return copy.deepcopy(cached)
+    metrics = _evaluate(session, team_id=team_id, mission=mission, ids=ids, with_curves=with_curves)
+    with _cache_lock:
+        _cache[key] = copy.deepcopy(metrics)
+        while len(_cache) > CACHE_SIZE:
+            _cache.popitem(last=False)
+    return metrics
+
+
+def _evaluate(
+    session: Session, *, team_id: int, mission: Mission, ids: CandidateIds, with_curves: bool = False
+) -> dict[str, Any]:
     c = load(session, team_id=team_id, mission=mission, ids=ids)
     rotors = c.mission.airframe.rotor_count
     cruise = drive.for_thrust(c.thrust_required_n, **c.point_at_soc(mission.cruise_state_of_charge))

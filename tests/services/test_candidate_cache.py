@@ -1,0 +1,66 @@
+"""Compare evaluations are cached by the versions of everything they depend on: a repeat is served from the cache,
+any edit of a part, the mission or a calibration switch is evaluated afresh (never a stale number)."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+from fastapi import FastAPI
+from fastapi.testclient import TestClient
+from sqlalchemy import select
+
+from server.db import transaction
+from server.models import PART_MODELS, Calibration, Mission
+from server.services import calibrations, candidate, missions
+from server.services import parts as parts_service
+
+pytestmark = pytest.mark.demo_data
+SYSTEM = {"batteries": "NS-B4S-5200", "escs": "NS-E45", "motors": "NS-M3508-460", "propellers": "NS-P13x4.4"}
+
+
+def _ids(session: Any) -> tuple[Mission, candidate.CandidateIds]:
+    mission = session.scalars(select(Mission).where(Mission.name == "Q4 mapping survey")).one()
+    ids = {k: session.scalars(select(PART_MODELS[k].id).where(PART_MODELS[k].part_number == n)).one()
+           for k, n in SYSTEM.items()}
+    return mission, candidate.CandidateIds(ids["batteries"], ids["escs"], ids["motors"], ids["propellers"])
+
+
+def test_repeat_is_cached_and_every_change_is_seen(app: FastAPI, client: TestClient,
+                                                   monkeypatch: pytest.MonkeyPatch) -> None:
+    calls = []
+    real = candidate._evaluate
+    monkeypatch.setattr(candidate, "_evaluate", lambda *a, **k: calls.append(1) or real(*a, **k))
+    factory = app.state.sessionmaker
+
+    def power() -> float:
+        with factory() as session:
+            mission, ids = _ids(session)
+            value = candidate.evaluate(session, team_id=mission.team_id, mission=mission, ids=ids)
+            return float(value["cruise"]["electrical_power_w"])
+
+    first = power()
+    assert power() == first and len(calls) == 1  # served from the cache
+    with transaction(factory) as session:
+        mission, ids = _ids(session)
+        motor = parts_service.get_part(session, team_id=mission.team_id, kind="motors", part_id=ids.motor_id)
+        parts_service.update_part(session, team_id=mission.team_id, user_id=None, kind="motors", part_id=motor.id,
+                                  changes={"mass_g": motor.mass_g + 100}, expected_version=motor.version)
+    heavier = power()
+    assert len(calls) == 2 and heavier > first  # the edit is seen
+    with transaction(factory) as session:
+        mission, _ = _ids(session)
+        missions.update_mission(session, team_id=mission.team_id, mission_id=mission.id,
+                                changes={"payload_mass_g": mission.payload_mass_g + 200},
+                                expected_version=mission.version)
+    assert power() > heavier and len(calls) == 3
+    with transaction(factory) as session:
+        mission, ids = _ids(session)
+        active = session.scalars(select(Calibration).where(Calibration.part_kind == "escs",
+                                                           Calibration.part_id == ids.esc_id,
+                                                           Calibration.active.is_(True))).first()
+        assert active is not None  # the demo's sweeps calibrate NS-E45
+        calibrations.set_active(session, team_id=mission.team_id, calibration_id=active.id, active=False)
+    before = len(calls)
+    power()
+    assert len(calls) == before + 1  # a calibration switch is a new key
