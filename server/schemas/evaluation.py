@@ -156,6 +156,16 @@ class Ratings(Result):
     pack_allowed_current_a: float | None = None
 
 
+class SystemBands(Result):
+    """80 % bands (10th–90th percentile over every parameter's uncertainty) of one power system's numbers."""
+
+    level: float = 0.8
+    cruise_electrical_power_w: list[float] | None = Field(default=None, description="Whole craft [W]")
+    cruise_specific_thrust_g_per_w: list[float] | None = None
+    full_throttle_thrust_to_weight: list[float] | None = None
+    endurance_min: list[float] | None = None
+
+
 class CandidateEvaluation(Result):
     """Every number of one power system for one mission (craft totals unless a field says per rotor)."""
 
@@ -179,3 +189,9 @@ class CandidateEvaluation(Result):
     sources: dict[str, dict[str, str]] = Field(
         default_factory=dict, description="Per part kind, where each parameter came from")
     curves: dict[str, list[float | None]] | None = None
+    bands: SystemBands | None = Field(default=None, description="80 % bands of the ranking engine's numbers")
+    assumed: RowAssumptions | None = Field(default=None, description="Parameters resting on priors, per part")
+    assumed_share: float | None = Field(
+        default=None, description="Width of the cruise-power band with only priors varied ÷ its full width [-]")
+    feasible_share: float | None = Field(
+        default=None, description="Share of the uncertainty draws in which the system passes every limit [-]")

@@ -26,6 +26,7 @@ from server.physics.battery import PackParams
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.services import parts as parts_service
 from server.services import power_system as ps
+from server.services import ranking_bands
 from server.services.ranking_inputs import mission_spec_of
 
 G0 = STANDARD_GRAVITY_M_S2
@@ -225,6 +226,9 @@ def _evaluate(
     }
     if with_curves:
         metrics["curves"] = curves(c)
+    metrics |= ranking_bands.for_system(session, team_id=team_id, mission=mission, battery_id=ids.battery_id,
+                                        esc_id=ids.esc_id, motor_id=ids.motor_id, propeller_id=ids.propeller_id,
+                                        packs_in_parallel=ids.packs_in_parallel)
     return metrics
 
 

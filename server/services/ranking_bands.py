@@ -22,7 +22,9 @@ from dataclasses import fields, replace
 from typing import Any
 
 import numpy as np
+from sqlalchemy.orm import Session
 
+from server.models import Mission
 from server.physics import uncertainty
 from server.physics.propeller import PropellerTable
 from server.selection import CandidateRow, PartsLibrary
@@ -32,7 +34,7 @@ from server.selection.refine import refine
 from server.selection.result import CandidateSet
 from server.services import bands
 from server.services import power_system as ps
-from server.services.ranking_inputs import LIBRARY_COLUMNS, PART_FIELDS, engine_inputs
+from server.services.ranking_inputs import LIBRARY_COLUMNS, PART_FIELDS, engine_inputs, snapshot
 
 SAMPLES = 100
 """Draws per row: the 10th/90th percentiles of 100 draws move by about 1/4 of a standard uncertainty between
@@ -199,6 +201,28 @@ def rows_bands(snap: dict[str, Any], rows: list[CandidateRow], samples: int = SA
                         "propeller": system.propeller.assumed},
         })
     return out
+
+
+def for_system(session: Session, *, team_id: int, mission: Mission, battery_id: int, esc_id: int, motor_id: int,
+               propeller_id: int, packs_in_parallel: int) -> dict[str, Any]:
+    """Bands, assumptions and feasible share of one power system for a mission, through the ranking engine (the
+    shortlist compare shows them beside its full-physics numbers); empty when the system has no operating point."""
+    from server.selection.explain import explain as explain_candidate
+
+    only = {"batteries": [battery_id], "escs": [esc_id], "motors": [motor_id], "propellers": [propeller_id]}
+    snap = snapshot(session, team_id=team_id, mission=mission, only=only)
+    library, spec = engine_inputs(snap)
+    if not 1 <= packs_in_parallel <= spec.max_packs_in_parallel or any(not rows for rows in snap["parts"].values()):
+        return {}
+    verdict = explain_candidate(library, spec, pack=0, packs_in_parallel=packs_in_parallel, esc=0, motor=0, prop=0)
+    if verdict.row is None:
+        return {}
+    (b,) = rows_bands(snap, [verdict.row])
+    return {"bands": {"level": b["level"], "cruise_electrical_power_w": b["cruise"]["electrical_power_w_band"],
+                      "cruise_specific_thrust_g_per_w": b["cruise"]["specific_thrust_g_per_w_band"],
+                      "full_throttle_thrust_to_weight": b["full_throttle"]["thrust_to_weight_band"],
+                      "endurance_min": b["endurance_min_band"]},
+            "assumed": b["assumed"], "assumed_share": b["assumed_share"], "feasible_share": b["feasible_share"]}
 
 
 def objective_band(metrics: dict[str, Any], objective: str) -> list[float] | None:
