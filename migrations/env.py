@@ -20,6 +20,11 @@ def _url() -> str:
     return get_settings().database_url
 
 
+def _ours(name: str | None, type_: str, parent_names: object) -> bool:
+    """Leave the job queue's own tables (procrastinate_*, PostgreSQL only; server/jobs/pgqueue.py) to the queue."""
+    return not (type_ == "table" and name is not None and name.startswith("procrastinate_"))
+
+
 def run_migrations_offline() -> None:
     url = _url()
     context.configure(
@@ -28,6 +33,7 @@ def run_migrations_offline() -> None:
         literal_binds=True,
         render_as_batch=url.startswith("sqlite"),
         compare_type=True,
+        include_name=_ours,
     )
     with context.begin_transaction():
         context.run_migrations()
@@ -47,6 +53,7 @@ def run_migrations_online() -> None:
             target_metadata=target_metadata,
             render_as_batch=sqlite,
             compare_type=True,
+            include_name=_ours,
         )
         with context.begin_transaction():
             context.run_migrations()

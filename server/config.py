@@ -42,6 +42,8 @@ class Settings(BaseSettings):
     # A ranking that screens more combinations than this is split into shards of about this size, each a job of
     # its own that any free worker runs (0: never split). The merged result equals the unsplit one.
     ranking_shard_combinations: int = Field(default=2_000_000, ge=0)
+    # PostgreSQL workers: one silent (no heartbeat) this long is taken for dead and its jobs run again elsewhere.
+    job_stalled_after_s: float = Field(default=20.0, ge=2.0, le=3600.0)
     # Threads that serve requests touching the database (the database pool keeps a connection for each).
     request_threads: int = 40
     # Log-in throttling: failures allowed per account and per client address within the window, then 429.

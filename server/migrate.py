@@ -21,8 +21,12 @@ def alembic_config(database_url: str) -> Config:
 
 
 def upgrade(database_url: str, revision: str = "head") -> None:
-    """Bring the database at ``database_url`` to ``revision``."""
+    """Bring the database at ``database_url`` to ``revision`` (on PostgreSQL, also create the job queue's schema)."""
     command.upgrade(alembic_config(database_url), revision)
+    if database_url.startswith("postgresql"):
+        from server.jobs.pgqueue import install
+
+        install(database_url)
 
 
 def downgrade(database_url: str, revision: str) -> None:

@@ -157,3 +157,8 @@ def test_export_then_import_into_another_team(cli_env: str, capsys: pytest.Captu
     assert counts["motors"] == len(json.loads(target.read_text())["parts"]["motors"]) >= 12
     (tmp_path / "broken.json").write_text("{")
     assert main(["import", str(tmp_path / "broken.json"), "--team", "Second site"]) == 1
+
+
+def test_worker_refuses_the_embedded_database(cli_env: str, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["worker", "--concurrency", "2"]) == 1
+    assert "needs PostgreSQL" in capsys.readouterr().err

@@ -9,6 +9,7 @@ from __future__ import annotations
 import os
 import time
 from collections.abc import Iterator
+from pathlib import Path
 
 import pytest
 from fastapi.testclient import TestClient
@@ -20,6 +21,7 @@ from server.main import create_app
 from server.services import seed
 from tests.conftest import make_settings
 from tests.factories import make_library, make_team, part_payload
+from tests.pg_workers import workers
 
 PG_URL = os.environ.get("LIFTMATCH_TEST_PG_URL")
 if not PG_URL:
@@ -39,10 +41,11 @@ def fresh_migrated_database() -> None:
 
 
 @pytest.fixture
-def pg_client() -> Iterator[TestClient]:
+def pg_client(tmp_path: Path) -> Iterator[TestClient]:
+    """The app on PostgreSQL, with one ``liftmatch worker`` process to run its jobs."""
     assert PG_URL
     fresh_migrated_database()
-    with TestClient(create_app(make_settings(PG_URL))) as client:
+    with workers(PG_URL, tmp_path), TestClient(create_app(make_settings(PG_URL))) as client:
         yield client
 
 

@@ -13,12 +13,12 @@ from collections.abc import Sequence
 
 from pydantic import ValidationError
 
-from server.cli import bench_runs, exchange, explain, fleet, predict, rankings, serve, teams
+from server.cli import bench_runs, exchange, explain, fleet, predict, rankings, serve, teams, worker
 from server.cli._common import CliError, Handler
 from server.config import get_settings
 from server.errors import DomainError
 
-MODULES = (serve, teams, predict, rankings, explain, bench_runs, exchange, fleet)
+MODULES = (serve, teams, predict, rankings, explain, bench_runs, exchange, fleet, worker)
 
 
 def build_parser() -> argparse.ArgumentParser:
