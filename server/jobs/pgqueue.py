@@ -7,7 +7,7 @@ a concurrency setting, and it is maintained and released regularly with a docume
 docs/deployment.md.
 
 Fairness comes from two of its own mechanisms: a job's *lock* (jobs sharing a lock never run at once) is one of
-``LIFTMATCH_JOB_TEAM_LIMIT`` slots of its team, taken in turn by the team's consecutive jobs, so a team runs at most
+``LIFTMATCH_JOB_TEAM_LIMIT`` slots of its team, taken in turn by consecutive job rows, so a team runs at most
 that many jobs together; and its *priority* is minus the number of unfinished jobs its team already had, so queued
 jobs interleave between teams (round-robin) instead of one team's burst going first. (A team may run fewer than its
 limit when the jobs still queued happen to share a slot: the limit is a ceiling, not a promise.)
@@ -119,7 +119,7 @@ class QueueRunner:
     def enqueue(self, session: Session, kind: str, job_id: int, team_id: int) -> None:
         """Put a job in the queue on ``session``'s connection (it commits with the caller's transaction)."""
         waiting = max(_unfinished(session, team_id) - 1, 0)  # this job's row is already in the session
-        slot = waiting % self.settings.job_team_limit  # a team's consecutive jobs take turns over its slots
+        slot = job_id % self.settings.job_team_limit  # consecutive rows (a burst, a ranking's shards) take turns
         connection = session.connection().connection.driver_connection
         try:
             self.app.configure_task(TASK, lock=f"team:{team_id}:{slot}", queueing_lock=f"{kind}:{job_id}",

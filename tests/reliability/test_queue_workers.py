@@ -117,17 +117,29 @@ def test_two_web_and_two_worker_processes_run_every_job_once_and_fairly(queue_db
     assert fleet.status == "cancelled"
 
 
-def demo_team(url: str) -> tuple[str, dict[str, int]]:
-    """Load the invented demo scenario; a write key of its team and its missions by name."""
+def demo_team(url: str, copies: int = 1) -> tuple[str, dict[str, int]]:
+    """Load the invented demo scenario (with ``copies`` of each motor and propeller, to make rankings larger); a
+    write key of its team and its missions by name."""
     from server.db import transaction
     from server.models import Mission
-    from server.services import seed, teams
+    from server.schemas.parts import CREATE_SCHEMAS
+    from server.services import parts, seed, teams
+    from server.services._validation import validate
     from tests.conftest import make_settings
 
     engine = make_engine(url)
     try:
         with transaction(make_sessionmaker(engine)) as session:
             seed.load_demo(session, settings=make_settings(url))
+            demo = seed.read_demo()
+            team_id = teams.get_team_by_name(session, name="Northfold Survey").id
+            for copy in range(1, copies):
+                for kind in ("motors", "propellers"):
+                    for row in demo[kind]:
+                        twin = row | {"name": f"{row['name']} ({copy})",
+                                      "part_number": f"{row.get('part_number', '')}-{copy}"}
+                        parts.create_part(session, team_id=team_id, user_id=None, kind=kind,
+                                          data=validate(CREATE_SCHEMAS[kind], twin, what="copy"))
             team = teams.get_team_by_name(session, name="Northfold Survey")
             _, key = teams.create_api_key(session, team_id=team.id, scope="write")
             missions = {m.name: m.id for m in session.scalars(select(Mission).where(Mission.team_id == team.id))}
@@ -161,3 +173,48 @@ def test_a_worker_killed_mid_job_loses_nothing(queue_db: str, tmp_path: Path) ->
         finally:
             stop(second)
     assert row.status == "done" and row.attempts == 2, (row.status, row.attempts, row.error)
+
+
+def test_a_large_ranking_in_shards_over_two_workers_equals_the_whole_ranking(queue_db: str, tmp_path: Path) -> None:
+    from server.db import transaction
+    from server.jobs import execute
+    from tests.services.test_ranking_shards import _stored
+
+    key, missions = demo_team(queue_db, copies=4)  # 16 times the demo's combinations
+    team = _Team(key)
+    env = {"LIFTMATCH_RANKING_SHARD_COMBINATIONS": "10000"}
+    with live_server(queue_db, tmp_path, **env) as web, httpx.Client(base_url=web.base, timeout=30) as client:
+        with workers(queue_db, tmp_path, count=2, **env):
+            rid = int(client.post("/api/v1/rankings", headers=team.headers(), json={
+                "mission_id": missions["Q4 mapping survey"], "top_n": 20}).json()["id"])
+            (row,) = _wait_all(queue_db, Ranking, [rid], timeout_s=240)
+        assert row.status == "done" and row.timings["shards"] > 2, (row.status, row.error, row.timings)
+        shards = _shards(queue_db, rid)
+        assert len(shards) == row.timings["shards"] and all(s.status == "done" and s.attempts == 1 for s in shards)
+        spans = sorted((s.started_at, s.finished_at) for s in shards)
+        # Spread: some shard started before the one before it had finished, so two processes screened at once.
+        assert any(later[0] < earlier[1] for earlier, later in zip(spans, spans[1:], strict=False)), spans
+        sharded = _stored(client, rid, team.headers())  # type: ignore[arg-type]
+        engine = make_engine(queue_db)
+        try:  # the same ranking again, whole, in this process: its stored rows are replaced by identical ones
+            factory = make_sessionmaker(engine)
+            with transaction(factory) as session:
+                stored = session.get(Ranking, rid)
+                assert stored is not None
+                stored.status = "queued"
+            assert execute(factory, "ranking", rid, time_limit_s=600, shard_combinations=0) == "done"
+        finally:
+            engine.dispose()
+        whole = _stored(client, rid, team.headers())  # type: ignore[arg-type]
+    assert sharded["rows"] and sharded == whole
+
+
+def _shards(url: str, ranking_id: int) -> list[Any]:
+    from server.models import RankingShard
+
+    engine = make_engine(url)
+    try:
+        with make_sessionmaker(engine)() as s:
+            return list(s.scalars(select(RankingShard).where(RankingShard.ranking_id == ranking_id)))
+    finally:
+        engine.dispose()
