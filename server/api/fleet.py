@@ -2,14 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import APIRouter, Request, Response
+from fastapi import APIRouter, Query, Request, Response
 
 from server import jobs
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.fleet import FleetPlanCreate, FleetPlanStarted, FleetPlanStatus
+from server.schemas.shortlists import ShortlistRead
+from server.services import bom as bom_service
 from server.services import fleet as fleet_service
+from server.services import shortlists as shortlists_service
 
 router = APIRouter(prefix="/fleet-plans", tags=["fleet plans"])
 
@@ -47,11 +50,27 @@ def read_plan(caller: CallerDep, session: SessionDep, plan_id: IdPath) -> dict[s
 
 
 @router.get("/{plan_id}/bom.csv", response_class=Response, responses={200: {"content": {"text/csv": {}}}})
-def plan_bom(caller: CallerDep, session: SessionDep, plan_id: IdPath) -> Response:
-    """Every part number the fleet needs, with quantities over each mission's airframes and costs."""
-    text = fleet_service.bom_csv(session, team_id=caller.team_id, plan_id=plan_id)
+def plan_bom(
+    caller: CallerDep,
+    session: SessionDep,
+    plan_id: IdPath,
+    spares_percent: Annotated[
+        float, Query(ge=0, le=200, description="Spares per line, % of the quantity (rounded up) [%]")
+    ] = 0,
+) -> Response:
+    """Every part number the fleet needs, with quantities over each mission's airframes (propellers split into CW
+    and CCW), spares and costs."""
+    text = bom_service.fleet_csv(session, team_id=caller.team_id, plan_id=plan_id, spares_percent=spares_percent)
     return Response(
         text,
         media_type="text/csv; charset=utf-8",
         headers={"Content-Disposition": f'attachment; filename="fleet-plan-{plan_id}-bom.csv"'},
     )
+
+
+@router.post("/{plan_id}/shortlists", status_code=201, response_model=list[ShortlistRead])
+def plan_to_shortlists(caller: WriterDep, session: SessionDep, plan_id: IdPath) -> list[dict[str, Any]]:
+    """Turn a finished plan into shortlists: one new shortlist per mission holding its assigned configuration."""
+    created = fleet_service.to_shortlists(session, team_id=caller.team_id, user_id=caller.user_id, plan_id=plan_id)
+    session.commit()
+    return [shortlists_service.read(session, s) for s in created]

@@ -9,7 +9,9 @@ from fastapi import APIRouter, Query, Request, Response
 from server import jobs
 from server.deps import CallerDep, IdPath, SessionDep, WriterDep
 from server.schemas.rankings import ParetoSet, RankingCreate, RankingResultsPage, RankingStarted, RankingStatus
+from server.schemas.shortlists import AddedToShortlist, FromRanking
 from server.services import rankings as rankings_service
+from server.services import shortlists as shortlists_service
 
 router = APIRouter(prefix="/rankings", tags=["rankings"])
 SortQuery = Annotated[str, Query(max_length=40, description="Stored metric, '-' prefix for descending")]
@@ -119,3 +121,15 @@ def delete_ranking(caller: WriterDep, session: SessionDep, ranking_id: IdPath) -
     rankings_service.delete(session, team_id=caller.team_id, ranking_id=ranking_id)
     session.commit()
     return Response(status_code=204)
+
+
+@router.post("/{ranking_id}/shortlist", status_code=201, response_model=AddedToShortlist)
+def add_to_shortlist(caller: WriterDep, session: SessionDep, ranking_id: IdPath, data: FromRanking) -> dict[str, Any]:
+    """Add a ranked row to a shortlist of the ranking's mission: an existing one (``shortlist_id``) or a new one."""
+    entry = shortlists_service.add_from_ranking(
+        session, team_id=caller.team_id, user_id=caller.user_id, ranking_id=ranking_id, rank=data.rank,
+        shortlist_id=data.shortlist_id, name=data.name, note=data.note)
+    session.commit()
+    doc = shortlists_service.read(session, entry.shortlist)
+    return {"shortlist": doc, "entry": next(e for e in doc["entries"] if e["id"] == entry.id),
+            "created_shortlist": data.shortlist_id is None}

@@ -6,7 +6,8 @@ from typing import Annotated, Any
 
 from fastapi import APIRouter, Query, Response
 
-from server.deps import CallerDep, IdPath, SessionDep, WriterDep
+from server.deps import MAX_ID, CallerDep, IdPath, SessionDep, WriterDep
+from server.errors import FieldError, InvalidInput
 from server.schemas.shortlists import (
     CompareRead,
     EntryCreate,
@@ -18,6 +19,8 @@ from server.schemas.shortlists import (
     ShortlistRead,
     ShortlistRename,
 )
+from server.services import bom as bom_service
+from server.services import shortlist_compare
 from server.services import shortlists as shortlists_service
 
 router = APIRouter(prefix="/shortlists", tags=["shortlists"])
@@ -116,7 +119,20 @@ def re_evaluate(caller: WriterDep, session: SessionDep, shortlist_id: IdPath) ->
 @router.get("/{shortlist_id}/compare.json", response_model=CompareRead)
 def compare(caller: CallerDep, session: SessionDep, shortlist_id: IdPath) -> dict[str, Any]:
     """Every number of the compare page, freshly evaluated, with the best value per row."""
-    return shortlists_service.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    return shortlist_compare.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+
+
+def entry_ids(raw: str | None) -> list[int] | None:
+    """``12,15`` → [12, 15]; None when not given."""
+    if raw is None or not raw.strip():
+        return None
+    try:
+        ids = [int(part) for part in raw.split(",") if part.strip()]
+    except ValueError:
+        ids = []
+    if not ids or any(not 1 <= i <= MAX_ID for i in ids):
+        raise InvalidInput("Bad entries", [FieldError("entries", "a comma-separated list of entry ids, e.g. 12,15")])
+    return ids
 
 
 @router.get("/{shortlist_id}/bom.csv", response_class=Response, responses={200: {"content": {"text/csv": {}}}})
@@ -125,9 +141,17 @@ def bom(
     session: SessionDep,
     shortlist_id: IdPath,
     airframes: Annotated[int, Query(ge=1, le=100_000, description="Airframes to equip")] = 1,
+    entries: Annotated[
+        str | None, Query(max_length=500, description="Entry ids to order, comma-separated (default: every entry)")
+    ] = None,
+    spares_percent: Annotated[
+        float, Query(ge=0, le=200, description="Spares per line, % of the quantity (rounded up) [%]")
+    ] = 0,
 ) -> Response:
-    """Bill of materials for N airframes: part numbers, makers, quantities, unit and total cost."""
-    text = shortlists_service.bom_csv(session, team_id=caller.team_id, shortlist_id=shortlist_id, airframes=airframes)
+    """Bill of materials for N airframes of the chosen entries: part numbers, makers, quantities (propellers split
+    into CW and CCW), spares, unit and total cost."""
+    text = bom_service.shortlist_csv(session, team_id=caller.team_id, shortlist_id=shortlist_id, airframes=airframes,
+                                     entries=entry_ids(entries), spares_percent=spares_percent)
     return Response(
         text,
         media_type="text/csv; charset=utf-8",

@@ -13,10 +13,10 @@ from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.pages._render import PostedForm, error_lines, render
 from server.schemas.fleet import FleetPlanCreate
-from server.schemas.shortlists import EntryCreate
+from server.services import bom as bom_service
 from server.services import fleet as fleet_service
 from server.services import missions as missions_service
-from server.services import shortlists as shortlists_service
+from server.services import parts as parts_service
 
 router = APIRouter(prefix="/fleet-plans")
 KINDS = ("batteries", "escs", "motors", "propellers")
@@ -67,9 +67,12 @@ def start(request: Request, caller: PageWriter, session: SessionDep, values: Pos
 
 
 def _names(session: Any, caller: Caller, plan: dict[str, Any]) -> dict[str, dict[int, Any]]:
-    from server.services.fleet import _parts_by_id
-
-    return _parts_by_id(session, caller.team_id)
+    result = plan["result"] or {}
+    ids: dict[str, set[int]] = {kind: set(result.get("stocked", {}).get(kind, [])) for kind in KINDS}
+    for a in [*result.get("assignments", []), *(a for p in plan["tradeoff"] or [] for a in p["assignments"])]:
+        for kind in KINDS:
+            ids[kind].add(a[f"{bom_service.KIND_SINGULAR[kind]}_id"])
+    return parts_service.by_ids(session, team_id=caller.team_id, ids=ids)
 
 
 @router.get("/{plan_id}", response_class=HTMLResponse)
@@ -85,16 +88,6 @@ def plan_page(request: Request, caller: PageCaller, session: SessionDep, plan_id
 @router.post("/{plan_id}/shortlist", response_class=HTMLResponse)
 def to_shortlists(caller: PageWriter, session: SessionDep, plan_id: IdPath) -> Response:
     """One shortlist per mission holding the configuration the plan assigns to it."""
-    doc = fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))
-    result = doc["result"] or {}
-    for a in result.get("assignments", []):
-        name = f"{doc['name']}: {next(m['name'] for m in doc['missions'] if m['mission_id'] == a['mission_id'])}"
-        shortlist = shortlists_service.create(session, team_id=caller.team_id, user_id=caller.user_id,
-                                              name=name[:120], mission_id=a["mission_id"])
-        shortlists_service.add_entry(session, team_id=caller.team_id, user_id=caller.user_id,
-                                     shortlist_id=shortlist.id, data=EntryCreate(
-                                         battery_id=a["battery_id"], esc_id=a["esc_id"], motor_id=a["motor_id"],
-                                         propeller_id=a["propeller_id"], packs_in_parallel=a["packs_in_parallel"],
-                                         note=f"from fleet plan {plan_id}"))
+    fleet_service.to_shortlists(session, team_id=caller.team_id, user_id=caller.user_id, plan_id=plan_id)
     session.commit()
     return RedirectResponse("/shortlists", status_code=303)

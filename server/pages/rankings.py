@@ -14,20 +14,23 @@ from server.errors import DomainError
 from server.models import Ranking
 from server.pages._render import PostedForm, error_lines, render
 from server.schemas.rankings import RankingCreate
+from server.schemas.shortlists import FromRanking
 from server.services import missions as missions_service
+from server.services import parts as parts_service
 from server.services import rankings as rankings_service
 from server.services import shortlists as shortlists_service
+from server.services.cautions import near_limit
+from server.services.cautions import summary as cautions_summary
 
 router = APIRouter(prefix="/rankings")
-NEAR_LIMIT = 0.9  # common practice, no source: flag a part run at ≥ 90 % of its rating
-OBJECTIVE_LABELS = {"cruise_power": "lowest cruise power", "endurance": "longest endurance",
+OBJECTIVE_LABELS = {"cruise_power": "lowest hover/cruise power", "endurance": "longest endurance",
                     "specific_thrust": "best specific thrust", "mass": "lowest mass", "cost": "lowest cost"}
 REASON_LABELS = rankings_service.REASON_TEXT
 GROUP_METRICS = {"cruise_power": "cruise power", "endurance": "endurance", "specific_thrust": "specific thrust",
                  "thrust_to_weight": "thrust-to-weight", "mass": "all-up mass (equal values)",
                  "cost": "cost (equal values)"}
 """What 'cannot be told apart from rank 1' compares, per objective (mass and cost carry no band)."""
-SORTS = {"rank": "rank", "all_up_mass_g": "mass", "cruise_duty": "duty", "cruise_power_w": "cruise power",
+SORTS = {"rank": "rank", "all_up_mass_g": "mass", "cruise_duty": "duty", "cruise_power_w": "hover/cruise power",
          "specific_thrust_g_per_w": "g/W", "endurance_min": "endurance", "thrust_to_weight": "T/W", "cost": "cost"}
 
 
@@ -46,16 +49,10 @@ def _filters(q: dict[str, str]) -> dict[str, Any]:
     return out
 
 
-def _near_limit(row: dict[str, Any], margin: float) -> list[str]:
-    m = row.get("margins", {})
-    notes = []
-    if m.get("motor_current_ratio", 0) >= NEAR_LIMIT:
-        notes.append(f"motor at {m['motor_current_ratio']:.0%} of its rating")
-    if m.get("esc_rating_ratio", 99) < margin * 1.05:
-        notes.append(f"ESC rating only {m['esc_rating_ratio']:.2f}× the motor current")
-    if m.get("pack_current_ratio", 0) >= NEAR_LIMIT:
-        notes.append(f"pack at {m['pack_current_ratio']:.0%} of its allowed current")
-    return notes
+def _currencies(session: Any, team_id: int, rows: list[dict[str, Any]]) -> dict[int, str]:
+    """Currency of each row's cost, by battery id (a candidate's cost is in its parts' currency)."""
+    packs = parts_service.by_ids(session, team_id=team_id, ids={"batteries": {r["battery_id"] for r in rows}})
+    return {pid: part.currency for pid, part in packs["batteries"].items()}
 
 
 def _index(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
@@ -99,19 +96,26 @@ def ranking_page(
     filters = _filters(q)
     if sort.lstrip("-") not in rankings_service.SORT_COLUMNS:
         sort = "rank"
+    point = "cruise" if ranking.inputs["mission"]["kind"] == "cruise" else "hover"
     ctx: dict[str, Any] = {"caller": caller, "nav": "rankings", "ranking": status, "sort": sort, "q": q,
-                           "filters": filters, "sorts": SORTS, "objectives": OBJECTIVE_LABELS,
-                           "reason_labels": REASON_LABELS, "rows": [], "total": 0, "pareto": [], "shortlists": [],
-                           "page": page, "page_size": 50, "cautions": [], "grouping": {"count": 0},
-                           "assumptions": {"rows": 0}}
+                           "filters": filters, "sorts": SORTS,
+                           "objectives": OBJECTIVE_LABELS | {"cruise_power": f"lowest {point} power"},
+                           "reason_labels": {k: v.replace("cruise thrust", f"{point} thrust").replace(
+                               "cruise duty", f"{point} duty") for k, v in REASON_LABELS.items()},
+                           "rows": [], "total": 0, "pareto": [], "shortlists": [],
+                           "page": page, "page_size": 50, "cautions": [], "currencies": [],
+                           "point_label": point.capitalize(), "grouping": {"count": 0}, "assumptions": {"rows": 0}}
     if status["status"] == "done":
         rows, total = rankings_service.results(session, team_id=caller.team_id, ranking_id=ranking_id, sort=sort,
                                                page=page, page_size=50, filters=filters)
         pareto, _ = rankings_service.results(session, team_id=caller.team_id, ranking_id=ranking_id,
                                              sort="endurance_min", page_size=5000, pareto=True)
         margin = ranking.inputs["mission"]["esc_current_margin"]
-        for row in rows:
-            row["near_limit"] = _near_limit(row, margin)
+        currency = _currencies(session, caller.team_id, rows)
+        per_row = [near_limit(row.get("margins", {}), margin) for row in rows]
+        for row, found in zip(rows, per_row, strict=True):
+            row["near_limit"] = [c.text for c in found]
+            row["currency"] = currency.get(row["battery_id"], "")
         names = _names(ranking)
         ctx.update(rows=rows, total=total, names=names, mission=ranking.inputs["mission"],
                    pareto=[{"endurance_min": p["endurance_min"],
@@ -120,11 +124,11 @@ def ranking_page(
                             "label": f"{names['motors'][p['motor_id']]['name']} / "
                                      f"{names['propellers'][p['propeller_id']]['name']} / "
                                      f"{names['batteries'][p['battery_id']]['name']}"} for p in pareto],
-                   shortlists=[s for s in shortlists_service.list_all(session, team_id=caller.team_id)
-                               if s.mission_id == ranking.mission_id],
-                   cautions=sorted({n for r in rows for n in r["near_limit"]}),
+                   shortlists=_mission_shortlists(session, caller.team_id, ranking.mission_id),
+                   cautions=cautions_summary(per_row),
+                   currencies=sorted({r["currency"] for r in rows if r["cost"] is not None}),
                    grouping={"count": sum(1 for r in rows if r.get("indistinguishable_from_best")),
-                             "metric": GROUP_METRICS.get(ranking.objective, "the objective")},
+                             "metric": GROUP_METRICS.get(ranking.objective, "the objective").replace("cruise", point)},
                    assumptions={"rows": sum(1 for r in rows if any((r.get("assumed") or {}).values())),
                                 "best_share": next((r.get("assumed_share") for r in rows if r.get("rank") == 1),
                                                    None)})
@@ -142,30 +146,34 @@ def cancel(caller: PageWriter, session: SessionDep, ranking_id: IdPath) -> Respo
     return RedirectResponse(f"/rankings/{ranking_id}", status_code=303)
 
 
+def _mission_shortlists(session: Any, team_id: int, mission_id: int | None) -> list[dict[str, Any]]:
+    return [{"id": s.id, "name": s.name, "entries": len(s.entries)}
+            for s in shortlists_service.list_all(session, team_id=team_id) if s.mission_id == mission_id]
+
+
 @router.post("/{ranking_id}/shortlist", response_class=HTMLResponse)
 def add_to_shortlist(request: Request, caller: PageWriter, session: SessionDep, values: PostedForm,
                      ranking_id: IdPath) -> Response:
-    """Add a ranked row to a shortlist of the same mission (a new one when none is chosen)."""
+    """Add a ranked row to a shortlist of the same mission (a new, automatically named one when none is chosen)."""
     ranking = rankings_service.get(session, team_id=caller.team_id, ranking_id=ranking_id)
+    htmx = request.headers.get("hx-request") == "true"
     try:
-        shortlist_id = int(values.get("shortlist_id") or 0)
-        if not shortlist_id:
-            name = values.get("new_name") or f"{ranking.mission_name} shortlist"
-            shortlist_id = shortlists_service.create(session, team_id=caller.team_id, user_id=caller.user_id,
-                                                     name=name, mission_id=ranking.mission_id or 0).id
-        from server.schemas.shortlists import EntryCreate
-
-        shortlists_service.add_entry(session, team_id=caller.team_id, user_id=caller.user_id,
-                                     shortlist_id=shortlist_id,
-                                     data=EntryCreate(ranking_id=ranking_id, rank=int(values.get("rank", "0"))))
+        data = FromRanking.model_validate({"rank": values.get("rank"),
+                                           "shortlist_id": values.get("shortlist_id") or None})
+        entry = shortlists_service.add_from_ranking(session, team_id=caller.team_id, user_id=caller.user_id,
+                                                    ranking_id=ranking_id, rank=data.rank,
+                                                    shortlist_id=data.shortlist_id)
         session.commit()
-    except (DomainError, ValueError, ValidationError) as exc:
+    except (ValidationError, DomainError) as exc:
         session.rollback()
-        message = exc.detail if isinstance(exc, DomainError) else "choose a row and a shortlist"
-        if request.headers.get("hx-request") == "true":  # htmx swaps only 2xx answers
-            return HTMLResponse(f'<span class="error">Not added: {message}</span>')
-        return Response(f"Not added: {message}", status_code=409 if isinstance(exc, DomainError) else 422,
-                        media_type="text/plain")
-    if request.headers.get("hx-request") == "true":
-        return HTMLResponse(f'<span class="ok">added · <a href="/shortlists/{shortlist_id}">open</a></span>')
-    return RedirectResponse(f"/shortlists/{shortlist_id}", status_code=303)
+        message = "; ".join(error_lines(exc)) if isinstance(exc, ValidationError) else exc.detail
+        if not htmx:
+            return Response(f"Not added: {message}", status_code=exc.status if isinstance(exc, DomainError) else 422,
+                            media_type="text/plain")
+        return render(request, "partials/_shortlist_added.html", {"error": message, "rank": values.get("rank")})
+    if not htmx:
+        return RedirectResponse(f"/shortlists/{entry.shortlist_id}", status_code=303)
+    return render(request, "partials/_shortlist_added.html", {
+        "error": None, "rank": data.rank, "shortlist": entry.shortlist, "created": data.shortlist_id is None,
+        "shortlists": _mission_shortlists(session, caller.team_id, ranking.mission_id),
+        "selected_id": entry.shortlist_id})

@@ -14,10 +14,10 @@ from server.pages._render import PostedForm, error_lines, render
 from server.schemas.shortlists import EntryCreate, ShortlistCreate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
+from server.services import shortlist_compare
 from server.services import shortlists as shortlists_service
 
 router = APIRouter(prefix="/shortlists")
-NEAR_LIMIT = 0.9  # a part at ≥ 90 % of its rating gets a caution (common practice, no source)
 
 
 def _list_page(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
@@ -48,26 +48,15 @@ def create_shortlist(request: Request, caller: PageWriter, session: SessionDep, 
 
 
 def cautions(compare: dict[str, Any]) -> list[str]:
-    """Plain cautions for entries that run a part near or past its rating."""
-    notes = []
-    for i, entry in enumerate(compare["entries"], start=1):
-        m = entry["metrics"]["margins"]
-        if m["motor_current_ratio"] is not None and m["motor_current_ratio"] >= NEAR_LIMIT:
-            notes.append(f"Candidate {i}: full-throttle motor current is {m['motor_current_ratio']:.0%} of the "
-                         "motor's rating.")
-        if m["esc_rating_ratio"] is not None and m["esc_rating_ratio"] < 1.2:
-            notes.append(f"Candidate {i}: the ESC's continuous rating is only {m['esc_rating_ratio']:.2f} × "
-                         "the full-throttle motor current (common practice: ≥ 1.2).")
-        if m["pack_current_ratio"] is not None and m["pack_current_ratio"] >= NEAR_LIMIT:
-            notes.append(f"Candidate {i}: full-throttle pack current is {m['pack_current_ratio']:.0%} of what "
-                         "the mission allows from the pack's C rating.")
-    return notes
+    """Plain cautions for entries that run a part near or past what the mission allows (services.cautions)."""
+    return [f"Candidate {i}: {c['text']}." for i, entry in enumerate(compare["entries"], start=1)
+            for c in entry["cautions"]]
 
 
 def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: int, status_code: int = 200,
                   **extra: Any) -> HTMLResponse:
     shortlist = shortlists_service.get(session, team_id=caller.team_id, shortlist_id=shortlist_id)
-    compare = shortlists_service.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
+    compare = shortlist_compare.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
     charts = {
         "required_thrust_n": compare["required_thrust_per_rotor_n"],
         "series": [{"label": f"{i + 1}: {e['parts']['motors']['name']} / {e['parts']['propellers']['name']}",
@@ -138,10 +127,14 @@ def move_entry(caller: PageWriter, session: SessionDep, shortlist_id: IdPath, en
 
 
 @router.post("/{shortlist_id}/rename", response_class=HTMLResponse)
-def rename(caller: PageWriter, session: SessionDep, shortlist_id: IdPath,
+def rename(request: Request, caller: PageWriter, session: SessionDep, shortlist_id: IdPath,
            name: Annotated[str, Form(min_length=1, max_length=120)]) -> Response:
-    shortlists_service.rename(session, team_id=caller.team_id, shortlist_id=shortlist_id, name=name.strip())
-    session.commit()
+    try:
+        shortlists_service.rename(session, team_id=caller.team_id, shortlist_id=shortlist_id, name=name.strip())
+        session.commit()
+    except DomainError as exc:
+        session.rollback()
+        return _compare_page(request, session, caller, shortlist_id, exc.status, errors=error_lines(exc))
     return RedirectResponse(f"/shortlists/{shortlist_id}", status_code=303)
 
 

@@ -109,6 +109,15 @@ class ComparePart(Result):
     archived: bool = False
 
 
+class NearLimit(Result):
+    """A part run close to (or over) what the mission allows at full throttle (services.cautions, one rule)."""
+
+    part: str = Field(description="motor | esc | pack")
+    use: float = Field(description="Full-throttle current ÷ the allowed current (≥ 0.9 is near, > 1 over) [-]")
+    over: bool
+    text: str
+
+
 class CompareEntry(Result):
     """One candidate of the comparison, freshly evaluated with the current engine and calibrations."""
 
@@ -122,6 +131,7 @@ class CompareEntry(Result):
     parts: dict[str, ComparePart | None]
     packs_in_parallel: int
     metrics: CandidateEvaluation
+    cautions: list[NearLimit] = Field(default_factory=list, description="Parts near or over their limit")
     snapshot_engine_version: str | None = None
     changed_since_snapshot: bool = False
 
@@ -161,3 +171,29 @@ class EntryChange(Result):
 
 class ReEvaluation(Result):
     changes: list[EntryChange]
+
+
+class FromRanking(BaseModel):
+    """A ranked row into a shortlist of the ranking's mission: an existing one (``shortlist_id``) or a new one
+    (``name``, or "<mission> shortlist" with the next free number when omitted)."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    rank: ranged(int, 1, 1_000_000, "", description="Rank of the row in the ranking")  # type: ignore[valid-type]
+    shortlist_id: Id | None = None
+    name: text(120, min_length=1) | None = None  # type: ignore[valid-type]
+    note: text(4000) = ""  # type: ignore[valid-type]
+
+    @model_validator(mode="after")
+    def _one_target(self) -> FromRanking:
+        if self.shortlist_id is not None and self.name is not None:
+            raise ValueError("name: give shortlist_id (an existing shortlist) or name (a new one), not both")
+        return self
+
+
+class AddedToShortlist(BaseModel):
+    """Where a candidate went: the shortlist (with all its entries), the new entry, and whether the shortlist is new."""
+
+    shortlist: ShortlistRead
+    entry: EntryRead
+    created_shortlist: bool

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import io
 import logging
 import math
 import time
@@ -12,20 +11,20 @@ from typing import Any
 from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
-from server.csv_cells import csv_writer
 from server.errors import FieldError, InvalidInput, NotFound
 from server.jobs import JobContext, request_cancel
-from server.models import PART_MODELS, FleetPlan
+from server.models import FleetPlan, Shortlist
 from server.schemas.fleet import FleetPlanCreate
+from server.schemas.shortlists import EntryCreate
 from server.selection import ENGINE_VERSION, rank
 from server.selection.fleet import FleetOptions, MissionCandidates, optimise, tradeoff
 from server.services import missions as missions_service
+from server.services import shortlists
 from server.services.ranking_inputs import engine_inputs, snapshot
 
 log = logging.getLogger("liftmatch.fleet")
 SOLVE_TIME_LIMIT_S = 20.0  # per MILP; a point that hits it says so (status "limit_reached" and its gap)
 OBJECTIVE_FOR_METRIC = {"cruise_energy": "cruise_power", "endurance_margin": "endurance"}
-KIND_SINGULAR = {"batteries": "battery", "escs": "esc", "motors": "motor", "propellers": "propeller"}
 
 
 def start(session: Session, *, team_id: int, user_id: int | None, data: FleetPlanCreate) -> FleetPlan:
@@ -179,55 +178,20 @@ def status(row: FleetPlan) -> dict[str, Any]:
     }
 
 
-def _parts_by_id(session: Session, team_id: int) -> dict[str, dict[int, Any]]:
-    return {
-        kind: {p.id: p for p in session.scalars(select(model).where(model.team_id == team_id))}
-        for kind, model in PART_MODELS.items()
-    }
-
-
-def bom_csv(session: Session, *, team_id: int, plan_id: int) -> str:
-    """The whole fleet's parts: per part number, quantity over every mission's airframes, unit and total cost."""
+def to_shortlists(session: Session, *, team_id: int, user_id: int | None, plan_id: int) -> list[Shortlist]:
+    """One new shortlist per mission of a finished plan, holding the configuration the plan assigns to it
+    (named "<plan>: <mission>", with the next free number when that name is taken)."""
     plan = get(session, team_id=team_id, plan_id=plan_id)
     if plan.status != "done" or not plan.result or not plan.result.get("assignments"):
         raise InvalidInput("No plan yet", [FieldError("status", f"the plan is {plan.status} without an assignment")])
-    parts = _parts_by_id(session, team_id)
-    snaps = {m["mission"]["id"]: m for m in plan.inputs["missions"]}
-    totals: dict[tuple[str, int], dict[str, Any]] = {}
+    names = {m["mission"]["id"]: m["mission"]["name"] for m in plan.inputs["missions"]}
+    created = []
     for a in plan.result["assignments"]:
-        snap = snaps[a["mission_id"]]
-        per_airframe = {
-            "batteries": a["packs_in_parallel"],
-            "escs": snap["airframe"]["rotor_count"],
-            "motors": snap["airframe"]["rotor_count"],
-            "propellers": snap["airframe"]["rotor_count"],
-        }
-        for kind, count in per_airframe.items():
-            part_id = a[f"{KIND_SINGULAR[kind]}_id"]
-            entry = totals.setdefault((kind, part_id), {"quantity": 0, "missions": []})
-            entry["quantity"] += count * snap["airframes"]
-            entry["missions"].append(snap["mission"]["name"])
-    out = io.StringIO()
-    writer = csv_writer(out)
-    writer.writerow(
-        ["kind", "name", "maker", "part_number", "quantity", "unit_cost", "currency", "total_cost", "missions"]
-    )
-    for (kind, part_id), entry in sorted(totals.items(), key=lambda kv: (list(PART_MODELS).index(kv[0][0]), kv[0][1])):
-        part = parts[kind].get(part_id)
-        if part is None:
-            continue
-        total = "" if part.unit_cost is None else round(part.unit_cost * entry["quantity"], 2)
-        writer.writerow(
-            [
-                kind,
-                part.name,
-                part.maker,
-                part.part_number,
-                entry["quantity"],
-                "" if part.unit_cost is None else part.unit_cost,
-                part.currency,
-                total,
-                "; ".join(dict.fromkeys(entry["missions"])),
-            ]
-        )
-    return out.getvalue()
+        name = shortlists.free_name(session, team_id=team_id, base=f"{plan.name}: {names[a['mission_id']]}")
+        shortlist = shortlists.create(session, team_id=team_id, user_id=user_id, name=name,
+                                      mission_id=a["mission_id"])
+        shortlists.add_entry(session, team_id=team_id, user_id=user_id, shortlist_id=shortlist.id, data=EntryCreate(
+            battery_id=a["battery_id"], esc_id=a["esc_id"], motor_id=a["motor_id"], propeller_id=a["propeller_id"],
+            packs_in_parallel=a["packs_in_parallel"], note=f"from fleet plan {plan.id} ({plan.name})"))
+        created.append(shortlist)
+    return created

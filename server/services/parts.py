@@ -8,7 +8,7 @@ import json
 import math
 import operator
 from collections import Counter
-from collections.abc import Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from datetime import datetime
 from typing import Any, Literal, overload
 
@@ -132,6 +132,17 @@ def list_parts(
         return rows, len(rows)
     total = session.scalar(select(func.count()).select_from(stmt.subquery())) or 0
     return rows, int(total)
+
+
+def by_ids(session: Session, *, team_id: int, ids: Mapping[str, Iterable[int]]) -> dict[str, dict[int, PartColumns]]:
+    """The team's parts of each kind with the given ids (archived ones too), by id; unknown ids are left out."""
+    out: dict[str, dict[int, PartColumns]] = {}
+    for kind, wanted in ids.items():
+        model = model_for(kind)
+        id_list = sorted({int(i) for i in wanted})
+        rows = session.scalars(select(model).where(model.team_id == team_id, model.id.in_(id_list))) if id_list else ()
+        out[kind] = {p.id: p for p in rows}
+    return out
 
 
 @overload

@@ -1,14 +1,13 @@
-"""Shortlists: add candidates (by parts or from a ranking), notes, order, re-evaluation, compare, BOM."""
+"""Shortlists (CRUD): create with a name that never collides, add candidates by parts or from a ranking row,
+notes, order, re-evaluation. The compare view is ``shortlist_compare``; the bill of materials is ``bom``."""
 
 from __future__ import annotations
 
-import io
 from typing import Any
 
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from server.csv_cells import csv_writer
 from server.errors import Conflict, FieldError, InvalidInput, NotFound
 from server.models import Mission, Ranking, RankingResult, Shortlist, ShortlistEntry, User
 from server.models._common import utcnow
@@ -18,36 +17,6 @@ from server.services import candidate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
 
-# Rows of the compare table: (group, key path in the metrics, label, unit, better: "low" | "high" | None).
-COMPARE_ROWS: list[tuple[str, str, str, str, str | None]] = [
-    ("Parts and masses", "all_up_mass_g", "All-up mass", "g", "low"),
-    ("Parts and masses", "pack_nominal_voltage_v", "Pack nominal voltage", "V", None),
-    ("Cruise point", "cruise.duty", "PWM duty", "", None),
-    ("Cruise point", "cruise.rpm", "Speed", "rpm", None),
-    ("Cruise point", "cruise.electrical_power_w", "Electrical power (craft)", "W", "low"),
-    ("Cruise point", "cruise.bus_current_a", "Pack current", "A", "low"),
-    ("Cruise point", "cruise.specific_thrust_g_per_w", "Specific thrust", "g/W", "high"),
-    ("Cruise point", "cruise.drive_efficiency", "Drive efficiency", "", "high"),
-    ("Cruise point", "cruise.losses_w.motor_copper", "Loss: motor copper (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.motor_no_load", "Loss: motor no-load (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.esc_conduction", "Loss: ESC conduction (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.pwm_ripple", "Loss: PWM ripple (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.switching", "Loss: switching (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.dead_time", "Loss: dead time (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.input_capacitor", "Loss: input capacitor (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.losses_w.calibrated_pwm", "Loss: calibrated PWM (per rotor)", "W", "low"),
-    ("Cruise point", "cruise.pack_loss_w", "Pack internal loss", "W", "low"),
-    ("Full throttle", "full_throttle.thrust_n", "Thrust per rotor (end of usable capacity)", "N", "high"),
-    ("Full throttle", "full_throttle.thrust_to_weight", "Thrust-to-weight", "", "high"),
-    ("Full throttle", "full_throttle.motor_current_a", "Peak motor current (full pack)", "A", "low"),
-    ("Full throttle", "full_throttle.bus_current_a", "Peak pack current (full pack)", "A", "low"),
-    ("Full throttle", "margins.motor_current_ratio", "Motor current ÷ its rating", "", "low"),
-    ("Full throttle", "margins.esc_rating_ratio", "ESC rating ÷ motor current", "", "high"),
-    ("Full throttle", "margins.pack_current_ratio", "Pack current ÷ allowed", "", "low"),
-    ("Endurance", "endurance_min", "Endurance", "min", "high"),
-    ("Endurance", "endurance_stop_reason", "Stops at", "", None),
-    ("Cost", "cost", "Parts cost per airframe", "", "low"),
-]
 CHANGE_KEYS = ["cruise.electrical_power_w", "full_throttle.thrust_to_weight", "endurance_min", "all_up_mass_g"]
 
 
@@ -72,11 +41,40 @@ def list_all(session: Session, *, team_id: int) -> list[Shortlist]:
     return list(session.scalars(stmt))
 
 
+def _name_taken(session: Session, team_id: int, name: str, *, except_id: int | None = None) -> bool:
+    stmt = select(Shortlist.id).where(Shortlist.team_id == team_id, func.lower(Shortlist.name) == name.lower())
+    if except_id is not None:
+        stmt = stmt.where(Shortlist.id != except_id)
+    return session.scalar(stmt.limit(1)) is not None
+
+
+def _check_name(session: Session, team_id: int, name: str, *, except_id: int | None = None) -> None:
+    if _name_taken(session, team_id, name, except_id=except_id):
+        raise Conflict(f"A shortlist named “{name}” already exists",
+                       [FieldError("name", f"“{name}” is already used by another shortlist; choose another name")])
+
+
+def free_name(session: Session, *, team_id: int, base: str) -> str:
+    """``base``, or ``base`` with the smallest free number appended ("… 2", "… 3"), at most 120 characters."""
+    base = base.strip()[:120] or "Shortlist"
+    if not _name_taken(session, team_id, base):
+        return base
+    number = 2
+    while True:
+        suffix = f" {number}"
+        candidate_name = base[: 120 - len(suffix)] + suffix
+        if not _name_taken(session, team_id, candidate_name):
+            return candidate_name
+        number += 1
+
+
 def create(session: Session, *, team_id: int, user_id: int | None, name: str, mission_id: int) -> Shortlist:
+    """A new shortlist; a name another shortlist of the team already has (any case) is a 409."""
     try:
         missions_service.get_mission(session, team_id=team_id, mission_id=mission_id)
     except NotFound:
         raise InvalidInput("Unknown mission", [FieldError("mission_id", f"no mission with id {mission_id}")]) from None
+    _check_name(session, team_id, name)
     row = Shortlist(team_id=team_id, name=name, mission_id=mission_id, created_by_id=user_id)
     session.add(row)
     session.flush()
@@ -85,6 +83,7 @@ def create(session: Session, *, team_id: int, user_id: int | None, name: str, mi
 
 def rename(session: Session, *, team_id: int, shortlist_id: int, name: str) -> Shortlist:
     row = get(session, team_id=team_id, shortlist_id=shortlist_id)
+    _check_name(session, team_id, name, except_id=row.id)
     row.name = name
     session.flush()
     return row
@@ -167,6 +166,31 @@ def add_entry(
     return entry
 
 
+def add_from_ranking(
+    session: Session,
+    *,
+    team_id: int,
+    user_id: int | None,
+    ranking_id: int,
+    rank: int,
+    shortlist_id: int | None = None,
+    name: str | None = None,
+    note: str = "",
+) -> ShortlistEntry:
+    """Add a ranked row to a shortlist of the ranking's mission; without ``shortlist_id`` to a new shortlist
+    called ``name`` (a 409 if taken) or, without a name, "<mission> shortlist" with the next free number."""
+    ranking = session.scalar(select(Ranking).where(Ranking.id == ranking_id, Ranking.team_id == team_id))
+    if ranking is None:
+        raise NotFound(f"No ranking with id {ranking_id}")
+    if ranking.mission_id is None:
+        raise Conflict("The ranking's mission was deleted; start a new ranking")
+    if shortlist_id is None:
+        chosen = name or free_name(session, team_id=team_id, base=f"{ranking.mission_name} shortlist")
+        shortlist_id = create(session, team_id=team_id, user_id=user_id, name=chosen, mission_id=ranking.mission_id).id
+    return add_entry(session, team_id=team_id, user_id=user_id, shortlist_id=shortlist_id,
+                     data=EntryCreate(ranking_id=ranking_id, rank=rank, note=note))
+
+
 def _entry(session: Session, shortlist: Shortlist, entry_id: int) -> ShortlistEntry:
     entry = session.scalar(
         select(ShortlistEntry).where(ShortlistEntry.id == entry_id, ShortlistEntry.shortlist_id == shortlist.id)
@@ -210,7 +234,7 @@ def _mission(session: Session, shortlist: Shortlist) -> Mission:
     return mission
 
 
-def _ids(entry: ShortlistEntry) -> candidate.CandidateIds:
+def candidate_ids(entry: ShortlistEntry) -> candidate.CandidateIds:
     return candidate.CandidateIds(
         entry.battery_id, entry.esc_id, entry.motor_id, entry.propeller_id, entry.packs_in_parallel
     )
@@ -222,7 +246,7 @@ def re_evaluate(session: Session, *, team_id: int, shortlist_id: int) -> list[di
     mission = _mission(session, shortlist)
     changes = []
     for entry in shortlist.entries:
-        fresh = candidate.evaluate(session, team_id=team_id, mission=mission, ids=_ids(entry))
+        fresh = candidate.evaluate(session, team_id=team_id, mission=mission, ids=candidate_ids(entry))
         diffs = {}
         for key in CHANGE_KEYS:
             old, new = lookup(entry.metrics, key), lookup(fresh, key)
@@ -241,140 +265,6 @@ def re_evaluate(session: Session, *, team_id: int, shortlist_id: int) -> list[di
         entry.metrics, entry.engine_version = fresh, ENGINE_VERSION
     session.flush()
     return changes
-
-
-def _part_summary(session: Session, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
-    part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
-    return {
-        "id": part.id,
-        "name": part.name,
-        "maker": part.maker,
-        "part_number": part.part_number,
-        "mass_g": part.mass_g,
-        "unit_cost": part.unit_cost,
-        "currency": part.currency,
-        "archived": part.archived,
-    }
-
-
-def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, Any]:
-    """Fresh numbers for every entry (current engine and calibrations), rows with the best value marked."""
-    shortlist = get(session, team_id=team_id, shortlist_id=shortlist_id)
-    mission = _mission(session, shortlist)
-    entries: list[dict[str, Any]] = []
-    for entry in shortlist.entries:
-        metrics = candidate.evaluate(session, team_id=team_id, mission=mission, ids=_ids(entry), with_curves=True)
-        added_by = session.get(User, entry.added_by_id) if entry.added_by_id else None
-        entries.append(
-            {
-                "entry_id": entry.id,
-                "position": entry.position,
-                "note": entry.note,
-                "added_by": added_by.email if added_by else None,
-                "added_at": entry.added_at,
-                "from_ranking": entry.ranking_id,
-                "calibrated": {
-                    kind: sorted(k for k, v in sources.items() if v == "calibrated")
-                    for kind, sources in metrics["sources"].items()
-                },
-                "parts": {
-                    kind: _part_summary(session, team_id, kind, getattr(entry, f"{attr}_id"))
-                    for kind, attr in (
-                        ("batteries", "battery"),
-                        ("escs", "esc"),
-                        ("motors", "motor"),
-                        ("propellers", "propeller"),
-                    )
-                },
-                "packs_in_parallel": entry.packs_in_parallel,
-                "metrics": metrics,
-                "snapshot_engine_version": entry.engine_version,
-                "changed_since_snapshot": any(lookup(entry.metrics, k) != lookup(metrics, k) for k in CHANGE_KEYS),
-            }
-        )
-    rows = []
-    for group, key, label, unit, better in COMPARE_ROWS:
-        values = [lookup(e["metrics"], key) for e in entries]
-        numeric = [v for v in values if isinstance(v, int | float)]
-        best = None
-        if better and len(numeric) >= 2 and len(set(numeric)) > 1:
-            target = min(numeric) if better == "low" else max(numeric)
-            best = [i for i, v in enumerate(values) if v == target]
-        rows.append(
-            {
-                "group": group,
-                "key": key,
-                "label": label,
-                "unit": unit,
-                "better": better,
-                "values": values,
-                "best": best or [],
-            }
-        )
-    return {
-        "shortlist": {"id": shortlist.id, "name": shortlist.name},
-        "mission": {
-            "id": mission.id,
-            "name": mission.name,
-            "kind": mission.kind,
-            "rotor_count": mission.airframe.rotor_count,
-            "min_thrust_to_weight": mission.min_thrust_to_weight,
-            "cruise_state_of_charge": mission.cruise_state_of_charge,
-        },
-        "required_thrust_per_rotor_n": [e["metrics"]["thrust_required_n"] for e in entries],
-        "engine_version": ENGINE_VERSION,
-        "entries": entries,
-        "rows": rows,
-    }
-
-
-def bom_csv(session: Session, *, team_id: int, shortlist_id: int, airframes: int) -> str:
-    """Bill of materials: per entry and part, quantities per airframe and for ``airframes`` airframes, costs."""
-    shortlist = get(session, team_id=team_id, shortlist_id=shortlist_id)
-    rotors = _mission(session, shortlist).airframe.rotor_count
-    out = io.StringIO()
-    writer = csv_writer(out)
-    writer.writerow(
-        [
-            "entry",
-            "kind",
-            "name",
-            "maker",
-            "part_number",
-            "quantity_per_airframe",
-            "airframes",
-            "quantity",
-            "unit_cost",
-            "currency",
-            "total_cost",
-        ]
-    )
-    for entry in shortlist.entries:
-        for kind, attr, per_airframe in (
-            ("batteries", "battery", entry.packs_in_parallel),
-            ("escs", "esc", rotors),
-            ("motors", "motor", rotors),
-            ("propellers", "propeller", rotors),
-        ):
-            part = _part_summary(session, team_id, kind, getattr(entry, f"{attr}_id"))
-            quantity = per_airframe * airframes
-            total = None if part["unit_cost"] is None else round(part["unit_cost"] * quantity, 2)
-            writer.writerow(
-                [
-                    entry.position + 1,
-                    kind,
-                    part["name"],
-                    part["maker"],
-                    part["part_number"],
-                    per_airframe,
-                    airframes,
-                    quantity,
-                    "" if part["unit_cost"] is None else part["unit_cost"],
-                    part["currency"],
-                    "" if total is None else total,
-                ]
-            )
-    return out.getvalue()
 
 
 def read(session: Session, shortlist: Shortlist) -> dict[str, Any]:

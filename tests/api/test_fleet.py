@@ -67,6 +67,32 @@ def test_demo_fleet_plan_tradeoff_and_bom(client: TestClient, demo: Any) -> None
     motors = [r for r in bom if r["kind"] == "motors"]
     # by hand: quad 4 rotors × 3 airframes + hexa 6 × 2 + cruiser 1 × 1 motors in all
     assert sum(int(r["quantity"]) for r in motors) == 4 * 3 + 6 * 2 + 1 * 1
+    props = [r for r in bom if r["kind"] == "propellers"]
+    # ...and propellers by rotation: CW 2 × 3 + 3 × 2 + 0, CCW 2 × 3 + 3 × 2 + 1 (the cruiser's single puller)
+    assert sum(int(r["quantity"]) for r in props if r["rotation"] == "CW") == 2 * 3 + 3 * 2
+    assert sum(int(r["quantity"]) for r in props if r["rotation"] == "CCW") == 2 * 3 + 3 * 2 + 1
+    spared = list(csv.DictReader(io.StringIO(client.get(
+        f"/api/v1/fleet-plans/{started.json()['id']}/bom.csv?spares_percent=25", headers=headers).text)))
+    for line in spared:
+        assert int(line["spares"]) == -(-int(line["quantity"]) * 25 // 100)  # ceil(quantity / 4)
+        assert int(line["order_quantity"]) == int(line["quantity"]) + int(line["spares"])
+
+
+def test_a_plan_turns_into_shortlists_through_the_api(client: TestClient, demo: Any) -> None:
+    headers, missions = demo
+    plan = client.post("/api/v1/fleet-plans", json=body(missions), headers=headers).json()["id"]
+    doc = wait(client, headers, plan)
+    created = client.post(f"/api/v1/fleet-plans/{plan}/shortlists", headers=headers)
+    assert created.status_code == 201, created.text
+    lists = created.json()
+    assert sorted(s["name"] for s in lists) == sorted(f"Demo fleet: {m['name']}" for m in doc["missions"])
+    for shortlist in lists:
+        (entry,) = shortlist["entries"]
+        assignment = next(a for a in doc["result"]["assignments"] if a["mission_id"] == shortlist["mission_id"])
+        assert {k: entry[k] for k in ("battery_id", "esc_id", "motor_id", "propeller_id", "packs_in_parallel")} == {
+            k: assignment[k] for k in ("battery_id", "esc_id", "motor_id", "propeller_id", "packs_in_parallel")}
+    again = client.post(f"/api/v1/fleet-plans/{plan}/shortlists", headers=headers).json()
+    assert all(s["name"].endswith(" 2") for s in again)  # a second time: new names, nothing overwritten
 
 
 def test_one_battery_for_quad_hexa_and_cruiser_explains_the_conflict(client: TestClient, demo: Any) -> None:

@@ -142,6 +142,8 @@ def _body(method: str, path: str, ids: dict[str, int]) -> dict[str, Any]:
         return {"entry_ids": [ids["entry_id"]]}
     if path.endswith("/shortlists/{shortlist_id}/entries") and method == "POST":
         return {"ranking_id": 1, "rank": 1}
+    if path.endswith("/rankings/{ranking_id}/shortlist"):
+        return {"rank": 1}
     return {}
 
 

@@ -139,3 +139,37 @@ def test_shortlist_entry_from_a_ranking_row(client: TestClient, demo: Any) -> No
     missing = client.post(f"/api/v1/shortlists/{sid}/entries", json={"ranking_id": rid, "rank": 999},
                           headers=headers)
     assert missing.status_code == 422 and missing.json()["errors"][0]["field"] == "rank"
+
+
+def test_a_ranked_row_goes_to_a_shortlist_through_the_api(client: TestClient, demo: Any) -> None:
+    """What the page's "Add" does, for scripts: a new automatically named shortlist, then the same one again."""
+    headers, missions = demo
+    mission = missions["Q4 mapping survey"]
+    ranking = client.post("/api/v1/rankings", json={"mission_id": mission, "top_n": 5}, headers=headers).json()["id"]
+    assert wait_done(client, headers, ranking)["status"] == "done"
+    url = f"/api/v1/rankings/{ranking}/shortlist"
+    first = client.post(url, json={"rank": 1}, headers=headers)
+    assert first.status_code == 201, first.text
+    doc = first.json()
+    assert doc["created_shortlist"] is True and doc["shortlist"]["name"] == "Q4 mapping survey shortlist"
+    assert doc["entry"]["ranking_id"] == ranking and doc["shortlist"]["mission_id"] == mission
+    row = client.get(f"/api/v1/rankings/{ranking}/results", headers=headers).json()["items"][0]
+    assert {k: doc["entry"][k] for k in ("battery_id", "esc_id", "motor_id", "propeller_id")} == {
+        k: row[k] for k in ("battery_id", "esc_id", "motor_id", "propeller_id")}
+    sid = doc["shortlist"]["id"]
+    second = client.post(url, json={"rank": 2, "shortlist_id": sid, "note": "runner-up"}, headers=headers).json()
+    assert second["created_shortlist"] is False and len(second["shortlist"]["entries"]) == 2
+    # A second automatic shortlist gets the next free name; an explicit name that is taken is a 409.
+    third = client.post(url, json={"rank": 3}, headers=headers).json()
+    assert third["shortlist"]["name"] == "Q4 mapping survey shortlist 2"
+    taken = client.post(url, json={"rank": 3, "name": "Q4 mapping survey shortlist"}, headers=headers)
+    assert taken.status_code == 409
+    assert client.post(url, json={"rank": 999}, headers=headers).status_code == 422
+    assert client.post(url, json={"rank": 1, "shortlist_id": sid, "name": "x"}, headers=headers).status_code == 422
+    other = client.post("/api/v1/shortlists", headers=headers, json={
+        "name": "Hexa list", "mission_id": missions["H6 structure inspection"]}).json()["id"]
+    wrong_mission = client.post(url, json={"rank": 1, "shortlist_id": other}, headers=headers)
+    assert wrong_mission.status_code == 422 and wrong_mission.json()["errors"][0]["field"] == "ranking_id"
+    assert client.post("/api/v1/rankings/999999/shortlist", json={"rank": 1}, headers=headers).status_code == 404
+    names = [s["name"] for s in client.get("/api/v1/shortlists", headers=headers).json()]
+    assert sorted(names) == ["Hexa list", "Q4 mapping survey shortlist", "Q4 mapping survey shortlist 2"]

@@ -142,3 +142,61 @@ def test_a_mission_with_shortlists_cannot_be_deleted(client: TestClient, team: T
     response = client.delete(f"/api/v1/missions/{ids['mission']}", headers=h)
     assert response.status_code == 409 and "shortlist" in response.json()["detail"]
     assert client.get(f"/api/v1/missions/{ids['mission']}", headers=h).status_code == 200
+
+
+def test_bom_chosen_entries_spares_and_rotation_by_hand(client: TestClient, team: TeamFixture) -> None:
+    h = team.headers()
+    ids = make_library(client, team, rotors=6)
+    sid = client.post("/api/v1/shortlists", json={"name": "Hexa", "mission_id": ids["mission"]}, headers=h).json()["id"]
+    first = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids), headers=h).json()["id"]
+    second = client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids, packs_in_parallel=2),
+                         headers=h).json()["id"]
+    url = f"/api/v1/shortlists/{sid}/bom.csv"
+    every = list(csv.DictReader(io.StringIO(client.get(f"{url}?airframes=3", headers=h).text)))
+    assert {r["entry_id"] for r in every} == {str(first), str(second)}  # default: every entry, as before
+    response = client.get(f"{url}?airframes=3&entries={second}&spares_percent=10", headers=h)
+    assert response.status_code == 200, response.text
+    rows = list(csv.DictReader(io.StringIO(response.text)))
+    assert {r["entry_id"] for r in rows} == {str(second)} and {r["entry"] for r in rows} == {"2"}
+    by = {(r["kind"], r["rotation"]): r for r in rows}
+    assert set(by) == {("batteries", ""), ("escs", ""), ("motors", ""), ("propellers", "CW"), ("propellers", "CCW")}
+    # By hand: 6 rotors → 3 CW + 3 CCW propellers per airframe; × 3 airframes = 9 each; 10 % spares of 9 = 0.9 → 1.
+    for rotation in ("CW", "CCW"):
+        prop = by[("propellers", rotation)]
+        assert (prop["quantity_per_airframe"], prop["quantity"], prop["spares"], prop["order_quantity"]) == (
+            "3", "9", "1", "10")
+    # 2 packs × 3 airframes = 6, spares ceil(0.6) = 1, 7 ordered at 10.00 = 70.00 (the factory's unit cost).
+    pack = by[("batteries", "")]
+    assert (pack["quantity"], pack["spares"], pack["order_quantity"], pack["total_cost"]) == ("6", "1", "7", "70.0")
+    motors = by[("motors", "")]
+    assert (motors["quantity"], motors["spares"], motors["order_quantity"]) == ("18", "2", "20")  # ceil(1.8) = 2
+    for bad, field in ((f"entries={second},999999", "entries"), ("entries=a,b", "entries"),
+                       ("spares_percent=-5", "spares_percent")):
+        refused = client.get(f"{url}?{bad}", headers=h)
+        assert refused.status_code == 422, bad
+        assert refused.json()["errors"][0]["field"] == field
+
+
+def test_bom_of_an_odd_rotor_count_lists_the_unpaired_propeller_ccw(client: TestClient, team: TeamFixture) -> None:
+    h = team.headers()
+    ids = make_library(client, team, rotors=3)
+    sid = client.post("/api/v1/shortlists", json={"name": "Tri", "mission_id": ids["mission"]}, headers=h).json()["id"]
+    client.post(f"/api/v1/shortlists/{sid}/entries", json=entry_body(ids), headers=h)
+    rows = list(csv.DictReader(io.StringIO(client.get(f"/api/v1/shortlists/{sid}/bom.csv", headers=h).text)))
+    props = {r["rotation"]: r["quantity"] for r in rows if r["kind"] == "propellers"}
+    assert props == {"CW": "1", "CCW": "2"}
+    assert all(r["rotation"] == "" for r in rows if r["kind"] != "propellers")
+
+
+def test_shortlist_names_never_collide_silently(client: TestClient, team: TeamFixture) -> None:
+    h = team.headers()
+    ids = make_library(client, team)
+    body = {"name": "Quad options", "mission_id": ids["mission"]}
+    assert client.post("/api/v1/shortlists", json=body, headers=h).status_code == 201
+    again = client.post("/api/v1/shortlists", json=body | {"name": "quad OPTIONS"}, headers=h)
+    assert again.status_code == 409 and again.json()["errors"][0]["field"] == "name"
+    other = client.post("/api/v1/shortlists", json=body | {"name": "Other"}, headers=h).json()["id"]
+    clash = client.patch(f"/api/v1/shortlists/{other}", json={"name": "Quad options"}, headers=h)
+    assert clash.status_code == 409
+    assert client.patch(f"/api/v1/shortlists/{other}", json={"name": "other"}, headers=h).status_code == 200
+    assert [s["name"] for s in client.get("/api/v1/shortlists", headers=h).json()].count("Quad options") == 1

@@ -25,18 +25,13 @@ def test_rank_then_shortlist_three_and_compare(live_server: str, page: Any) -> N
     assert page.locator("#results tbody tr").count() >= 3
     page.wait_for_function("() => window.liftmatchCharts && window.liftmatchCharts.charts['chart-pareto']")
     screenshot(page, "ranking-results")
-    ranking_url = page.url
-    # First row into a new shortlist, then two more rows into that shortlist.
-    page.locator("#row-1 form.add-shortlist select").select_option(value="")
-    page.locator("#row-1 form.add-shortlist button").click()
-    page.wait_for_selector("#results .ok")
-    page.goto(ranking_url)
-    for rank in (2, 3):
-        form = page.locator(f"#row-{rank} form.add-shortlist")
-        form.locator("select").select_option(index=0)
-        form.locator("button").click()
-        page.wait_for_selector(f"#row-{rank} .ok")
-    page.locator("#row-3 .ok a").click()
+    # Three rows into a new shortlist: the first "Add" creates it, and the chooser then points every row at it.
+    assert page.locator("#shortlist-choice option:checked").inner_text() == "+ a new shortlist"
+    for rank in (1, 2, 3):
+        page.locator(f"#row-{rank} button.add-row").click()
+        page.wait_for_selector(f"#added-{rank}:has-text('✓')")
+    assert "Q4 mapping survey shortlist" in page.locator("#shortlist-choice option:checked").inner_text()
+    page.locator("#shortlist-status a").click()
     page.wait_for_selector("#compare-table")
     assert page.locator("#compare-table thead th.entry-head").count() == 3
     page.wait_for_function("() => window.liftmatchCharts && window.liftmatchCharts.charts['chart-gw']")
@@ -47,5 +42,7 @@ def test_rank_then_shortlist_three_and_compare(live_server: str, page: Any) -> N
     })""")
     assert counts == [[3, 1], [3, 1]]
     screenshot(page, "ranking-shortlist-compare")
+    page.goto(f"{live_server}/shortlists")  # three adds from rows, one shortlist
+    assert page.locator("#shortlist-list a", has_text="Q4 mapping survey shortlist").count() == 1
     assert page.js_errors == []
     assert time.monotonic() - started < 90

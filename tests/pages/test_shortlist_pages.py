@@ -62,8 +62,12 @@ def test_compare_page_cautions_when_a_part_runs_near_its_rating(app: FastAPI, cl
     client.post(f"/api/v1/shortlists/{sid}/entries", headers=h, json={
         "battery_id": ids["batteries"], "esc_id": ids["escs"], "motor_id": ids["motors"],
         "propeller_id": ids["propellers"]})
+    ratio = client.get(f"/api/v1/shortlists/{sid}/compare.json", headers=h).json()["entries"][0]["metrics"][
+        "margins"]["esc_rating_ratio"]
     login(client, team.viewer_email)
     page = BeautifulSoup(client.get(f"/shortlists/{sid}").text, "html.parser")
     caution = page.select_one(".caution").text
-    assert "ESC's continuous rating is only" in caution and "local regulations" in caution
+    # one rule (services.cautions): the motor current over the ESC's allowed current, rating ÷ the 1.2 margin
+    assert f"Candidate 1: ESC above {1.2 / ratio:.0%} of its allowed current" in caution
+    assert "local regulations" in caution
     assert page.select_one(".note-form") is None  # viewers read only

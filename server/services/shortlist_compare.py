@@ -1,0 +1,129 @@
+"""The compare view of a shortlist: every entry evaluated now, rows with the best value marked, cautions.
+
+Shared by the compare page, its print layout and ``GET /shortlists/{id}/compare.json``.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from sqlalchemy.orm import Session
+
+from server.models import Mission, Shortlist, User
+from server.physics import ENGINE_VERSION
+from server.services import candidate
+from server.services import parts as parts_service
+from server.services.cautions import near_limit
+from server.services.shortlists import CHANGE_KEYS, candidate_ids, get, lookup
+
+# Rows of the compare table: (group, key path in the metrics, label, unit, better: "low" | "high" | None).
+COMPARE_ROWS: list[tuple[str, str, str, str, str | None]] = [
+    ("Parts and masses", "all_up_mass_g", "All-up mass", "g", "low"),
+    ("Parts and masses", "pack_nominal_voltage_v", "Pack nominal voltage", "V", None),
+    ("Cruise point", "cruise.duty", "PWM duty", "", None),
+    ("Cruise point", "cruise.rpm", "Speed", "rpm", None),
+    ("Cruise point", "cruise.electrical_power_w", "Electrical power (craft)", "W", "low"),
+    ("Cruise point", "cruise.bus_current_a", "Pack current", "A", "low"),
+    ("Cruise point", "cruise.specific_thrust_g_per_w", "Specific thrust", "g/W", "high"),
+    ("Cruise point", "cruise.drive_efficiency", "Drive efficiency", "", "high"),
+    ("Cruise point", "cruise.losses_w.motor_copper", "Loss: motor copper (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.motor_no_load", "Loss: motor no-load (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.esc_conduction", "Loss: ESC conduction (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.pwm_ripple", "Loss: PWM ripple (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.switching", "Loss: switching (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.dead_time", "Loss: dead time (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.input_capacitor", "Loss: input capacitor (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.losses_w.calibrated_pwm", "Loss: calibrated PWM (per rotor)", "W", "low"),
+    ("Cruise point", "cruise.pack_loss_w", "Pack internal loss", "W", "low"),
+    ("Full throttle", "full_throttle.thrust_n", "Thrust per rotor (end of usable capacity)", "N", "high"),
+    ("Full throttle", "full_throttle.thrust_to_weight", "Thrust-to-weight", "", "high"),
+    ("Full throttle", "full_throttle.motor_current_a", "Peak motor current (full pack)", "A", "low"),
+    ("Full throttle", "full_throttle.bus_current_a", "Peak pack current (full pack)", "A", "low"),
+    ("Full throttle", "margins.motor_current_ratio", "Motor current ÷ its rating", "", "low"),
+    ("Full throttle", "margins.esc_rating_ratio", "ESC rating ÷ motor current", "", "high"),
+    ("Full throttle", "margins.pack_current_ratio", "Pack current ÷ allowed", "", "low"),
+    ("Endurance", "endurance_min", "Endurance", "min", "high"),
+    ("Endurance", "endurance_stop_reason", "Stops at", "", None),
+    ("Cost", "cost", "Parts cost per airframe", "", "low"),
+]
+PART_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
+
+
+def part_summary(session: Session, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
+    """What the compare view and the bill of materials say about a part."""
+    part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+    return {
+        "id": part.id,
+        "name": part.name,
+        "maker": part.maker,
+        "part_number": part.part_number,
+        "mass_g": part.mass_g,
+        "unit_cost": part.unit_cost,
+        "currency": part.currency,
+        "archived": part.archived,
+    }
+
+
+def _best(values: list[Any], better: str | None) -> list[int]:
+    numeric = [v for v in values if isinstance(v, int | float)]
+    if not better or len(numeric) < 2 or len(set(numeric)) == 1:
+        return []
+    target = min(numeric) if better == "low" else max(numeric)
+    return [i for i, v in enumerate(values) if v == target]
+
+
+def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, Any]:
+    """Fresh numbers for every entry (current engine and calibrations), rows with the best value marked."""
+    shortlist: Shortlist = get(session, team_id=team_id, shortlist_id=shortlist_id)
+    mission = session.get(Mission, shortlist.mission_id)
+    assert mission is not None
+    entries: list[dict[str, Any]] = []
+    for entry in shortlist.entries:
+        metrics = candidate.evaluate(
+            session, team_id=team_id, mission=mission, ids=candidate_ids(entry), with_curves=True
+        )
+        added_by = session.get(User, entry.added_by_id) if entry.added_by_id else None
+        entries.append(
+            {
+                "entry_id": entry.id,
+                "position": entry.position,
+                "note": entry.note,
+                "added_by": added_by.email if added_by else None,
+                "added_at": entry.added_at,
+                "from_ranking": entry.ranking_id,
+                "calibrated": {
+                    kind: sorted(k for k, v in sources.items() if v == "calibrated")
+                    for kind, sources in metrics["sources"].items()
+                },
+                "parts": {
+                    kind: part_summary(session, team_id, kind, getattr(entry, f"{attr}_id"))
+                    for kind, attr in PART_KINDS
+                },
+                "packs_in_parallel": entry.packs_in_parallel,
+                "metrics": metrics,
+                "cautions": [c.as_dict() for c in near_limit(metrics["margins"], mission.esc_current_margin)],
+                "snapshot_engine_version": entry.engine_version,
+                "changed_since_snapshot": any(lookup(entry.metrics, k) != lookup(metrics, k) for k in CHANGE_KEYS),
+            }
+        )
+    rows = []
+    for group, key, label, unit, better in COMPARE_ROWS:
+        values = [lookup(e["metrics"], key) for e in entries]
+        rows.append({"group": group, "key": key, "label": label, "unit": unit, "better": better,
+                     "values": values, "best": _best(values, better)})
+    return {
+        "shortlist": {"id": shortlist.id, "name": shortlist.name},
+        "mission": {
+            "id": mission.id,
+            "name": mission.name,
+            "kind": mission.kind,
+            "rotor_count": mission.airframe.rotor_count,
+            "min_thrust_to_weight": mission.min_thrust_to_weight,
+            "cruise_state_of_charge": mission.cruise_state_of_charge,
+            "esc_current_margin": mission.esc_current_margin,
+        },
+        "required_thrust_per_rotor_n": [e["metrics"]["thrust_required_n"] for e in entries],
+        "engine_version": ENGINE_VERSION,
+        "entries": entries,
+        "rows": rows,
+    }
