@@ -15,6 +15,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from server.deps import LoginRequired
 from server.errors import DomainError, problem
+from server.services._validation import request_errors
 
 log = logging.getLogger("liftmatch")
 PROBLEM = "application/problem+json"
@@ -37,16 +38,7 @@ def _page(request: Request, status: int, title: str, detail: str,
 
 
 def _validation_errors(exc: RequestValidationError) -> list[dict[str, Any]]:
-    out = []
-    for err in exc.errors():
-        loc = [str(p) for p in err.get("loc", ()) if p not in ("body", "query", "path", "header")]
-        message = str(err.get("msg", "invalid")).removeprefix("Value error, ")
-        field = ".".join(loc)
-        if not field:
-            first = message.split(" ", 1)[0]
-            field = first if "_" in first else "body"
-        out.append({"field": field, "message": message, "location": str(err.get("loc", ("",))[0])})
-    return out
+    return request_errors(exc.errors())
 
 
 def install(app: FastAPI) -> None:

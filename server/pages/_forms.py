@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import types
 import typing
 from dataclasses import dataclass
 from typing import Any, Literal
@@ -25,14 +26,51 @@ class FormField:
     step: str = "any"
     choices: tuple[str, ...] = ()
     help: str = ""
+    default: Any = None  # what a blank optional field becomes (None: nothing, the value stays unknown)
+
+    @property
+    def default_text(self) -> str:
+        """The default as the form shows it (empty when there is none)."""
+        if self.default is None or self.default == "":
+            return ""
+        return f"{self.default:g}" if isinstance(self.default, float) else str(self.default)
+
+    def choice_label(self, value: str) -> str:
+        return CHOICE_LABELS.get(value, value)
 
 
-LABELS = {"ct": "CT", "cp": "CP", "kv_rpm_per_v": "Kv", "k_pwm": "k_pwm", "no_load_current_a": "No-load current I0",
-          "static_table": "Static table (rpm, CT, CP per line)", "forward_table": "Forward table (J, CT, CP per line)",
-          "r_on_path_ohm": "Conduction resistance R_on", "input_esr_ohm": "Input-capacitor ESR"}
+LABELS = {
+    "ct": "CT", "cp": "CP", "kv_rpm_per_v": "Kv", "k_pwm": "k_pwm", "no_load_current_a": "No-load current I0",
+    "static_table": "Static table (rpm, CT, CP per line)", "forward_table": "Forward table (J, CT, CP per line)",
+    "r_on_path_ohm": "Conduction resistance R_on", "input_esr_ohm": "Input-capacitor ESR",
+    "unit_cost": "Unit cost", "pwm_frequency_khz": "PWM frequency", "no_load_test_voltage_v": "I0 measured at",
+    "cells_series": "Cells in series (S)", "cells_parallel": "Cells in parallel (P)",
+    "max_continuous_c": "Continuous discharge rating", "max_burst_c": "Burst discharge rating",
+    "forward_table_rpm": "Forward table measured at", "rotor_count": "Rotors",
+    "max_prop_diameter_in": "Largest propeller diameter", "max_packs_in_parallel": "Packs flown in parallel (at most)",
+    "kind": "Kind", "temperature_offset_c": "ISA temperature offset", "cruise_airspeed_m_s": "Cruise airspeed",
+    "lift_to_drag": "Lift-to-drag ratio L/D", "min_thrust_to_weight": "Minimum thrust-to-weight",
+    "duty_min": "Lowest hover/cruise duty", "duty_max": "Highest hover/cruise duty",
+    "min_endurance_min": "Minimum endurance", "usable_fraction": "Usable share of capacity",
+    "cutoff_v_per_cell": "Cut-off voltage per cell", "esc_current_margin": "ESC current margin",
+    "pack_current_fraction": "Allowed share of the pack's C rating",
+    "cruise_state_of_charge": "State of charge at the hover/cruise point", "max_all_up_mass_g": "Largest all-up mass",
+    "payload_mass_g": "Payload", "frame_mass_g": "Frame mass", "mass_g": "Mass",
+}
+CHOICE_LABELS = {"hover": "hover", "cruise": "cruise (wing-borne)",
+                 "lipo": "LiPo", "lihv": "LiHV", "liion": "Li-ion"}
 
 
-def _label(name: str) -> str:
+PARAMETER_LABELS = {"static_table": "CT, CP vs rpm", "forward_table": "CT, CP vs J"}
+
+
+def parameter_label(name: str) -> str:
+    """A model parameter's name for people (calibrations, predict's sources): "Kv", "CT, CP vs rpm"."""
+    return PARAMETER_LABELS.get(name) or label_of(name)
+
+
+def label_of(name: str) -> str:
+    """A field's label in plain words (trade symbols where the trade uses them), without its unit."""
     if name in LABELS:
         return LABELS[name]
     words = name.replace("_", " ")
@@ -68,8 +106,9 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
         unit = str(extra.get("x-unit", ""))
         help_text = description.removesuffix(f"[{unit}]").strip()
         annotation = info.annotation
-        args = typing.get_args(annotation)
-        base = next((a for a in args if a is not type(None)), annotation) if args else annotation
+        base = annotation
+        if typing.get_origin(annotation) in (typing.Union, types.UnionType):  # X | None: look at X
+            base = next(a for a in typing.get_args(annotation) if a is not type(None))
         if typing.get_origin(base) is typing.Annotated:  # ranged(...) | None: look inside the Annotated
             base = typing.get_args(base)[0]
         literal_args = typing.get_args(base) if typing.get_origin(base) is Literal else ()
@@ -86,7 +125,7 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
         out.append(
             FormField(
                 name=name,
-                label=_label(name),
+                label=label_of(name),
                 unit=unit if unit not in ("currency units",) else "",
                 widget=widget,
                 required=info.is_required(),
@@ -95,6 +134,7 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
                 step="1" if base is int else "any",
                 choices=tuple(str(a) for a in literal_args),
                 help=help_text,
+                default=None if info.is_required() else info.default,
             )
         )
     return out
@@ -138,8 +178,9 @@ def form_to_data(fields: list[FormField], values: dict[str, str]) -> tuple[dict[
                 errors[field.name] = str(exc)
         elif raw != "":
             data[field.name] = raw
-        elif not field.required:
-            data[field.name] = "" if field.widget in ("text", "textarea") else None
+        elif not field.required:  # blank: the documented default (shown beside the field), else "not known"
+            data[field.name] = field.default if field.default is not None else (
+                "" if field.widget in ("text", "textarea") else None)
     return data, errors
 
 
@@ -157,3 +198,9 @@ def values_of(obj: Any, fields: list[FormField]) -> dict[str, str]:
         else:
             out[field.name] = str(value)
     return out
+
+
+def unplaced(errors: dict[str, str], fields: list[FormField], *extra: str) -> list[str]:
+    """Errors about no field of the form (a rule across fields, say): shown above the form instead of beside one."""
+    names = {f.name for f in fields} | set(extra)
+    return [message if key == "body" else f"{key}: {message}" for key, message in errors.items() if key not in names]

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -13,7 +12,8 @@ from fastapi.templating import Jinja2Templates
 from markupsafe import Markup, escape
 from pydantic import ValidationError
 
-from server.errors import DomainError, InvalidInput
+from server.errors import DomainError
+from server.pages._forms import parameter_label
 from server.security import new_csrf_token
 from server.services._validation import field_errors
 
@@ -55,6 +55,7 @@ def make_templates(directory: Path) -> Jinja2Templates:
     templates = Jinja2Templates(directory=str(directory))
     templates.env.filters["num"] = fmt_number
     templates.env.filters["band"] = fmt_band
+    templates.env.filters["param_label"] = parameter_label
     templates.env.globals["quantity"] = quantity
     templates.env.globals["csrf_token"] = csrf_token
     # Macros as a global (not a per-template import) so a single block can be rendered on its own.
@@ -112,31 +113,3 @@ def error_lines(exc: ValidationError | DomainError) -> list[str]:
     if isinstance(exc, ValidationError):
         return [f"{e.field}: {e.message}" for e in field_errors(exc)]
     return [(f"row {e.row}, " if e.row else "") + f"{e.field}: {e.message}" for e in exc.errors] or [exc.detail]
-
-
-def form_version(values: dict[str, str]) -> int:
-    """The version an edit form was loaded with (0 when missing or garbled: the save then reports a conflict)."""
-    raw = values.get("version", "")
-    return int(raw) if raw.isdigit() else 0
-
-
-def save_edit(
-    session: Any, form_errors: dict[str, str], save: Callable[[], object]
-) -> tuple[dict[str, str], str] | None:
-    """Run ``save`` and commit unless the form already has errors.
-
-    Returns None when saved; otherwise the field errors and a message for the form (a version conflict or another
-    domain error), with the transaction rolled back.
-    """
-    if form_errors:
-        return form_errors, ""
-    try:
-        save()
-        session.commit()
-        return None
-    except InvalidInput as exc:
-        session.rollback()
-        return {e.field: e.message for e in exc.errors}, ""
-    except DomainError as exc:
-        session.rollback()
-        return {}, exc.detail

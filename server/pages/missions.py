@@ -10,8 +10,9 @@ from pydantic import BaseModel, ValidationError
 
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import InvalidInput
-from server.pages._forms import form_fields, form_to_data, values_of
-from server.pages._render import PostedForm, form_version, render, save_edit
+from server.pages._edit import edit_conflict, expected_version, save_edit
+from server.pages._forms import form_fields, form_to_data, unplaced, values_of
+from server.pages._render import PostedForm, render
 from server.schemas.missions import AirframeCreate, MissionCreate
 from server.services import missions as missions_service
 from server.services._validation import field_errors
@@ -68,7 +69,7 @@ def add_airframe(request: Request, caller: PageWriter, session: SessionDep, valu
             422,
             airframe_values=values,
             airframe_errors=errors,
-            message="Airframe not saved: fix the fields marked below.",
+            message=" ".join(["Airframe not saved: fix the fields marked below.", *unplaced(errors, AIRFRAME_FIELDS)]),
         )
     missions_service.create_airframe(session, team_id=caller.team_id, data=model)
     session.commit()
@@ -93,7 +94,8 @@ def add_mission(request: Request, caller: PageWriter, session: SessionDep, value
         422,
         mission_values=values,
         mission_errors=errors,
-        message="Mission not saved: fix the fields marked below.",
+        message=" ".join(["Mission not saved: fix the fields marked below.",
+                          *unplaced(errors, MISSION_FIELDS, "airframe_id")]),
     )
 
 
@@ -123,10 +125,10 @@ def update_mission(request: Request, caller: PageWriter, session: SessionDep, va
     data, errors = form_to_data(MISSION_FIELDS, values)
     data["airframe_id"] = values.get("airframe_id")
     outcome = save_edit(session, errors, lambda: missions_service.update_mission(
-        session, team_id=caller.team_id, mission_id=mission_id, changes=data, expected_version=form_version(values)))
+        session, team_id=caller.team_id, mission_id=mission_id, changes=data,
+        expected_version=expected_version(values)))
     if outcome is None:
         return RedirectResponse("/missions", status_code=303)
-    errors, message = outcome
     mission = missions_service.get_mission(session, team_id=caller.team_id, mission_id=mission_id)
     return render(
         request,
@@ -137,11 +139,13 @@ def update_mission(request: Request, caller: PageWriter, session: SessionDep, va
             "mission": mission,
             "fields": MISSION_FIELDS,
             "values": values,
-            "errors": errors,
-            "message": message or "Not saved: fix the fields marked below.",
+            "errors": outcome.errors,
+            "message": outcome.message or " ".join(["Not saved: fix the fields marked below.",
+                                                    *unplaced(outcome.errors, MISSION_FIELDS, "airframe_id")]),
+            "conflict": edit_conflict(MISSION_FIELDS, values, mission, ("airframe_id",)) if outcome.conflict else None,
             "airframes": missions_service.list_airframes(session, team_id=caller.team_id),
         },
-        status_code=409 if message else 422,
+        status_code=outcome.status,
     )
 
 
@@ -161,12 +165,12 @@ def update_airframe(
     data, errors = form_to_data(AIRFRAME_FIELDS, values)
     outcome = save_edit(session, errors, lambda: missions_service.update_airframe(
         session, team_id=caller.team_id, airframe_id=airframe_id, changes=data,
-        expected_version=form_version(values)))
+        expected_version=expected_version(values)))
     if outcome is None:
         return RedirectResponse("/missions", status_code=303)
-    errors, message = outcome
     airframe = missions_service.get_airframe(session, team_id=caller.team_id, airframe_id=airframe_id)
     return render(request, "pages/airframe_edit.html", {
         "caller": caller, "nav": "missions", "airframe": airframe, "fields": AIRFRAME_FIELDS, "values": values,
-        "errors": errors, "message": message or "Not saved: fix the fields marked below.",
-    }, status_code=409 if message else 422)
+        "errors": outcome.errors, "message": outcome.message or "Not saved: fix the fields marked below.",
+        "conflict": edit_conflict(AIRFRAME_FIELDS, values, airframe) if outcome.conflict else None,
+    }, status_code=outcome.status)

@@ -12,9 +12,10 @@ from pydantic import ValidationError
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import InvalidInput
 from server.limits import UPLOAD_BODY_BYTES
+from server.pages._edit import edit_conflict, expected_version, save_edit
 from server.pages._forms import FormField, form_fields, form_to_data, values_of
-from server.pages._render import PostedForm, form_version, render, save_edit
-from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS
+from server.pages._render import PostedForm, render
+from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, KIND_WORDS
 from server.services import parts as parts_service
 from server.services._validation import field_errors
 from server.uploads import read_upload
@@ -67,6 +68,7 @@ class PartsPageContext:
     kind: str
     label: str
     labels: dict[str, tuple[str, str]]
+    words: tuple[str, str, str]
     parts: list[Any]
     total: int
     q: str
@@ -102,6 +104,7 @@ def _context(
         kind=kind,
         label=KIND_LABELS[kind][1],
         labels=KIND_LABELS,
+        words=KIND_WORDS[kind],
         parts=items,
         total=total,
         q=q,
@@ -181,6 +184,8 @@ def edit_page(request: Request, caller: PageCaller, session: SessionDep, kind: s
             "nav": "parts",
             "kind": kind,
             "label": KIND_LABELS[kind][0],
+            "label_many": KIND_LABELS[kind][1],
+            "what": KIND_WORDS[kind][0],
             "part": part,
             "fields": fields,
             "values": values_of(part, fields),
@@ -200,10 +205,9 @@ def update_from_form(
     data, errors = form_to_data(fields, form)
     outcome = save_edit(session, errors, lambda: parts_service.update_part(
         session, team_id=caller.team_id, user_id=caller.user_id, kind=kind, part_id=part_id, changes=data,
-        expected_version=form_version(form)))
+        expected_version=expected_version(form)))
     if outcome is None:
         return RedirectResponse(f"/parts/{kind}", status_code=303)
-    errors, message = outcome
     part = parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=part_id)
     return render(
         request,
@@ -213,13 +217,16 @@ def update_from_form(
             "nav": "parts",
             "kind": kind,
             "label": KIND_LABELS[kind][0],
+            "label_many": KIND_LABELS[kind][1],
+            "what": KIND_WORDS[kind][0],
             "part": part,
             "fields": fields,
             "values": form,
-            "errors": errors,
-            "message": message or "Not saved: fix the fields marked below.",
+            "errors": outcome.errors,
+            "message": outcome.message or "Not saved: fix the fields marked below.",
+            "conflict": edit_conflict(fields, form, part) if outcome.conflict else None,
         },
-        status_code=409 if message else 422,
+        status_code=outcome.status,
     )
 
 
@@ -255,7 +262,7 @@ def import_csv(
         lines = [f"{'row ' + str(e.row) + ', ' if e.row else ''}{e.field}: {e.message}" for e in exc.errors]
         ctx = _context(session, caller, kind, import_errors=lines, import_message=exc.detail)
         return render(request, "pages/parts.html", _ctx(ctx), status_code=422)
-    ctx = _context(session, caller, kind, import_message=f"Imported {len(created)} {KIND_LABELS[kind][1].lower()}.")
+    ctx = _context(session, caller, kind, import_message=f"Imported {len(created)} {KIND_WORDS[kind][2]}.")
     return render(request, "pages/parts.html", _ctx(ctx))
 
 

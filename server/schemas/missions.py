@@ -67,9 +67,11 @@ class MissionCreate(BaseModel):
     @model_validator(mode="after")
     def _consistent(self) -> MissionCreate:
         if self.duty_min > self.duty_max:
-            raise ValueError("duty_min must not exceed duty_max")
-        if self.kind == "cruise" and (self.cruise_airspeed_m_s is None or self.lift_to_drag is None):
-            raise ValueError("a cruise mission needs cruise_airspeed_m_s and lift_to_drag")
+            raise ValueError("duty_min: must not be above the highest duty (duty_max)")
+        if self.kind == "cruise" and self.cruise_airspeed_m_s is None:
+            raise ValueError("cruise_airspeed_m_s: a cruise mission needs its cruise airspeed")
+        if self.kind == "cruise" and self.lift_to_drag is None:
+            raise ValueError("lift_to_drag: a cruise mission needs the lift-to-drag ratio at cruise")
         return self
 
 

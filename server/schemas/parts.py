@@ -39,7 +39,7 @@ class BatteryCreate(PartBase):
     @model_validator(mode="after")
     def _burst_not_below_continuous(self) -> BatteryCreate:
         if self.max_burst_c is not None and self.max_burst_c < self.max_continuous_c:
-            raise ValueError("max_burst_c must not be below max_continuous_c")
+            raise ValueError("max_burst_c: must not be below the continuous rating (max_continuous_c)")
         return self
 
 
@@ -59,9 +59,9 @@ class EscCreate(PartBase):
     @model_validator(mode="after")
     def _cells_in_order(self) -> EscCreate:
         if self.min_cells > self.max_cells:
-            raise ValueError("min_cells must not exceed max_cells")
+            raise ValueError("min_cells: must not be above the highest cell count (max_cells)")
         if self.burst_current_a is not None and self.burst_current_a < self.continuous_current_a:
-            raise ValueError("burst_current_a must not be below continuous_current_a")
+            raise ValueError("burst_current_a: must not be below the continuous current (continuous_current_a)")
         return self
 
 
@@ -111,7 +111,7 @@ class PropellerCreate(PartBase):
             if rows:
                 values = [getattr(r, key) for r in rows]
                 if any(b <= a for a, b in zip(values, values[1:], strict=False)):
-                    raise ValueError(f"{label} rows must be sorted by strictly increasing {key}")
+                    raise ValueError(f"{label}: rows must be sorted by strictly increasing {key}")
         return self
 
 
@@ -170,6 +170,13 @@ KIND_LABELS: dict[str, tuple[str, str]] = {
     "escs": ("ESC", "ESCs"),
     "motors": ("Motor", "Motors"),
     "propellers": ("Propeller", "Propellers"),
+}
+# The same inside a sentence: (one, with its article, many) — "an ESC", "6 ESCs", "a battery pack".
+KIND_WORDS: dict[str, tuple[str, str, str]] = {
+    "batteries": ("battery pack", "a battery pack", "battery packs"),
+    "escs": ("ESC", "an ESC", "ESCs"),
+    "motors": ("motor", "a motor", "motors"),
+    "propellers": ("propeller", "a propeller", "propellers"),
 }
 
 

@@ -11,6 +11,7 @@ from sqlalchemy.orm import Session
 from server.errors import Conflict, FieldError, InvalidInput, NotFound, check_version
 from server.models import Airframe, Mission, Shortlist
 from server.schemas.missions import AirframeCreate, MissionCreate
+from server.services._sorting import naturally
 from server.services._validation import validate
 
 Row = TypeVar("Row", Airframe, Mission)
@@ -32,14 +33,15 @@ def get_mission(session: Session, *, team_id: int, mission_id: int) -> Mission:
 
 
 def list_airframes(session: Session, *, team_id: int) -> list[Airframe]:
-    return list(session.scalars(select(Airframe).where(Airframe.team_id == team_id).order_by(Airframe.name)))
+    return naturally(session.scalars(select(Airframe).where(Airframe.team_id == team_id).order_by(Airframe.id)),
+                     lambda a: a.name)
 
 
 def list_missions(session: Session, *, team_id: int, airframe_id: int | None = None) -> list[Mission]:
     stmt = select(Mission).where(Mission.team_id == team_id)
     if airframe_id is not None:
         stmt = stmt.where(Mission.airframe_id == airframe_id)
-    return list(session.scalars(stmt.order_by(Mission.name)))
+    return naturally(session.scalars(stmt.order_by(Mission.id)), lambda m: m.name)
 
 
 def _check_airframe(session: Session, *, team_id: int, airframe_id: int) -> None:

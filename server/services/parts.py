@@ -19,7 +19,8 @@ from sqlalchemy.orm import Session
 from server.csv_cells import csv_writer, unescape_cell
 from server.errors import Conflict, FieldError, InvalidInput, NotFound, check_version
 from server.models import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
-from server.schemas.parts import CREATE_SCHEMAS, KIND_LABELS, READ_SCHEMAS
+from server.schemas.parts import CREATE_SCHEMAS, KIND_WORDS, READ_SCHEMAS
+from server.services._sorting import naturally
 from server.services._validation import field_errors, parse_json, validate
 
 MAX_PAGE_SIZE = 500
@@ -30,6 +31,7 @@ JSON_COLUMNS = ("static_table", "forward_table")
 WHERE_OPERATORS = (">=", "<=", "!=", "=", ">", "<")
 COMPARE = {">=": operator.ge, "<=": operator.le, "!=": operator.ne, "=": operator.eq, ">": operator.gt,
            "<": operator.lt}
+NATURAL_SORT = ("name", "part_number", "maker")
 
 
 def model_for(kind: str) -> type[PartColumns]:
@@ -40,7 +42,8 @@ def model_for(kind: str) -> type[PartColumns]:
 
 
 def singular(kind: str) -> str:
-    return KIND_LABELS[kind][0].lower()
+    """The kind's name inside a sentence ("ESC", "battery pack")."""
+    return KIND_WORDS[kind][0]
 
 
 def to_read(kind: str, part: PartColumns) -> dict[str, Any]:
@@ -124,10 +127,14 @@ def list_parts(
         stmt = stmt.where(_where(model, clause))
     descending = sort.startswith("-")
     column = _column(model, sort.lstrip("-"), "sort")
-    order = column.desc() if descending else column.asc()
     page_size = max(1, min(page_size, MAX_PAGE_SIZE))
-    rows = list(session.scalars(stmt.order_by(order, model.id).offset((max(page, 1) - 1) * page_size)
-                                .limit(page_size)))
+    offset = (max(page, 1) - 1) * page_size
+    if sort.lstrip("-") in NATURAL_SORT:  # names and part numbers in natural order ("5x2.5" before "30x10")
+        everything = naturally(session.scalars(stmt.order_by(model.id)), lambda p: getattr(p, sort.lstrip("-")),
+                               reverse=descending)
+        return everything[offset: offset + page_size], len(everything)
+    order = column.desc() if descending else column.asc()
+    rows = list(session.scalars(stmt.order_by(order, model.id).offset(offset).limit(page_size)))
     if max(page, 1) == 1 and len(rows) < page_size:  # the whole result fits on the first page: no count query
         return rows, len(rows)
     total = session.scalar(select(func.count()).select_from(stmt.subquery())) or 0

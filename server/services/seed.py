@@ -18,7 +18,7 @@ from server.models import PART_MODELS, Team
 from server.resources import demo_file
 from server.schemas.bench_runs import BenchRunMeta
 from server.schemas.missions import AirframeCreate, MissionCreate
-from server.schemas.parts import CREATE_SCHEMAS
+from server.schemas.parts import CREATE_SCHEMAS, KIND_WORDS
 from server.services import bench_runs, missions, parts, teams
 from server.services._validation import validate
 
@@ -107,7 +107,7 @@ def load_demo(session: Session, *, settings: Settings, if_missing: bool = False,
             )
             raw = (path.parent / row["file"]).read_bytes()
             bench_runs.import_run(session, team_id=team.id, user_id=None, meta=meta, raw=raw, filename=row["file"])
-    listed = ", ".join(f"{n} {k}" for k, n in counts.items())
+    listed = ", ".join(f"{n} {KIND_WORDS[k][2]}" for k, n in counts.items())
     return (
         f"loaded demo team {team_name!r}: {listed}, {len(data['airframes'])} airframes, "
         f"{len(data['missions'])} missions, {len(runs)} synthetic bench runs (invented data)"
