@@ -122,12 +122,13 @@ def compare(caller: CallerDep, session: SessionDep, shortlist_id: IdPath) -> dic
     return shortlist_compare.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
 
 
-def entry_ids(raw: str | None) -> list[int] | None:
-    """``12,15`` → [12, 15]; None when not given."""
-    if raw is None or not raw.strip():
+def entry_ids(raw: list[str] | None) -> list[int] | None:
+    """``entries=12,15`` (or ``entries=12&entries=15``, as an HTML form sends it) → [12, 15]; None when not given."""
+    text = ",".join(raw or [])
+    if not text.strip():
         return None
     try:
-        ids = [int(part) for part in raw.split(",") if part.strip()]
+        ids = [int(part) for part in text.split(",") if part.strip()]
     except ValueError:
         ids = []
     if not ids or any(not 1 <= i <= MAX_ID for i in ids):
@@ -142,7 +143,8 @@ def bom(
     shortlist_id: IdPath,
     airframes: Annotated[int, Query(ge=1, le=100_000, description="Airframes to equip")] = 1,
     entries: Annotated[
-        str | None, Query(max_length=500, description="Entry ids to order, comma-separated (default: every entry)")
+        list[str] | None,
+        Query(max_length=20, description="Entry ids to order: 12,15 or repeated (default: every entry)"),
     ] = None,
     spares_percent: Annotated[
         float, Query(ge=0, le=200, description="Spares per line, % of the quantity (rounded up) [%]")

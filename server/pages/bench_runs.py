@@ -15,9 +15,9 @@ from server.limits import UPLOAD_BODY_BYTES
 from server.pages._render import PostedForm, error_lines, form_values, render
 from server.schemas.bench_runs import BenchRunMeta
 from server.services import bench_runs as bench_service
+from server.services import calibration_report, refits
 from server.services import calibrations as calibration_service
 from server.services import parts as parts_service
-from server.services import refits
 
 router = APIRouter(prefix="/bench-runs")
 META_FIELDS = list(BenchRunMeta.model_fields)
@@ -93,14 +93,24 @@ def upload(request: Request, caller: PageWriter, session: SessionDep, form: Uplo
 def run_page(request: Request, caller: PageCaller, session: SessionDep, run_id: IdPath) -> HTMLResponse:
     detail = bench_service.run_detail(session, team_id=caller.team_id, run_id=run_id)
     run = detail["run"]
-    names = {kind: parts_service.get_part(session, team_id=caller.team_id, kind=kind, part_id=run[f"{attr}_id"]).name
-             for kind, attr in (("motors", "motor"), ("propellers", "propeller"), ("escs", "esc"))}
-    chart = {"samples": [{k: s[k] for k in ("throttle", "thrust_n", "bus_current_a", "electrical_power_w",
-                                            "specific_thrust_g_per_w", "drive_efficiency", "rpm", "thrust_coefficient",
-                                            "model_electrical_power_w", "model_bus_current_a", "residual_power")}
-                         | {"flagged": s["flag"] is not None} for s in detail["samples"]]}
+    ids = {"motors": {run["motor_id"]}, "propellers": {run["propeller_id"]}, "escs": {run["esc_id"]},
+           "batteries": {run["pack_id"]} if run["pack_id"] else set()}
+    parts = {kind: next(iter(found.values()), None)
+             for kind, found in parts_service.by_ids(session, team_id=caller.team_id, ids=ids).items()}
+    views = {}
+    for kind, cal in detail["calibrations"].items():
+        if cal is not None:
+            row = calibration_service.get(session, team_id=caller.team_id, calibration_id=cal["id"])
+            views[kind] = calibration_report.entered_vs_fitted(session, team_id=caller.team_id, calibration=row)
+    samples = [{k: s[k] for k in ("throttle", "thrust_n", "bus_current_a", "electrical_power_w",
+                                  "specific_thrust_g_per_w", "drive_efficiency", "rpm", "thrust_coefficient",
+                                  "power_coefficient", "model_electrical_power_w", "model_bus_current_a",
+                                  "residual_power")} | {"flagged": s["flag"] is not None} for s in detail["samples"]]
+    table = views.get("propellers", {}).get("table")
+    chart = {"samples": samples, "prop_table": table}
     return render(request, "pages/bench_run.html", {"caller": caller, "nav": "bench", "detail": detail,
-                                                    "names": names, "chart": chart})
+                                                    "parts": parts, "views": views, "chart": chart,
+                                                    "changes": detail["calibration_changes"]})
 
 
 @router.post("/{run_id}/calibrations/{calibration_id}", response_class=HTMLResponse)

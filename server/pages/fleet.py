@@ -13,6 +13,7 @@ from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.pages._render import PostedForm, error_lines, render
 from server.schemas.fleet import FleetPlanCreate
+from server.schemas.parts import KIND_LABELS
 from server.services import bom as bom_service
 from server.services import fleet as fleet_service
 from server.services import missions as missions_service
@@ -23,7 +24,7 @@ KINDS = ("batteries", "escs", "motors", "propellers")
 
 
 def _index(request: Request, session: Any, caller: Caller, status_code: int = 200, **extra: Any) -> HTMLResponse:
-    ctx: dict[str, Any] = {"caller": caller, "nav": "fleet", "kinds": KINDS,
+    ctx: dict[str, Any] = {"caller": caller, "nav": "fleet", "kinds": KINDS, "kind_labels": KIND_LABELS,
                            "missions": missions_service.list_missions(session, team_id=caller.team_id),
                            "plans": [fleet_service.status(p) for p in fleet_service.list_all(session,
                                                                                              team_id=caller.team_id)],
@@ -81,7 +82,11 @@ def plan_page(request: Request, caller: PageCaller, session: SessionDep, plan_id
     ctx = {"caller": caller, "nav": "fleet", "plan": doc, "kinds": KINDS,
            "parts": _names(session, caller, doc) if doc["status"] == "done" else {},
            "mission_names": {m["mission_id"]: m["name"] for m in doc["missions"]},
-           "chart": [{"part_numbers": p["part_numbers"], "objective": p["objective"]} for p in (doc["tradeoff"] or [])]}
+           "kind_labels": KIND_LABELS,
+           "chart": {"axis": "fleet cruise energy [W × weight]" if doc["metric"] == "cruise_energy"
+                     else "worst endurance margin [min]",
+                     "points": [{"part_numbers": p["part_numbers"], "objective": p["objective"]}
+                                for p in (doc["tradeoff"] or [])]}}
     return render(request, "pages/fleet_plan.html", ctx, block="job")
 
 

@@ -27,6 +27,7 @@ OVERRIDES = [
     ("motor", "no_load_current_a", "No-load current", "A"),
     ("propeller", "diameter_in", "Diameter", "in"), ("propeller", "ct", "CT", ""), ("propeller", "cp", "CP", ""),
 ]
+POINT_WORDS = {"thrust_n": "{:g} N", "rpm": "{:g} rpm", "throttle": "throttle {:g}"}  # a requested point, for people
 SCALARS = ["rotor_count", "all_up_mass_g", "supply_voltage_v", "packs_in_parallel", "state_of_charge", "altitude_m",
            "temperature_offset_c", "airspeed_m_s"]
 
@@ -83,6 +84,9 @@ def predict_page(request: Request, caller: PageCaller, session: SessionDep) -> H
             result = predict_service.predict(session, caller.team_id, model)
             system = predict_service.System(session, caller.team_id, model)
             chart = predict_service.chart_data(system, result)
+            for point, loss in zip((k for p in result["points"] for k in p["request"].items()), chart["losses"],
+                                   strict=True):
+                loss["label"] = POINT_WORDS.get(point[0], point[0] + " {:g}").format(point[1])
         except (ValidationError, DomainError) as exc:
             errors = error_lines(exc)
     return render(request, "pages/predict.html", {

@@ -11,6 +11,7 @@ from pydantic import ValidationError
 from server.deps import Caller, IdPath, PageCaller, PageWriter, SessionDep
 from server.errors import DomainError
 from server.pages._render import PostedForm, error_lines, render
+from server.schemas.parts import KIND_WORDS
 from server.schemas.shortlists import EntryCreate, ShortlistCreate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
@@ -69,9 +70,15 @@ def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: 
     }
     options = {kind: parts_service.list_parts(session, team_id=caller.team_id, kind=kind, page_size=500)[0]
                for kind in ("batteries", "escs", "motors", "propellers")}
+    point = "Cruise" if compare["mission"]["kind"] == "cruise" else "Hover"
     ctx = {"caller": caller, "nav": "shortlists", "shortlist": shortlists_service.read(session, shortlist),
            "compare": compare, "charts": charts, "cautions": cautions(compare), "options": options, "errors": [],
-           "changes": None, "values": {}}
+           "changes": None, "values": {}, "point_label": point, "kind_words": {k: w[0] for k, w in KIND_WORDS.items()},
+           "currencies": sorted({e["metrics"]["currency"] for e in compare["entries"]
+                                 if e["metrics"]["cost"] is not None}),
+           "change_labels": {"cruise.electrical_power_w": f"{point.lower()} power [W]",
+                             "full_throttle.thrust_to_weight": "thrust-to-weight", "endurance_min": "endurance [min]",
+                             "all_up_mass_g": "all-up mass [g]"}}
     ctx.update(extra)
     return render(request, "pages/shortlist_compare.html", ctx, status_code=status_code)
 

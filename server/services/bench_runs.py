@@ -18,7 +18,7 @@ from server.physics import drive
 from server.physics._types import Status
 from server.physics.esc import EscParams
 from server.schemas.bench_runs import BenchRunMeta
-from server.services import calibrations, refits
+from server.services import calibration_report, calibrations, refits
 from server.services import parts as parts_service
 from server.services import power_system as ps
 
@@ -194,7 +194,8 @@ def run_detail(session: Session, *, team_id: int, run_id: int) -> dict[str, Any]
     refit = refits.latest_for(session, team_id=team_id, esc_id=run.esc_id)
     return {"run": run_summary(run), "samples": rows,
             "calibrations": {k: calibrations.calibration_dict(c) if c else None for k, c in latest.items()},
-            "refit": refits.status(session, refit) if refit else None}
+            "refit": refits.status(session, refit) if refit else None,
+            "calibration_changes": calibration_report.pool_changes(session, team_id=team_id, esc_id=run.esc_id)}
 
 
 def _reason(code: str) -> Any:

@@ -4,6 +4,8 @@
 from __future__ import annotations
 
 import math
+import re
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -16,6 +18,7 @@ from server.physics import ENGINE_VERSION
 from server.physics.calibrate import JointFit, MotorPrior, RunData, fit_joint
 from server.services import parts as parts_service
 from server.services import power_system as ps
+from server.services.calibration_report import parameter_changes, pool_latest
 
 INCH_M = 0.0254
 MIN_SAMPLES_TO_FIT = 4
@@ -99,29 +102,53 @@ def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, A
     except (ValueError, np.linalg.LinAlgError) as exc:
         return {"calibrations": [], "error": f"the fit did not converge: {exc}"}
     run_ids = [r.id for r, _ in data]
-    notes = "; ".join(fit.notes)
-    stored = [_store_esc(session, team_id, esc_id, fit, run_ids, notes)]
+    before = {(c.part_kind, c.part_id): c for c in pool_latest(session, team_id, esc_id)}
+    stored = [_store_esc(session, team_id, esc, fit, run_ids)]
     for motor_key, mfit in fit.motors.items():
-        stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids, notes))
+        stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids))
     for prop_id, pfit in fit.propellers.items():
-        stored.append(_store_propeller(session, team_id, int(prop_id), pfit, run_ids, notes))
+        stored.append(_store_propeller(session, team_id, int(prop_id), pfit, run_ids))
     session.flush()
-    return {"calibrations": [calibration_dict(c) for c in stored], "error": None}
+    changes = [change for c in stored if (c.part_kind, c.part_id) in before
+               for change in parameter_changes(before[(c.part_kind, c.part_id)], c)]
+    return {"calibrations": [calibration_dict(c) for c in stored], "error": None, "changes": changes}
 
 
-def _store_esc(session: Session, team_id: int, esc_id: int, fit: JointFit, run_ids: list[int],
-               notes: str) -> Calibration:
+# The fit's parameter names in words, for the notes people read under each part.
+FIT_WORDS = {"kv_rpm_per_v": "Kv", "resistance_ohm": "winding resistance R", "no_load_current_a": "no-load current I0",
+             "pwm_loss_coefficient": "k_pwm", "on_path_resistance_ohm": "conduction resistance R_on",
+             "(datasheet)": "(the part's entered value)", "(default)": "(the engine default)",
+             "(start)": "(a starting guess)"}
+
+
+def plain_notes(notes: Sequence[str], **replace: str) -> str:
+    """The fit's notes about one part, without the owner prefix ("4:", "esc:") and with names in words."""
+    out = []
+    for note in notes:
+        text = re.sub(r"^(esc|\d+):", "", note.strip())
+        for raw, words in sorted((FIT_WORDS | replace).items(), key=lambda kv: -len(kv[0])):  # longest name first
+            text = text.replace(raw, words)
+        out.append(text[:1].upper() + text[1:])
+    return "; ".join(dict.fromkeys(n for n in out if n))
+
+
+def _store_esc(session: Session, team_id: int, esc: Esc, fit: JointFit, run_ids: list[int]) -> Calibration:
     assert fit.esc is not None
     p = fit.esc.parameters
     params = {"k_pwm": _param(p["pwm_loss_coefficient"]), "r_on_path_ohm": _param(p["on_path_resistance_ohm"])}
-    return _store(session, team_id=team_id, kind="escs", part_id=esc_id, parameters=params, fit=fit,
-                  run_ids=run_ids, notes="; ".join([notes, *fit.esc.notes]).strip("; "),
+    entered = {name: getattr(esc, name) is not None for name in params}
+    for name, value in params.items():  # a value kept from the ESC's own entry is the part's, not a default
+        if value["status"] == "fixed" and entered[name]:
+            value["source"] = "part"
+    words = {"kept at its default": "kept at the ESC's entered value"} if entered["r_on_path_ohm"] else {}
+    return _store(session, team_id=team_id, kind="escs", part_id=esc.id, parameters=params, fit=fit,
+                  run_ids=run_ids, notes=plain_notes(fit.esc.notes, **words),
                   covariance=_covariance(fit.esc, {"pwm_loss_coefficient": "k_pwm",
                                                    "on_path_resistance_ohm": "r_on_path_ohm"}))
 
 
-def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, mfit: Any, run_ids: list[int],
-                 notes: str) -> Calibration:
+def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, mfit: Any,
+                 run_ids: list[int]) -> Calibration:
     assert fit.esc is not None
     on_path = fit.esc.value("on_path_resistance_ohm")
     p = mfit.parameters
@@ -134,12 +161,11 @@ def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, m
         if value["source"] == "start":  # a starting guess is not a measurement
             value["status"] = "fixed"
     return _store(session, team_id=team_id, kind="motors", part_id=motor_id, parameters=params, fit=mfit,
-                  run_ids=run_ids, notes="; ".join([notes, *mfit.notes]).strip("; "),
+                  run_ids=run_ids, notes=plain_notes(mfit.notes),
                   covariance=_covariance(mfit, {"resistance_ohm": "winding_resistance_ohm"}))
 
 
-def _store_propeller(session: Session, team_id: int, prop_id: int, pfit: Any, run_ids: list[int],
-                     notes: str) -> Calibration:
+def _store_propeller(session: Session, team_id: int, prop_id: int, pfit: Any, run_ids: list[int]) -> Calibration:
     rows = [{"rpm": float(r), "ct": float(ct), "cp": float(cp)}
             for r, ct, cp in zip(pfit.rpm, pfit.thrust_coefficient, pfit.power_coefficient, strict=True)]
     identified = all(p.status == "identified" for p in pfit.parameters.values()) and all(
@@ -150,7 +176,7 @@ def _store_propeller(session: Session, team_id: int, prop_id: int, pfit: Any, ru
         "status": "identified" if identified else "fixed", "unit": "", "source": "fit",
     }}
     return _store(session, team_id=team_id, kind="propellers", part_id=prop_id, parameters=params, fit=pfit,
-                  run_ids=run_ids, notes="; ".join([notes, *pfit.notes]).strip("; "),
+                  run_ids=run_ids, notes=plain_notes(pfit.notes),
                   covariance=_covariance(pfit) if identified else None)
 
 
@@ -189,11 +215,16 @@ def list_calibrations(session: Session, *, team_id: int, kind: str, part_id: int
                                 .order_by(Calibration.id.desc())))
 
 
-def set_active(session: Session, *, team_id: int, calibration_id: int, active: bool) -> Calibration:
-    """The "use this calibration" switch: one active calibration per part at most."""
+def get(session: Session, *, team_id: int, calibration_id: int) -> Calibration:
     row = session.scalar(select(Calibration).where(Calibration.id == calibration_id, Calibration.team_id == team_id))
     if row is None:
         raise NotFound(f"No calibration with id {calibration_id}")
+    return row
+
+
+def set_active(session: Session, *, team_id: int, calibration_id: int, active: bool) -> Calibration:
+    """The "use this calibration" switch: one active calibration per part at most."""
+    row = get(session, team_id=team_id, calibration_id=calibration_id)
     if active:
         session.execute(update(Calibration).where(Calibration.team_id == team_id,
                                                   Calibration.part_kind == row.part_kind,

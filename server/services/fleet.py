@@ -78,6 +78,7 @@ def run_job(factory: sessionmaker[Session], plan_id: int, context: JobContext) -
         inputs = plan.inputs
     started = time.monotonic()
     candidates, names, timings = [], {}, {}
+    rows: dict[Any, list[dict[str, Any]]] = {}
     count = len(inputs["missions"])
     for i, snap in enumerate(inputs["missions"]):
         library, mission = engine_inputs(snap)
@@ -94,8 +95,9 @@ def run_job(factory: sessionmaker[Session], plan_id: int, context: JobContext) -
                                "see its ranking for the reasons",
                     "conflicting_missions": [snap["mission"]["id"]], "binding": ["mission"]}})
             return
+        rows[snap["mission"]["id"]] = [r.as_dict() for r in outcome.top]
         candidates.append(MissionCandidates.from_rows(snap["mission"]["id"], snap["weight"],
-                                                      [r.as_dict() for r in outcome.top],
+                                                      rows[snap["mission"]["id"]],
                                                       min_endurance_min=snap["mission"]["min_endurance_min"]))
         context.progress(0.7 * (i + 1) / count)
     timings["rank_s"] = time.monotonic() - started
@@ -114,6 +116,8 @@ def run_job(factory: sessionmaker[Session], plan_id: int, context: JobContext) -
     context.check()
     timings["job_s"] = time.monotonic() - started
     result["mission_names"] = {str(k): v for k, v in names.items()}
+    for assignment in [*result["assignments"], *(a for point in curve for a in point["assignments"])]:
+        assignment.update(_flight(rows[assignment["mission_id"]][assignment["candidate_index"]]))
     _done(factory, plan_id, result=_json(result), tradeoff=_json(curve), timings=timings)
 
 
@@ -123,6 +127,17 @@ def cancel(session: Session, *, team_id: int, plan_id: int) -> FleetPlan:
     request_cancel(row, "fleet plan")
     session.flush()
     return row
+
+
+def _flight(row: dict[str, Any]) -> dict[str, Any]:
+    """What an assignment's flight looks like (from its ranking row): endurance, headroom, mass, duty, cost."""
+    return {
+        "endurance_min": row["endurance_min"],
+        "thrust_to_weight": row["full_throttle"]["thrust_to_weight"],
+        "all_up_mass_g": row["all_up_mass_g"],
+        "cruise_duty": row["cruise"]["duty"],
+        "cost": row["cost"],
+    }
 
 
 def _json(value: Any) -> Any:

@@ -78,11 +78,15 @@ class Resolved:
     """The active calibration's relative residual (model against its own bench runs). [-]"""
 
     def report(self) -> dict[str, dict[str, Any]]:
+        """Each value with its source; ``used`` is false for constants a table supersedes (CT/CP beside a
+        static table, which the model reads instead)."""
         out = {}
+        superseded = {"ct", "cp"} if self.kind == "propellers" and self.values.get("static_table") else set()
         for name, value in self.values.items():
             if name in self.sources:
                 out[name] = {"value": value, "source": self.sources[name], "unit": UNITS.get(name, ""),
-                             "sd": self.sd.get(name), "origin": self.origins.get(name)}
+                             "sd": self.sd.get(name), "origin": self.origins.get(name),
+                             "used": name not in superseded}
         return out
 
     def require(self, names: list[str], where: str) -> None:

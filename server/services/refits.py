@@ -48,7 +48,8 @@ def run_job(factory: sessionmaker[Session], refit_id: int, context: JobContext) 
         assert row is not None
         outcome = calibrations.calibrate_esc(session, team_id=row.team_id, esc_id=row.esc_id)
         context.check()  # cancelled or out of time while fitting: store nothing
-        row.result = {"calibration_ids": [c["id"] for c in outcome["calibrations"]], "error": outcome["error"]}
+        row.result = {"calibration_ids": [c["id"] for c in outcome["calibrations"]], "error": outcome["error"],
+                      "changes": outcome.get("changes", [])}
         row.status, row.progress, row.finished_at = "done", 1.0, datetime.now(UTC)
 
 
@@ -72,5 +73,6 @@ def status(session: Session, row: Refit) -> dict[str, Any]:
             session, team_id=row.team_id, ids=row.result.get("calibration_ids", []))]
     return {"refit_id": row.id, "status": row.status, "esc_id": row.esc_id, "run_id": row.run_id,
             "calibrations": stored, "error": (row.result or {}).get("error") or row.error or None,
+            "changes": (row.result or {}).get("changes", []),
             "created_at": row.created_at, "started_at": row.started_at, "finished_at": row.finished_at,
             "url": f"/api/v1/refits/{row.id}"}

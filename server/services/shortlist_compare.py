@@ -64,12 +64,16 @@ def part_summary(session: Session, team_id: int, kind: str, part_id: int) -> dic
     }
 
 
-def _best(values: list[Any], better: str | None) -> list[int]:
-    numeric = [v for v in values if isinstance(v, int | float)]
+FLYING = ("ok", "over_current")  # cruise statuses of a candidate that holds its hover/cruise point
+
+
+def _best(values: list[Any], better: str | None, flying: list[bool]) -> list[int]:
+    """Indices of the best value of a row among the candidates that can hold the mission's point."""
+    numeric = [v for v, ok in zip(values, flying, strict=True) if ok and isinstance(v, int | float)]
     if not better or len(numeric) < 2 or len(set(numeric)) == 1:
         return []
     target = min(numeric) if better == "low" else max(numeric)
-    return [i for i, v in enumerate(values) if v == target]
+    return [i for i, (v, ok) in enumerate(zip(values, flying, strict=True)) if ok and v == target]
 
 
 def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, Any]:
@@ -107,10 +111,11 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
             }
         )
     rows = []
+    flying = [e["metrics"]["cruise"]["status"] in FLYING for e in entries]
     for group, key, label, unit, better in COMPARE_ROWS:
         values = [lookup(e["metrics"], key) for e in entries]
         rows.append({"group": group, "key": key, "label": label, "unit": unit, "better": better,
-                     "values": values, "best": _best(values, better)})
+                     "values": values, "best": _best(values, better, flying)})
     return {
         "shortlist": {"id": shortlist.id, "name": shortlist.name},
         "mission": {

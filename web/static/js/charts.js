@@ -125,6 +125,25 @@
       draw("bench-eff", { type: "scatter", data: { datasets: [{ label: "CT", data: used.map((s) => ({ x: s.rpm, y: s.thrust_coefficient })), backgroundColor: PALETTE[3] }] },
         options: { scales: { x: { title: { display: true, text: "rpm" } }, y: { title: { display: true, text: "thrust coefficient CT" } } } } });
     }
+    const table = JSON.parse(node.textContent || "{}").prop_table;
+    if (table && table.rows && table.rows.length) {
+      const rpms = table.rows.map((r) => r.rpm);
+      const span = [Math.min.apply(null, rpms.concat(used.map((s) => s.rpm))), Math.max.apply(null, rpms.concat(used.map((s) => s.rpm)))];
+      const sets = [
+        { label: "CT fitted", data: table.rows.map((r) => ({ x: r.rpm, y: r.ct })), showLine: true, borderColor: PALETTE[0], backgroundColor: PALETTE[0], pointRadius: 3, yAxisID: "ct" },
+        { label: "CT measured (this run)", data: used.filter((s) => s.thrust_coefficient !== null).map((s) => ({ x: s.rpm, y: s.thrust_coefficient })), borderColor: PALETTE[0], backgroundColor: "transparent", pointRadius: 4, yAxisID: "ct" },
+        { label: "CP fitted", data: table.rows.map((r) => ({ x: r.rpm, y: r.cp })), showLine: true, borderColor: PALETTE[1], backgroundColor: PALETTE[1], pointRadius: 3, borderDash: [6, 3], yAxisID: "cp" },
+      ];
+      const measuredCp = used.filter((s) => s.power_coefficient !== null && s.power_coefficient !== undefined);
+      if (measuredCp.length) sets.push({ label: "CP measured (this run, from torque)", data: measuredCp.map((s) => ({ x: s.rpm, y: s.power_coefficient })), borderColor: PALETTE[1], backgroundColor: "transparent", pointRadius: 4, pointStyle: "rect", yAxisID: "cp" });
+      if (table.entered_ct !== null) sets.push({ label: "CT entered", data: span.map((x) => ({ x: x, y: table.entered_ct })), showLine: true, pointRadius: 0, borderColor: PALETTE[0], borderDash: [2, 3], borderWidth: 1, yAxisID: "ct" });
+      if (table.entered_cp !== null) sets.push({ label: "CP entered", data: span.map((x) => ({ x: x, y: table.entered_cp })), showLine: true, pointRadius: 0, borderColor: PALETTE[1], borderDash: [2, 3], borderWidth: 1, yAxisID: "cp" });
+      draw("prop-coefficients", { type: "scatter", data: { datasets: sets }, options: { scales: {
+        x: { title: { display: true, text: "rpm" } },
+        ct: { position: "left", title: { display: true, text: "thrust coefficient CT" } },
+        cp: { position: "right", title: { display: true, text: "power coefficient CP" }, grid: { drawOnChartArea: false } } },
+        plugins: { legend: { labels: { boxWidth: 12, font: { size: 10 } } } } } });
+    }
     draw("bench-residual", { type: "scatter", data: { datasets: [{ label: "residual", data: byThrust.map((s) => ({ x: s.thrust_n, y: 100 * s.residual_power })), backgroundColor: PALETTE[4] }] },
       options: { scales: { x: { title: { display: true, text: "thrust [N]" } }, y: { title: { display: true, text: "residual [%]" } } } } });
   }
@@ -132,7 +151,8 @@
   function tradeoffChart() {
     const node = document.getElementById("tradeoff-chart-data");
     if (!node) return;
-    const points = JSON.parse(node.textContent || "[]");
+    const data = JSON.parse(node.textContent || "{}");
+    const points = data.points || [];
     draw("chart-tradeoff", { type: "scatter", data: { datasets: [{ label: "best plan", showLine: true, stepped: false,
       data: points.map((p) => ({ x: p.part_numbers, y: p.objective })), borderColor: PALETTE[0], backgroundColor: PALETTE[0], pointRadius: 6 }] },
       options: { onClick: (event, elements) => {
@@ -142,7 +162,7 @@
           if (target) { target.open = true; target.scrollIntoView({ behavior: "smooth", block: "center" }); }
         },
         scales: { x: { title: { display: true, text: "part numbers stocked" }, ticks: { stepSize: 1 } },
-                  y: { title: { display: true, text: "fleet objective" } } } } });
+                  y: { title: { display: true, text: data.axis || "fleet objective" } } } } });
   }
 
   function all() { predictCharts(); compareCharts(); paretoChart(); benchCharts(); tradeoffChart(); }
