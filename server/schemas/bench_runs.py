@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING, Annotated, TypeAlias
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged, text
-from server.schemas.calibrations import CalibrationRead, RefitStatus
+from server.schemas.calibrations import CalibrationChange, CalibrationRead, RefitStatus
 from server.schemas.evaluation import Result
 
 if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
@@ -117,3 +117,5 @@ class BenchRunDetail(Result):
     samples: list[BenchSampleRead]
     calibrations: dict[str, CalibrationRead | None]
     refit: RefitStatus | None = Field(None, description="The latest refit of the run's ESC pool")
+    calibration_changes: list[CalibrationChange] = Field(
+        default_factory=list, description="What the latest pooled re-fit of this run's ESC moved, part by part")

@@ -40,11 +40,32 @@ class CalibrationRead(Result):
         default=None, description="Covariance of the identified parameters: {names, matrix} in their units")
 
 
+class CalibrationChange(Result):
+    """A parameter a pooled re-fit moved: the part's previous calibration against its new one."""
+
+    part_kind: str = Field(description="escs | motors | propellers")
+    part_id: int
+    part_name: str | None = None
+    parameter: str = Field(description="Parameter name; for a table 'ct@<rpm>' or 'cp@<rpm>' (at its median rpm)")
+    label: str = ""
+    unit: str = ""
+    before: float
+    before_stderr: float | None = None
+    after: float
+    after_stderr: float | None = None
+    change: float | None = Field(default=None, description="after ÷ before − 1 [-]")
+    beyond_stderr: bool = Field(description="The move is larger than the two standard errors combined")
+    before_id: int = Field(description="Calibration id before")
+    after_id: int = Field(description="Calibration id after")
+
+
 class CalibrationOutcome(Result):
-    """What one pooled re-fit stored (one calibration per part it identified), or why it stored nothing."""
+    """What one pooled re-fit stored (one calibration per part it identified), or why it stored nothing, and
+    which parameters of the pool's parts it moved."""
 
     calibrations: list[CalibrationRead] = Field(default_factory=list)
     error: str | None = None
+    changes: list[CalibrationChange] = Field(default_factory=list)
 
 
 class RefitStatus(CalibrationOutcome):

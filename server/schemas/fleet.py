@@ -70,6 +70,10 @@ class AssignmentRead(Result):
     endurance_min: float | None = Field(default=None, description="Flight time [min]")
     margin_min: float | None = Field(default=None, description="Endurance above the mission's minimum [min]")
     weight: float | None = None
+    thrust_to_weight: float | None = Field(default=None, description="At full throttle, end of usable capacity [-]")
+    all_up_mass_g: float | None = Field(default=None, description="All-up mass [g]")
+    cruise_duty: float | None = Field(default=None, description="PWM duty at the hover/cruise point [-]")
+    cost: float | None = Field(default=None, description="Parts cost per airframe (the parts' currency)")
 
 
 class InfeasibilityRead(Result):

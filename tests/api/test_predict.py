@@ -201,7 +201,8 @@ def test_saved_parts_by_id_with_overrides_and_sources(client: TestClient, team: 
     params = out["parameters"]
     # stated on the part, not measured: the Kv label's spread (15 %, the same as the calibration's Kv prior)
     assert params["motor"]["kv_rpm_per_v"] == {"value": 920, "source": "part", "unit": "rpm/V",
-                                               "sd": pytest.approx(0.15 * 920), "origin": None}
+                                               "sd": pytest.approx(0.15 * 920), "origin": None,
+                                               "used": True}
     assert params["motor"]["no_load_current_a"]["source"] == "request"
     assert params["motor"]["inductance_uh"]["source"] == "prior"
     frequency = params["esc"]["pwm_frequency_khz"]
@@ -210,6 +211,10 @@ def test_saved_parts_by_id_with_overrides_and_sources(client: TestClient, team: 
     k_pwm = params["esc"]["k_pwm"]  # no bench run, and the team has calibrated no ESC: the published prior
     assert k_pwm["source"] == "prior" and k_pwm["value"] == pytest.approx(0.4655) and "5-inch" in k_pwm["origin"]
     assert params["propeller"]["static_table"]["source"] == "part"
+    # The part has constants and a table; the model reads the table, and says the constants go unused.
+    ct = params["propeller"]["ct"]
+    assert (ct["value"], ct["source"], ct["unit"], ct["used"]) == (0.11, "part", "", False)
+    assert params["propeller"]["cp"]["used"] is False and params["propeller"]["static_table"]["used"] is True
     other = make_team(client.app, "Other")  # type: ignore[arg-type]
     response = client.post("/api/v1/predict", json=request(motor={"id": motor["id"]}), headers=other.headers())
     assert response.status_code == 422 and response.json()["errors"][0]["field"] == "motor.id"

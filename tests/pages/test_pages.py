@@ -88,7 +88,8 @@ def test_edit_page_detects_a_concurrent_change(app: FastAPI, client: TestClient)
     )
     response = client.post(f"/parts/escs/{part['id']}", data=form)
     assert response.status_code == 409
-    assert "changed by someone else" in soup(response.text).select_one("[role=alert]").text
+    alert = soup(response.text).select_one("[role=alert]").text
+    assert "Someone else saved this ESC while you were editing" in alert and "Theirs" in alert and "Mine" in alert
     assert client.get(f"/api/v1/parts/escs/{part['id']}").json()["name"] == "Theirs"
 
 

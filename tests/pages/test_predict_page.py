@@ -31,9 +31,13 @@ def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
     lo, hi = api["points"][1]["bands"]["electrical_power_w"]
     assert power_cell.select_one(".band").text.replace("\u2009", "") == f"{lo:.3g}–{hi:.3g}".replace(",", "")
     assert soup.select_one("#predict-chart-data") is not None and soup.select_one("#chart-curves") is not None
-    sources = {r.select("td")[1].text: r.select("td")[3].text.strip() for r in soup.select("#parameters tbody tr")}
-    assert sources["kv_rpm_per_v"] == "part" and sources["k_pwm"] == "assumed, not measured"
+    sources = {r["data-param"]: r.select("td")[3].text.strip() for r in soup.select("#parameters tbody tr")}
+    assert sources["motor.kv_rpm_per_v"] == "part" and sources["esc.k_pwm"] == "assumed, not measured"
     assert "Assumed, not measured: " in soup.text and "k_pwm" in soup.select_one("#predict-results").text
+    names = {r["data-param"]: r.select("td")[1].text for r in soup.select("#parameters tbody tr")}
+    assert names["motor.kv_rpm_per_v"] == "Kv" and names["propeller.static_table"] == "CT, CP vs rpm"
+    # The part's CT and CP constants stand beside its table, which the model reads: said, not hidden.
+    assert "not used" in sources["propeller.ct"] and "not used" not in sources["propeller.static_table"]
     fragment = client.get("/predict", params=params, headers={"HX-Request": "true"})
     assert "<html" not in fragment.text and 'id="predict-results"' in fragment.text
 
