@@ -76,18 +76,36 @@ def _names(session: Any, caller: Caller, plan: dict[str, Any]) -> dict[str, dict
     return parts_service.by_ids(session, team_id=caller.team_id, ids=ids)
 
 
+def _plan_context(session: Any, caller: Caller, plan_id: int) -> dict[str, Any]:
+    doc = fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))
+    return {"caller": caller, "nav": "fleet", "plan": doc, "kinds": KINDS, "announce": "",
+            "parts": _names(session, caller, doc) if doc["status"] == "done" else {},
+            "mission_names": {m["mission_id"]: m["name"] for m in doc["missions"]},
+            "kind_labels": KIND_LABELS,
+            "chart": {"axis": "fleet cruise energy [W × weight]" if doc["metric"] == "cruise_energy"
+                      else "worst endurance margin [min]",
+                      "points": [{"part_numbers": p["part_numbers"], "objective": p["objective"]}
+                                 for p in (doc["tradeoff"] or [])]}}
+
+
 @router.get("/{plan_id}", response_class=HTMLResponse)
 def plan_page(request: Request, caller: PageCaller, session: SessionDep, plan_id: IdPath) -> HTMLResponse:
-    doc = fleet_service.status(fleet_service.get(session, team_id=caller.team_id, plan_id=plan_id))
-    ctx = {"caller": caller, "nav": "fleet", "plan": doc, "kinds": KINDS,
-           "parts": _names(session, caller, doc) if doc["status"] == "done" else {},
-           "mission_names": {m["mission_id"]: m["name"] for m in doc["missions"]},
-           "kind_labels": KIND_LABELS,
-           "chart": {"axis": "fleet cruise energy [W × weight]" if doc["metric"] == "cruise_energy"
-                     else "worst endurance margin [min]",
-                     "points": [{"part_numbers": p["part_numbers"], "objective": p["objective"]}
-                                for p in (doc["tradeoff"] or [])]}}
-    return render(request, "pages/fleet_plan.html", ctx, block="job")
+    return render(request, "pages/fleet_plan.html", _plan_context(session, caller, plan_id), block="job")
+
+
+@router.get("/{plan_id}/progress", response_class=HTMLResponse)
+def plan_progress(request: Request, caller: PageCaller, session: SessionDep, plan_id: IdPath) -> HTMLResponse:
+    """The polled progress while the plan runs; once it ends, the whole job block (retargeted), announced."""
+    ctx = _plan_context(session, caller, plan_id)
+    plan = ctx["plan"]
+    if plan["status"] in ("queued", "running"):
+        return render(request, "pages/fleet_plan.html", ctx, block="progress")
+    result = plan["result"] or {}
+    ctx["announce"] = (f"Fleet plan finished: {result.get('part_numbers')} part numbers."
+                       if plan["status"] == "done" and result.get("status") != "infeasible"
+                       else f"Fleet plan {plan['status']}{': no shared plan exists' if result else ''}.")
+    return render(request, "pages/fleet_plan.html", ctx, block="job",
+                  headers={"HX-Retarget": "#fleet-job", "HX-Reswap": "outerHTML"})
 
 
 @router.post("/{plan_id}/shortlist", response_class=HTMLResponse)

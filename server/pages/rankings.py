@@ -49,6 +49,20 @@ def _filters(q: dict[str, str]) -> dict[str, Any]:
     return out
 
 
+def _pareto_point(p: dict[str, Any], names: dict[str, dict[int, dict[str, Any]]]) -> dict[str, Any]:
+    """One Pareto candidate as the plot and its table show it: the four objectives and the four parts."""
+    def part(kind: str, key: str) -> str:
+        found = names[kind].get(p[key], {})
+        return str(found.get("part_number") or found.get("name") or f"#{p[key]}")
+
+    return {"id": p["result_id"], "rank": p["rank"], "endurance_min": p["endurance_min"],
+            "thrust_to_weight": p["full_throttle"]["thrust_to_weight"], "all_up_mass_g": p["all_up_mass_g"],
+            "cost": p["cost"], "cells": p["cells_series"], "packs": p["packs_in_parallel"],
+            "power_w": p["cruise"]["electrical_power_w"],
+            "parts": {"battery": part("batteries", "battery_id"), "esc": part("escs", "esc_id"),
+                      "motor": part("motors", "motor_id"), "propeller": part("propellers", "propeller_id")}}
+
+
 def _currencies(session: Any, team_id: int, rows: list[dict[str, Any]]) -> dict[int, str]:
     """Currency of each row's cost, by battery id (a candidate's cost is in its parts' currency)."""
     packs = parts_service.by_ids(session, team_id=team_id, ids={"batteries": {r["battery_id"] for r in rows}})
@@ -85,11 +99,8 @@ def start(request: Request, caller: PageWriter, session: SessionDep, values: Pos
     return RedirectResponse(f"/rankings/{row.id}", status_code=303)
 
 
-@router.get("/{ranking_id}", response_class=HTMLResponse)
-def ranking_page(
-    request: Request, caller: PageCaller, session: SessionDep, ranking_id: IdPath,
-    sort: Annotated[str, Query(max_length=40)] = "rank", page: Annotated[int, Query(ge=1, le=10_000)] = 1,
-) -> HTMLResponse:
+def _ranking_context(request: Request, session: Any, caller: Caller, ranking_id: int, sort: str,
+                     page: int) -> dict[str, Any]:
     ranking = rankings_service.get(session, team_id=caller.team_id, ranking_id=ranking_id)
     status = rankings_service.status(ranking)
     q = dict(request.query_params)
@@ -104,7 +115,8 @@ def ranking_page(
                                "cruise duty", f"{point} duty") for k, v in REASON_LABELS.items()},
                            "rows": [], "total": 0, "pareto": [], "shortlists": [],
                            "page": page, "page_size": 50, "cautions": [], "currencies": [],
-                           "point_label": point.capitalize(), "grouping": {"count": 0}, "assumptions": {"rows": 0}}
+                           "point_label": point.capitalize(), "grouping": {"count": 0}, "assumptions": {"rows": 0},
+                           "announce": ""}
     if status["status"] == "done":
         rows, total = rankings_service.results(session, team_id=caller.team_id, ranking_id=ranking_id, sort=sort,
                                                page=page, page_size=50, filters=filters)
@@ -118,12 +130,7 @@ def ranking_page(
             row["currency"] = currency.get(row["battery_id"], "")
         names = _names(ranking)
         ctx.update(rows=rows, total=total, names=names, mission=ranking.inputs["mission"],
-                   pareto=[{"endurance_min": p["endurance_min"],
-                            "thrust_to_weight": p["full_throttle"]["thrust_to_weight"],
-                            "cells": p["cells_series"], "mass_g": p["all_up_mass_g"], "cost": p["cost"],
-                            "label": f"{names['motors'][p['motor_id']]['name']} / "
-                                     f"{names['propellers'][p['propeller_id']]['name']} / "
-                                     f"{names['batteries'][p['battery_id']]['name']}"} for p in pareto],
+                   pareto=[_pareto_point(p, names) for p in pareto],
                    shortlists=_mission_shortlists(session, caller.team_id, ranking.mission_id),
                    cautions=cautions_summary(per_row),
                    currencies=sorted({r["currency"] for r in rows if r["cost"] is not None}),
@@ -132,8 +139,30 @@ def ranking_page(
                    assumptions={"rows": sum(1 for r in rows if any((r.get("assumed") or {}).values())),
                                 "best_share": next((r.get("assumed_share") for r in rows if r.get("rank") == 1),
                                                    None)})
+    return ctx
+
+
+@router.get("/{ranking_id}", response_class=HTMLResponse)
+def ranking_page(
+    request: Request, caller: PageCaller, session: SessionDep, ranking_id: IdPath,
+    sort: Annotated[str, Query(max_length=40)] = "rank", page: Annotated[int, Query(ge=1, le=10_000)] = 1,
+) -> HTMLResponse:
+    ctx = _ranking_context(request, session, caller, ranking_id, sort, page)
     block = "results" if request.headers.get("hx-target") == "ranking-results" else "job"
     return render(request, "pages/ranking.html", ctx, block=block)
+
+
+@router.get("/{ranking_id}/progress", response_class=HTMLResponse)
+def ranking_progress(request: Request, caller: PageCaller, session: SessionDep, ranking_id: IdPath) -> HTMLResponse:
+    """The polled progress while the job runs; once it ends, the whole job block (retargeted) and an announcement."""
+    ctx = _ranking_context(request, session, caller, ranking_id, "rank", 1)
+    status = ctx["ranking"]
+    if status["status"] in ("queued", "running"):
+        return render(request, "pages/ranking.html", ctx, block="progress")
+    ctx["announce"] = (f"Ranking finished: {status['feasible']} feasible of {status['combinations']} combinations."
+                       if status["status"] == "done" else f"Ranking {status['status']}.")
+    return render(request, "pages/ranking.html", ctx, block="job",
+                  headers={"HX-Retarget": "#ranking-job", "HX-Reswap": "outerHTML"})
 
 
 @router.post("/{ranking_id}/cancel", response_class=HTMLResponse)

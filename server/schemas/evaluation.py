@@ -64,6 +64,11 @@ class RankedCruise(Result):
     electrical_power_w_band: list[float] | None = Field(
         default=None, description="80 % band [10th, 90th percentile] of the craft's electrical power [W]")
     specific_thrust_g_per_w_band: list[float] | None = Field(default=None, description="80 % band of g/W")
+    thrust_per_rotor_n: float | None = Field(default=None, description="= thrust_n, named: per rotor [N]")
+    motor_current_per_rotor_a: float | None = Field(default=None, description="= motor_current_a, named: per rotor [A]")
+    shaft_power_per_rotor_w: float | None = Field(default=None, description="= shaft_power_w, named: per rotor [W]")
+    electrical_power_craft_w: float | None = Field(default=None, description="= electrical_power_w, named: craft [W]")
+    bus_current_craft_a: float | None = Field(default=None, description="= bus_current_a, named: craft [A]")
 
 
 class RankedFullThrottle(Result):
@@ -76,6 +81,10 @@ class RankedFullThrottle(Result):
     bus_voltage_v: float | None = Field(default=None, description="Bus voltage, full pack [V]")
     rpm: float | None = Field(default=None, description="Shaft speed, full pack [rpm]")
     thrust_to_weight_band: list[float] | None = Field(default=None, description="80 % band of thrust ÷ weight")
+    thrust_per_rotor_n: float | None = Field(default=None, description="= thrust_n, named: per rotor [N]")
+    motor_current_per_rotor_a: float | None = Field(default=None, description="= motor_current_a, named: per rotor [A]")
+    electrical_power_craft_w: float | None = Field(default=None, description="= electrical_power_w, named: craft [W]")
+    bus_current_craft_a: float | None = Field(default=None, description="= bus_current_a, named: craft [A]")
 
 
 class RowAssumptions(Result):
@@ -139,6 +148,11 @@ class EvaluatedCruise(Result):
     losses_w: dict[str, float | None] = Field(default_factory=dict,
                                               description="The same per-rotor losses under the first names")
     pack_loss_w: float | None = Field(default=None, description="Pack internal loss, whole craft [W]")
+    thrust_per_rotor_n: float | None = Field(default=None, description="= thrust_n, named: per rotor [N]")
+    motor_current_per_rotor_a: float | None = Field(default=None, description="= motor_current_a, named: per rotor [A]")
+    shaft_power_per_rotor_w: float | None = Field(default=None, description="= shaft_power_w, named: per rotor [W]")
+    electrical_power_craft_w: float | None = Field(default=None, description="= electrical_power_w, named: craft [W]")
+    bus_current_craft_a: float | None = Field(default=None, description="= bus_current_a, named: craft [A]")
 
 
 class EvaluatedFullThrottle(Result):
@@ -148,6 +162,10 @@ class EvaluatedFullThrottle(Result):
     bus_current_a: float | None = Field(default=None, description="Pack current, whole craft, full pack [A]")
     bus_voltage_v: float | None = None
     electrical_power_w: float | None = Field(default=None, description="Whole craft, full pack [W]")
+    thrust_per_rotor_n: float | None = Field(default=None, description="= thrust_n, named: per rotor [N]")
+    motor_current_per_rotor_a: float | None = Field(default=None, description="= motor_current_a, named: per rotor [A]")
+    electrical_power_craft_w: float | None = Field(default=None, description="= electrical_power_w, named: craft [W]")
+    bus_current_craft_a: float | None = Field(default=None, description="= bus_current_a, named: craft [A]")
 
 
 class Ratings(Result):
@@ -178,6 +196,7 @@ class CandidateEvaluation(Result):
     pack_nominal_voltage_v: float | None = None
     all_up_mass_g: float | None = None
     thrust_required_n: float | None = Field(default=None, description="Per rotor at the cruise point [N]")
+    thrust_required_per_rotor_n: float | None = Field(default=None, description="= thrust_required_n, named [N]")
     cruise: EvaluatedCruise
     full_throttle: EvaluatedFullThrottle
     endurance_min: float | None = None

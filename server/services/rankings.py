@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import copy
 import logging
 import time
 from datetime import UTC, datetime
@@ -18,6 +19,7 @@ from server.selection import ENGINE_VERSION, OBJECTIVES, CandidateRow, constrain
 from server.services import missions as missions_service
 from server.services import ranking_bands, ranking_shards
 from server.services.ranking_inputs import snapshot
+from server.services.scopes import with_scopes
 
 log = logging.getLogger("liftmatch.rankings")
 REASON_TEXT = constraints.REASON_TEXT
@@ -245,4 +247,5 @@ def results(
     rows = session.scalars(
         stmt.order_by(order.nulls_last(), RankingResult.id).offset((page - 1) * page_size).limit(page_size)
     )
-    return [r.metrics | {"rank": r.rank, "pareto": r.pareto, "result_id": r.id} for r in rows], int(total)
+    return [with_scopes(copy.deepcopy(r.metrics) | {"rank": r.rank, "pareto": r.pareto, "result_id": r.id})
+            for r in rows], int(total)

@@ -14,6 +14,7 @@ from server.physics import ENGINE_VERSION
 from server.services import candidate
 from server.services import parts as parts_service
 from server.services.cautions import near_limit
+from server.services.scopes import with_scopes
 from server.services.shortlists import CHANGE_KEYS, candidate_ids, get, lookup
 
 # Rows of the compare table: (group, key path in the metrics, label, unit, better: "low" | "high" | None).
@@ -83,9 +84,9 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
     assert mission is not None
     entries: list[dict[str, Any]] = []
     for entry in shortlist.entries:
-        metrics = candidate.evaluate(
+        metrics = with_scopes(candidate.evaluate(
             session, team_id=team_id, mission=mission, ids=candidate_ids(entry), with_curves=True
-        )
+        ))
         added_by = session.get(User, entry.added_by_id) if entry.added_by_id else None
         entries.append(
             {

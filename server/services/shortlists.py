@@ -3,6 +3,7 @@ notes, order, re-evaluation. The compare view is ``shortlist_compare``; the bill
 
 from __future__ import annotations
 
+import copy
 from typing import Any
 
 from sqlalchemy import func, select
@@ -16,6 +17,7 @@ from server.schemas.shortlists import MAX_ENTRIES, EntryCreate
 from server.services import candidate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
+from server.services.scopes import with_scopes
 
 CHANGE_KEYS = ["cruise.electrical_power_w", "full_throttle.thrust_to_weight", "endurance_min", "all_up_mass_g"]
 
@@ -295,11 +297,11 @@ def read(session: Session, shortlist: Shortlist) -> dict[str, Any]:
                         "packs_in_parallel",
                         "ranking_id",
                         "note",
-                        "metrics",
                         "engine_version",
                         "added_at",
                     )
                 },
+                "metrics": with_scopes(copy.deepcopy(e.metrics)),
                 "added_by": who(e.added_by_id),
             }
             for e in shortlist.entries

@@ -55,6 +55,9 @@ def test_ranking_job_runs_and_counts_add_up(client: TestClient, demo: Any) -> No
     assert set(first["full_throttle"]) >= {"thrust_to_weight", "motor_current_a", "bus_current_a"}
     powers = [r["cruise"]["electrical_power_w"] for r in results["items"]]
     assert powers == sorted(powers)  # objective: lowest cruise power first
+    assert first["cruise"]["electrical_power_craft_w"] == first["cruise"]["electrical_power_w"]
+    assert first["cruise"]["thrust_per_rotor_n"] == first["cruise"]["thrust_n"]
+    assert first["full_throttle"]["motor_current_per_rotor_a"] == first["full_throttle"]["motor_current_a"]
 
 
 def test_results_sort_filter_page_and_pareto(client: TestClient, demo: Any) -> None:

@@ -72,6 +72,14 @@ def test_compare_json_equals_a_fresh_predict_call(client: TestClient, team: Team
         assert metrics["cruise"]["electrical_power_w"] == pytest.approx(predicted["craft"]["electrical_power_w"],
                                                                          rel=1e-9)
         assert metrics["cruise"]["duty"] == pytest.approx(predicted["duty"], rel=1e-9)
+    for entry in compare["entries"]:  # every ambiguous value also under a name that says per rotor or craft
+        cruise, full = entry["metrics"]["cruise"], entry["metrics"]["full_throttle"]
+        assert cruise["thrust_per_rotor_n"] == cruise["thrust_n"]
+        assert cruise["electrical_power_craft_w"] == cruise["electrical_power_w"]
+        assert cruise["electrical_power_craft_w"] == pytest.approx(4 * cruise["electrical_power_per_rotor_w"])
+        assert full["motor_current_per_rotor_a"] == full["motor_current_a"]
+        assert full["bus_current_craft_a"] == full["bus_current_a"]
+        assert entry["metrics"]["thrust_required_per_rotor_n"] == entry["metrics"]["thrust_required_n"]
     mass_row = next(r for r in compare["rows"] if r["key"] == "all_up_mass_g")
     assert mass_row["best"] == [0]  # one pack is lighter than two
     assert compare["entries"][0]["metrics"]["curves"]["thrust_n"]

@@ -109,3 +109,35 @@ def test_why_this_verdict_from_a_row_a_rejection_count_and_the_why_not_form(app:
     assert blank.status_code == 422 and "Choose a pack, an ESC, a motor and a propeller" in blank.text
     alone = client.get("/explain")
     assert alone.status_code == 200 and BeautifulSoup(alone.text, "html.parser").select_one("#mission_id")
+
+
+@pytest.mark.demo_data
+def test_progress_polls_without_the_cancel_button_and_announces_the_end(app: FastAPI, client: TestClient) -> None:
+    from server.db import transaction
+    from server.services import missions as missions_service
+    from server.services import rankings as rankings_service
+    from server.services import teams
+
+    with transaction(app.state.sessionmaker) as session:  # queued, never submitted: it stays queued
+        team = teams.get_team_by_name(session, name="Northfold Survey")
+        mission = next(m for m in missions_service.list_missions(session, team_id=team.id))
+        ranking_id = rankings_service.start(session, team_id=team.id, user_id=None, mission_id=mission.id,
+                                            objective="cruise_power", top_n=5).id
+    token = login(client, seed.DEMO_LOGIN[0], seed.DEMO_LOGIN[1])
+    page = BeautifulSoup(client.get(f"/rankings/{ranking_id}").text, "html.parser")
+    live = page.select_one("#ranking-live")
+    assert live["hx-get"] == f"/rankings/{ranking_id}/progress" and live.select_one("button") is None
+    assert page.select_one("form[action$='/cancel'] button") is not None  # outside the polled element
+    bar = page.select_one("[role=progressbar]")
+    assert bar["aria-label"] == "Ranking progress" and bar["aria-valuetext"] == "0 %"
+    assert page.select_one("#job-announce[aria-live=polite]") is not None
+    polled = client.get(f"/rankings/{ranking_id}/progress", headers={"HX-Request": "true"})
+    fragment = BeautifulSoup(polled.text, "html.parser")
+    assert fragment.select_one("#ranking-live") is not None and fragment.select_one("button, form") is None
+    assert "hx-retarget" not in polled.headers
+    client.post(f"/rankings/{ranking_id}/cancel", data={"csrf_token": token})
+    ended = client.get(f"/rankings/{ranking_id}/progress", headers={"HX-Request": "true"})
+    assert ended.headers["hx-retarget"] == "#ranking-job" and ended.headers["hx-reswap"] == "outerHTML"
+    done = BeautifulSoup(ended.text, "html.parser")
+    assert done.select_one("#job-announce[hx-swap-oob]").text == "Ranking cancelled."
+    assert done.select_one("#ranking-live") is None

@@ -41,6 +41,8 @@ def test_create_shortlist_and_add_entries_in_the_browser(app: FastAPI, client: T
                 assert text.startswith(fmt_number(value)), (row["key"], text, value)
             assert ("best" in cell.get("class", [])) == (index in row["best"])
     assert page.select_one('tr[data-key="all_up_mass_g"] td.best .best-mark') is not None
+    assert page.select_one('button[aria-label="Move candidate 2 left"]').text == "◂"  # named, not only titled
+    assert page.select_one('button[aria-label="Move candidate 1 right"]').text == "▸"
     assert page.select_one("#compare-chart-data") is not None and page.select_one("#chart-discharge") is not None
     entry_ids = [e["entry_id"] for e in compare["entries"]]
     client.post(f"{url}/entries/{entry_ids[1]}/move", data={"csrf_token": token, "direction": "left"})

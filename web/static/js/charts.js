@@ -87,16 +87,62 @@
       options: { scales: { x: { title: { display: true, text: "time [min]" } }, y: { title: { display: true, text: "bus voltage [V]" } } } } });
   }
 
+  const PARETO_AXES = {
+    endurance_min: { label: "endurance [min]", better: 1 },
+    thrust_to_weight: { label: "thrust-to-weight at full throttle", better: 1 },
+    all_up_mass_g: { label: "all-up mass [g]", better: -1 },
+    cost: { label: "cost", better: -1 },
+  };
+
+  function dominatedOnTwo(points, x, y) {
+    // Is another point at least as good on both shown axes and better on one (better = larger × direction)?
+    const bx = PARETO_AXES[x].better, by = PARETO_AXES[y].better;
+    return points.map((p) => points.some((q) => q !== p && q[x] !== null && q[y] !== null && p[x] !== null && p[y] !== null &&
+      bx * q[x] >= bx * p[x] && by * q[y] >= by * p[y] && (bx * q[x] > bx * p[x] || by * q[y] > by * p[y])));
+  }
+
   function paretoChart() {
     const node = document.getElementById("pareto-chart-data");
     if (!node) return;
-    const points = JSON.parse(node.textContent || "[]");
+    const data = JSON.parse(node.textContent || "{}");
+    const points = data.points || [];
+    const xSel = document.getElementById("pareto-x"), ySel = document.getElementById("pareto-y");
+    const x = xSel ? xSel.value : "thrust_to_weight", y = ySel ? ySel.value : "endurance_min";
+    const hollow = dominatedOnTwo(points, x, y);
     const cells = [...new Set(points.map((p) => p.cells))].sort((a, b) => a - b);
-    draw("chart-pareto", { type: "scatter", data: { datasets: cells.map((c, i) => ({
-      label: c + "S packs", backgroundColor: PALETTE[i % PALETTE.length], pointRadius: 5,
-      data: points.filter((p) => p.cells === c).map((p) => ({ x: p.thrust_to_weight, y: p.endurance_min, label: p.label })) })) },
-      options: { plugins: { tooltip: { callbacks: { label: (ctx) => ctx.raw.label + ": T/W " + ctx.raw.x.toFixed(2) + ", " + ctx.raw.y.toFixed(1) + " min" } } },
-        scales: { x: { title: { display: true, text: "thrust-to-weight at full throttle" } }, y: { title: { display: true, text: "endurance [min]" } } } } });
+    const sets = [];
+    cells.forEach((c, i) => {
+      const colour = PALETTE[i % PALETTE.length];
+      [false, true].forEach((kept) => {
+        const pts = points.map((p, j) => ({ p: p, j: j })).filter((o) => o.p.cells === c && hollow[o.j] === kept)
+          .map((o) => ({ x: o.p[x], y: o.p[y], point: o.p }));
+        if (pts.length) sets.push({ label: c + "S packs" + (kept ? " (kept by the other two)" : ""), data: pts, pointRadius: 6,
+          pointHoverRadius: 8, borderColor: colour, borderWidth: 2, backgroundColor: kept ? "transparent" : colour });
+      });
+    });
+    const money = (v) => (v === null ? "—" : v.toFixed(2) + (data.currency ? " " + data.currency : ""));
+    draw("chart-pareto", { type: "scatter", data: { datasets: sets }, options: {
+      onClick: (event, elements) => {
+        if (!elements.length) return;
+        const p = elements[0].element.$context.raw.point;
+        const row = document.getElementById("pareto-row-" + p.id);
+        const list = document.getElementById("pareto-list");
+        if (list) list.open = true;
+        if (row) {
+          document.querySelectorAll("#pareto-table tr.picked").forEach((r) => r.classList.remove("picked"));
+          row.classList.add("picked");
+          row.scrollIntoView({ behavior: "smooth", block: "center" });
+        }
+      },
+      plugins: { tooltip: { callbacks: { label: (ctx) => {
+        const p = ctx.raw.point;
+        return [(p.rank ? "rank " + p.rank : "not in the top list") + ": " + p.parts.battery + (p.packs > 1 ? " ×" + p.packs : ""),
+          "ESC " + p.parts.esc + " · motor " + p.parts.motor + " · prop " + p.parts.propeller,
+          "endurance " + p.endurance_min.toFixed(1) + " min · T/W " + p.thrust_to_weight.toFixed(2),
+          "mass " + Math.round(p.all_up_mass_g) + " g · cost " + money(p.cost)];
+      } } } },
+      scales: { x: { title: { display: true, text: PARETO_AXES[x].label } }, y: { title: { display: true, text: PARETO_AXES[y].label } } } } });
+    [xSel, ySel].forEach((el) => { if (el && !el.dataset.bound) { el.dataset.bound = "1"; el.addEventListener("change", paretoChart); } });
   }
 
   function benchCharts() {
