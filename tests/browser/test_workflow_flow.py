@@ -54,7 +54,8 @@ def test_airframe_and_mission_with_optional_fields_blank(live_server: str, wide:
     page.fill("#m-name", "Blank-field survey")
     page.click("button:has-text('Save mission')")
     page.wait_for_url(f"{live_server}/missions")
-    row = page.locator("article.airframe", has_text="Blank-field quad").locator("tbody tr", has_text="Blank-field survey")
+    airframe = page.locator("article.airframe", has_text="Blank-field quad")
+    row = airframe.locator("tbody tr", has_text="Blank-field survey")
     cells = row.locator("td").all_inner_texts()
     assert cells[1] == "hover" and cells[5] == "2.00" and cells[6] == "0.400–0.750"  # the documented defaults
     assert page.locator(".error").count() == 0
