@@ -86,6 +86,7 @@ class Propeller(PartColumns, Base):
     static_table: Mapped[list[dict[str, Any]] | None] = mapped_column(JSON, nullable=True)
     forward_table: Mapped[list[dict[str, Any]] | None] = mapped_column(JSON, nullable=True)
     forward_table_rpm: Mapped[float | None] = mapped_column(Float, nullable=True)
+    application: Mapped[str] = mapped_column(String(16), default="any", server_default="any")
 
 
 PART_MODELS: dict[str, type[PartColumns]] = {

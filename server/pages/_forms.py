@@ -55,10 +55,11 @@ LABELS = {
     "cutoff_v_per_cell": "Cut-off voltage per cell", "esc_current_margin": "ESC current margin",
     "pack_current_fraction": "Allowed share of the pack's C rating",
     "cruise_state_of_charge": "State of charge at the hover/cruise point", "max_all_up_mass_g": "Largest all-up mass",
-    "payload_mass_g": "Payload", "frame_mass_g": "Frame mass", "mass_g": "Mass",
+    "payload_mass_g": "Payload", "application": "Made for", "frame_mass_g": "Frame mass", "mass_g": "Mass",
 }
 CHOICE_LABELS = {"hover": "hover", "cruise": "cruise (wing-borne)",
-                 "lipo": "LiPo", "lihv": "LiHV", "liion": "Li-ion"}
+                 "lipo": "LiPo", "lihv": "LiHV", "liion": "Li-ion", "multirotor": "multirotor (hover)",
+                 "fixed_wing": "fixed-wing (cruise)", "any": "any (hover and cruise)"}
 
 
 PARAMETER_LABELS = {"static_table": "CT, CP vs rpm", "forward_table": "CT, CP vs J"}

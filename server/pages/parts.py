@@ -35,7 +35,7 @@ SPEC_COLUMNS: dict[str, list[str]] = {
     ],
     "escs": ["continuous_current_a", "burst_current_a", "min_cells", "max_cells", "pwm_frequency_khz"],
     "motors": ["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "max_current_a", "max_cells"],
-    "propellers": ["diameter_in", "pitch_in", "blades", "ct", "cp"],
+    "propellers": ["diameter_in", "pitch_in", "blades", "application", "ct", "cp"],
 }
 SHORT_HEADINGS = {
     "cells_series": "S",
@@ -58,6 +58,7 @@ SHORT_HEADINGS = {
     "ct": "CT",
     "cp": "CP",
     "chemistry": "Chemistry",
+    "application": "For",
 }
 
 

@@ -10,6 +10,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from server.schemas._fields import partial_model, ranged, text
 
 Chemistry = Literal["lipo", "lihv", "liion"]
+PropApplication = Literal["multirotor", "fixed_wing", "any"]
 PartKind = Literal["batteries", "escs", "motors", "propellers"]
 
 
@@ -101,6 +102,8 @@ class PropellerCreate(PartBase):
     static_table: list[StaticRow] | None = Field(None, max_length=500, description="Static CT, CP vs rpm")
     forward_table: list[ForwardRow] | None = Field(None, max_length=500, description="CT, CP vs advance ratio J")
     forward_table_rpm: ranged(float, 1, 200_000, "rpm", description="Rpm of the forward table") | None = None  # type: ignore[valid-type]
+    application: PropApplication = Field(
+        "any", description="What it is made for: multirotor (hover missions), fixed_wing (cruise) or any (both)")
 
     @model_validator(mode="after")
     def _tables_increasing(self) -> PropellerCreate:

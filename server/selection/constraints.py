@@ -9,6 +9,8 @@ missing_data                a part lacks a value the model needs (NaN), or the p
 prop_data_invalid           the propeller's table is impossible (beats momentum theory at a measured point) or
                             not usable (thrust or torque not rising with speed, non-finite values)
 prop_too_large              propeller diameter above the airframe's limit
+prop_application            propeller made for the other kind of flight (a fixed-wing propeller on a hover mission,
+                            a multirotor one on a cruise mission)
 no_forward_table            cruise mission and the propeller has no CT/CP versus advance ratio
 esc_cell_range              pack cell count outside the ESC's min..max cells
 motor_cell_limit            pack cell count above the motor's max cells
@@ -50,6 +52,7 @@ REASON_TEXT: dict[str, str] = {
     "missing_data": "missing part data (unknown resistance, coefficients…)",
     "prop_data_invalid": "propeller data impossible or unusable (beats momentum theory, not rising with speed)",
     "prop_too_large": "propeller larger than the airframe allows",
+    "prop_application": "propeller made for the other kind of flight (multirotor or fixed-wing)",
     "no_forward_table": "propeller has no forward-flight data (cruise)",
     "esc_cell_range": "pack cell count outside the ESC's range",
     "motor_cell_limit": "pack cell count above the motor's limit",
@@ -68,7 +71,7 @@ REASON_TEXT: dict[str, str] = {
 """A plain-language line per rejection reason (pages, explain)."""
 REASONS: tuple[str, ...] = tuple(REASON_TEXT)
 """Rejection reasons in the order they are checked; code ``i + 1`` is ``REASONS[i]``, code 0 is feasible."""
-PRUNE_REASONS = REASONS[:6]
+PRUNE_REASONS = REASONS[:7]
 CODE = {name: i + 1 for i, name in enumerate(REASONS)}
 BUS_COLLAPSE_FRACTION = 0.5
 """Full-throttle bus below this fraction of V_oc is past the pack's maximum-power point (the healthy-side

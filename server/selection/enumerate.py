@@ -3,9 +3,9 @@
 Incompatible combinations are counted, never materialised. Packs are grouped by cell count S; for each group
 the compatible ESCs (``min_cells <= S <= max_cells``) and motors (``S <= max_cells``) are fixed, so a block is
 a dense cube with axes (pack configuration, ESC, motor, propeller) that holds only compatible candidates.
-Propellers over the airframe's diameter limit (and, for cruise, those without forward data) are dropped from
-every block. A chunk is a slab of a block: a range of pack configurations and of ESCs with all motors and
-propellers, about ``chunk_size`` candidates (at least one motor x propeller plane).
+Propellers over the airframe's diameter limit, those made for the other kind of flight (and, for cruise, those
+without forward data) are dropped from every block. A chunk is a slab of a block: a range of pack configurations
+and of ESCs with all motors and propellers, about ``chunk_size`` candidates (at least one motor x propeller plane).
 """
 
 from __future__ import annotations
@@ -83,6 +83,7 @@ class PartVerdicts:
     prop_missing: np.ndarray
     prop_invalid: np.ndarray
     prop_large: np.ndarray
+    prop_misapplied: np.ndarray
     prop_no_forward: np.ndarray
 
     @classmethod
@@ -91,13 +92,15 @@ class PartVerdicts:
         missing = ~props.valid() | ((mission.kind == "hover") & ~model.has_table)
         invalid = ~missing & model.has_table & ~model.valid
         large = ~missing & ~invalid & ~(props.diameter_in <= mission.max_prop_diameter_in)
+        misapplied = ~missing & ~invalid & ~large & ~props.suits(mission.kind)
         return cls(pack_ok=library.packs.valid(), esc_ok=library.escs.valid(), motor_ok=library.motors.valid(),
-                   prop_missing=missing, prop_invalid=invalid, prop_large=large,
-                   prop_no_forward=~missing & ~invalid & ~large & ~model.has_table)
+                   prop_missing=missing, prop_invalid=invalid, prop_large=large, prop_misapplied=misapplied,
+                   prop_no_forward=~missing & ~invalid & ~large & ~misapplied & ~model.has_table)
 
     @property
     def prop_use(self) -> np.ndarray:
-        use: np.ndarray = ~self.prop_missing & ~self.prop_invalid & ~self.prop_large & ~self.prop_no_forward
+        use: np.ndarray = (~self.prop_missing & ~self.prop_invalid & ~self.prop_large & ~self.prop_misapplied
+                           & ~self.prop_no_forward)
         return use
 
     @staticmethod
@@ -121,6 +124,7 @@ class PartVerdicts:
              | self.prop_missing[prop]),
             ("prop_data_invalid", self.prop_invalid[prop]),
             ("prop_too_large", self.prop_large[prop]),
+            ("prop_application", self.prop_misapplied[prop]),
             ("no_forward_table", self.prop_no_forward[prop]),
             ("esc_cell_range", ~self.esc_fits(library.escs, esc, cells)),
             ("motor_cell_limit", ~self.motor_fits(library.motors, motor, cells)),
@@ -146,6 +150,7 @@ def plan(library: PartsLibrary, mission: MissionSpec, model: PropModel) -> Plan:
     pruned["missing_data"] = combinations - complete * int((~v.prop_missing).sum())
     pruned["prop_data_invalid"] = complete * int(v.prop_invalid.sum())
     pruned["prop_too_large"] = complete * int(v.prop_large.sum())
+    pruned["prop_application"] = complete * int(v.prop_misapplied.sum())
     pruned["no_forward_table"] = complete * int(v.prop_no_forward.sum())
     blocks = []
     valid_packs = np.flatnonzero(v.pack_ok)

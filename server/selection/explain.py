@@ -90,6 +90,9 @@ def _part_verdicts(library: PartsLibrary, mission: MissionSpec, v: PartVerdicts,
         Verdict("prop_too_large", bool(props.diameter_in[q] <= mission.max_prop_diameter_in),
                 _num(props.diameter_in[q]), _num(mission.max_prop_diameter_in), "in",
                 _num(mission.max_prop_diameter_in - props.diameter_in[q]), REASON_TEXT["prop_too_large"]),
+        Verdict("prop_application", bool(props.suits(mission.kind)[q]), text=REASON_TEXT["prop_application"],
+                detail="" if props.suits(mission.kind)[q] else
+                f"made for {props.made_for(q)}; the mission {'cruises' if mission.kind == 'cruise' else 'hovers'}"),
         Verdict("no_forward_table", not v.prop_no_forward[q] if have_prop else None,
                 text=REASON_TEXT["no_forward_table"]),
         Verdict("esc_cell_range", bool(PartVerdicts.esc_fits(escs, np.array(e), np.array(cells))), cells,
@@ -110,7 +113,9 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
     model = mission.propeller_model(library.propellers)
     verdicts = PartVerdicts.of(library, mission, model)
     checks = _part_verdicts(library, mission, verdicts, pack, esc, motor, prop)
-    evaluable = checks[0].passed and checks[1].passed and checks[3].passed is not False
+    by_reason_part = {c.reason: c for c in checks}
+    evaluable = (by_reason_part["missing_data"].passed and by_reason_part["prop_data_invalid"].passed
+                 and by_reason_part["no_forward_table"].passed is not False)
     index = (np.array([pack]), np.array([packs_in_parallel]), np.array([esc]), np.array([motor]), np.array([prop]))
     row: CandidateRow | None = None
     notes: list[str] = []

@@ -30,6 +30,8 @@ if TYPE_CHECKING:
     from _typeshed import DataclassInstance
 
 MissionKind = Literal["hover", "cruise"]
+PROP_APPLICATIONS = ("multirotor", "fixed_wing", "any")
+"""What a propeller is made for; a multirotor propeller hovers, a fixed-wing one cruises, ``any`` does both."""
 INCH_M = 0.0254
 
 
@@ -268,6 +270,9 @@ class PropellerLibrary:
         Coefficients versus advance ratio J, batch ``(n,)``; all-NaN rows for propellers without data.
     mass_kg, cost : array_like
         Mass [kg]; unit cost [currency].
+    application : array_like of str, optional
+        What each propeller is made for: ``multirotor`` (hover missions), ``fixed_wing`` (cruise missions) or
+        ``any`` (both; the default for every propeller when omitted).
     """
 
     ids: np.ndarray
@@ -278,9 +283,14 @@ class PropellerLibrary:
     mass_kg: np.ndarray
     cost: np.ndarray
     assumed: np.ndarray | None = None  # as PackLibrary.assumed
+    application: np.ndarray | None = None
 
     def __post_init__(self) -> None:
-        n = _rows(self, "diameter_m", skip=("ids", "static", "forward"))
+        n = _rows(self, "diameter_m", skip=("ids", "static", "forward", "application"))
+        application = np.full(n, "any") if self.application is None else np.asarray(self.application, dtype=str)
+        if application.shape != (n,) or not np.isin(application, PROP_APPLICATIONS).all():
+            raise ValueError(f"application must be one of {', '.join(PROP_APPLICATIONS)} per propeller ({n})")
+        object.__setattr__(self, "application", application)
         for name, table, axis in (("static", self.static, "rpm"), ("forward", self.forward, "advance_ratio")):
             if table is None:
                 continue
@@ -289,6 +299,17 @@ class PropellerLibrary:
 
     def __len__(self) -> int:
         return int(self.diameter_m.shape[0])
+
+    def suits(self, kind: MissionKind) -> np.ndarray:
+        """Propellers made for this kind of flight: multirotor ones hover, fixed-wing ones cruise, ``any`` both."""
+        made_for = "multirotor" if kind == "hover" else "fixed_wing"
+        application = np.full(len(self), "any") if self.application is None else self.application  # set in init
+        suits: np.ndarray = np.isin(application, ("any", made_for))
+        return suits
+
+    def made_for(self, index: int) -> str:
+        """What one propeller is made for, in words ("fixed-wing", "multirotor", "any")."""
+        return "any" if self.application is None else str(self.application[index]).replace("_", "-")
 
     def valid(self) -> np.ndarray:
         """Propellers whose diameter and mass are known (the tables are checked per mission)."""

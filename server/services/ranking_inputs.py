@@ -63,6 +63,7 @@ PART_FIELDS = {
         "cp",
         "static_table",
         "forward_table",
+        "application",
     ],
 }
 MISSION_FIELDS = [
@@ -223,6 +224,7 @@ def engine_inputs(snap: dict[str, Any]) -> tuple[PartsLibrary, MissionSpec]:
         mass_kg=_column(pr, "mass_g", 1e-3),
         cost=_column(pr, "unit_cost"),
         assumed=_assumed(pr),
+        application=np.array([r.get("application") or "any" for r in pr], dtype=str),  # older snapshots: any
     )
     mission = mission_spec(snap["mission"], snap["airframe"])
     return PartsLibrary(packs, escs, motors, propellers), mission

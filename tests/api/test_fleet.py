@@ -119,3 +119,25 @@ def test_bad_input(client: TestClient, demo: Any, app: FastAPI) -> None:
     assert foreign.status_code == 422 and foreign.json()["errors"][0]["field"] == "missions.0.mission_id"
     twice = {"missions": [{"mission_id": missions["Q4 mapping survey"]}] * 2}
     assert client.post("/api/v1/fleet-plans", json=twice, headers=headers).status_code == 422
+
+
+def test_propellers_go_only_where_they_are_made_for(client: TestClient, demo: Any) -> None:
+    """The demo stocks multirotor and fixed-wing propellers: a plan never puts a fixed-wing one on the quad or the
+    hexa, nor a multirotor one on the cruiser (the engine refuses them under prop_application)."""
+    headers, missions = demo
+    props = {p["id"]: p["application"] for p in client.get("/api/v1/parts/propellers?page_size=500",
+                                                           headers=headers).json()["items"]}
+    assert set(props.values()) == {"multirotor", "fixed_wing"}
+    doc = wait(client, headers, client.post("/api/v1/fleet-plans", json=body(missions), headers=headers).json()["id"])
+    kinds = {m["mission_id"]: ("cruise" if m["name"] == "V1 corridor cruise" else "hover") for m in doc["missions"]}
+    points = [doc["result"]["assignments"], *(p["assignments"] for p in doc["tradeoff"])]
+    for assignment in (a for point in points for a in point):
+        made_for = props[assignment["propeller_id"]]
+        assert made_for == ("fixed_wing" if kinds[assignment["mission_id"]] == "cruise" else "multirotor")
+    ranking = client.post("/api/v1/rankings", json={"mission_id": missions["Q4 mapping survey"], "top_n": 5},
+                          headers=headers).json()["id"]
+    deadline = time.monotonic() + 60
+    while (status := client.get(f"/api/v1/rankings/{ranking}", headers=headers).json())["status"] != "done":
+        assert time.monotonic() < deadline
+        time.sleep(0.05)
+    assert status["rejected"]["prop_application"] > 0  # the 12x8 and 13x8 fixed-wing props fit the quad's 13 in

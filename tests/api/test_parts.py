@@ -83,6 +83,7 @@ def test_update_without_version_needs_a_precondition(client: TestClient, team: T
         ("propellers", "diameter_in", 90, "between 1 and 80 in"),
         ("escs", "continuous_current_a", 0, "between 1 and 1000 A"),
         ("motors", "mass_g", -1, "between 0.1 and 100000 g"),
+        ("propellers", "application", "helicopter", "must be multirotor, fixed_wing or any"),
     ],
 )
 def test_out_of_range_values_name_the_field_and_range(
@@ -215,3 +216,24 @@ def test_an_id_beyond_64_bits_is_a_422_not_a_500(client: TestClient, team: TeamF
     response = client.post("/api/v1/missions", json={"name": "m", "airframe_id": 2**63, "kind": "hover"},
                            headers=team.headers())
     assert response.status_code == 422 and response.json()["errors"][0]["field"] == "airframe_id"
+
+
+def test_propeller_application_defaults_to_any_and_round_trips_through_csv(client: TestClient,
+                                                                          team: TeamFixture) -> None:
+    h = team.headers()
+    plain = client.post("/api/v1/parts/propellers", json=part_payload("propellers", name="Plain"), headers=h).json()
+    assert plain["application"] == "any"
+    wing = client.post("/api/v1/parts/propellers", headers=h,
+                       json=part_payload("propellers", name="Wing", application="fixed_wing")).json()
+    assert wing["application"] == "fixed_wing"
+    patched = client.patch(f"/api/v1/parts/propellers/{plain['id']}", json={"application": "multirotor"},
+                           headers={**h, "If-Match": '"1"'})
+    assert patched.status_code == 200 and patched.json()["application"] == "multirotor"
+    exported = client.get("/api/v1/parts/propellers/export.csv", headers=h).text
+    assert "application" in exported.splitlines()[0]
+    other = make_team(client.app, "Other")  # type: ignore[arg-type]
+    imported = client.post("/api/v1/parts/propellers/import", files={"file": ("p.csv", exported, "text/csv")},
+                           headers=other.headers())
+    assert imported.status_code in (200, 201), imported.text
+    back = client.get("/api/v1/parts/propellers?sort=name", headers=other.headers()).json()["items"]
+    assert [p["application"] for p in back] == ["multirotor", "fixed_wing"]

@@ -89,6 +89,8 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             reason = "prop_data_invalid"
         elif float(pr.diameter_in[q]) > mission.max_prop_diameter_in:
             reason = "prop_too_large"
+        elif str(pr.application[q]) not in ("any", "multirotor" if mission.kind == "hover" else "fixed_wing"):
+            reason = "prop_application"
         elif x.size == 0:
             reason = "no_forward_table"
         elif not float(es.min_cells[e]) <= cells <= float(es.max_cells[e]):

@@ -87,6 +87,25 @@ def library() -> PartsLibrary:
     return PartsLibrary(packs(), escs(), motors(), propellers())
 
 
+def mixed_propellers() -> PropellerLibrary:
+    """The three propellers (``any``) plus the 10 in one made for fixed wings (44) and the 12 in one made for
+    multirotors (45): each mission kind has a propeller it must refuse for its application, and one it may use."""
+    base = propellers()
+    rows, fwd = static_rows(), forward_rows()
+    diameter_in = np.array([10.0, 12.0, 15.0, 10.0, 12.0])
+    d = diameter_in * 0.0254
+    return PropellerLibrary(ids=np.array([41, 42, 43, 44, 45]), diameter_m=d, diameter_in=diameter_in,
+                            static=PropellerTable.from_rows(d, [*rows, rows[0], rows[1]], "rpm"),
+                            forward=PropellerTable.from_rows(d, [*fwd, fwd[0], fwd[1]], "advance_ratio"),
+                            mass_kg=[*base.mass_kg, 0.012, 0.016], cost=[*base.cost, 4.0, 6.0],
+                            application=["any", "any", "any", "fixed_wing", "multirotor"])
+
+
+def mixed_library() -> PartsLibrary:
+    """:func:`library` with :func:`mixed_propellers`."""
+    return PartsLibrary(packs(), escs(), motors(), mixed_propellers())
+
+
 def hover_mission(**changes: object) -> MissionSpec:
     """A 4-rotor survey craft, two packs in parallel allowed; a loose duty band so that many are feasible."""
     base = MissionSpec(rotor_count=4, frame_mass_kg=0.9, payload_kg=0.3, max_prop_diameter_in=16.0,

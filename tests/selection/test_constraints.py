@@ -46,7 +46,8 @@ def base_parts(**over: dict[str, object]) -> PartsLibrary:
     forward = PropellerTable.from_rows(d, [forward_row], "advance_ratio")
     return PartsLibrary(PackLibrary(**pack), EscLibrary(**esc), MotorLibrary(**motor),
                         PropellerLibrary(ids=[4], diameter_m=d, diameter_in=diameter_in, static=static,
-                                         forward=forward, mass_kg=[0.016], cost=[6.0]))
+                                         forward=forward, mass_kg=[0.016], cost=[6.0],
+                                         application=prop.get("application", ["any"])))
 
 
 BASE_MISSION = MissionSpec(rotor_count=4, frame_mass_kg=0.9, payload_kg=0.3, max_prop_diameter_in=13.0,
@@ -58,6 +59,7 @@ CASES = {
     # CT 0.20 with CP 0.03 is a figure of merit of 2.4: better than momentum theory allows (Leishman 2006, ch. 2).
     "prop_data_invalid": ({"prop": {"static": (np.array([0.0]), np.array([0.20]), np.array([0.03]))}}, {}),
     "prop_too_large": ({"prop": {"diameter_in": [14.0]}}, {}),
+    "prop_application": ({"prop": {"application": ["fixed_wing"]}}, {}),  # a fixed-wing propeller on a hover craft
     "no_forward_table": ({"prop": {"forward": (np.array([NAN]), np.array([NAN]), np.array([NAN]))}},
                          {"kind": "cruise", "rotor_count": 1, "cruise_airspeed_m_s": 15.0, "lift_to_drag": 8.0}),
     "esc_cell_range": ({"esc": {"max_cells": [3]}}, {}),
@@ -114,6 +116,20 @@ def test_all_violation_counts_include_candidates_rejected_earlier() -> None:
     out = rank(base_parts(motor={"max_current_a": [12.0]}), replace(BASE_MISSION, min_endurance_min=120.0), top_n=1)
     assert {k: v for k, v in out.rejected.items() if v} == {"motor_over_current": 1}
     assert out.violations["motor_over_current"] == 1 and out.violations["endurance_short"] == 1
+
+
+def test_application_decides_by_the_mission_kind() -> None:
+    """Multirotor propellers hover but do not cruise; fixed-wing ones the other way round; "any" does both."""
+    cruise = replace(BASE_MISSION, kind="cruise", rotor_count=1, cruise_airspeed_m_s=15.0, lift_to_drag=8.0,
+                     duty_min=0.0, duty_max=1.0, min_thrust_to_weight=0.0, min_endurance_min=0.0)
+    for application, hover_ok, cruise_ok in (("multirotor", True, False), ("fixed_wing", False, True),
+                                             ("any", True, True)):
+        lib = base_parts(prop={"application": [application]})
+        for mission, ok in ((BASE_MISSION, hover_ok), (cruise, cruise_ok)):
+            out = rank(lib, mission, top_n=1)
+            assert (out.rejected["prop_application"] == 0) == ok, (application, mission.kind)
+    with pytest.raises(ValueError, match="application"):
+        base_parts(prop={"application": ["helicopter"]})
 
 
 def test_every_reason_has_a_hand_built_case() -> None:

@@ -11,6 +11,7 @@ import numpy as np
 import pytest
 
 from server.selection import REASONS, rank
+from server.selection.constraints import PRUNE_REASONS
 from server.selection.explain import explain
 from server.selection.library import MissionSpec, PartsLibrary
 
@@ -109,4 +110,4 @@ def test_missing_data_leaves_operating_point_checks_unevaluated() -> None:
     verdict = explain(base_parts(motor={"resistance_ohm": [float("nan")]}), mission, pack=0, packs_in_parallel=1,
                       esc=0, motor=0, prop=0)
     assert verdict.first_failed == "missing_data" and "motor" in verdict.checks[0].detail
-    assert all(c.passed is None for c in verdict.checks[6:]) and verdict.row is None
+    assert all(c.passed is None for c in verdict.checks[len(PRUNE_REASONS):]) and verdict.row is None

@@ -23,7 +23,7 @@ MISSIONS = {
 
 @pytest.fixture(scope="module")
 def reference() -> dict[str, tuple[dict[str, int], list[brute.Record]]]:
-    lib = parts.library()
+    lib = parts.mixed_library()
     out = {}
     for name, mission in MISSIONS.items():
         counts, feasible = brute.evaluate(lib, mission)
@@ -46,7 +46,7 @@ def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objecti
     mission: MissionSpec = MISSIONS[kind]
     counts, feasible = reference[kind]
     assert len(feasible) >= 5, "the hand-built library must leave several feasible candidates"
-    out = rank(parts.library(), mission, objective=objective, top_n=500)
+    out = rank(parts.mixed_library(), mission, objective=objective, top_n=500)
     expected = sorted(feasible, key=lambda r: brute.sort_key(r, objective, "refined_endurance_min"))
     assert [_key(r) for r in out.top] == [_brute_key(r) for r in expected]
     for row, ref in zip(out.top, expected, strict=True):
@@ -81,7 +81,7 @@ def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objecti
 @pytest.mark.parametrize("kind", ["hover", "cruise"])
 def test_pareto_set_is_the_brute_force_non_dominated_set(reference: dict, kind: str) -> None:
     _, feasible = reference[kind]
-    out = rank(parts.library(), MISSIONS[kind], top_n=0)
+    out = rank(parts.mixed_library(), MISSIONS[kind], top_n=0)
     got = {_key(r) for r in out.pareto}
     by_key = {r.key: _brute_key(r) for r in feasible}
     assert got == {by_key[k] for k in brute.pareto(feasible)}
@@ -97,9 +97,23 @@ def test_top_n_refines_the_best_screened_and_re_ranks_them(reference: dict) -> N
     """With top_n below the feasible count, the rows are the screening top N, re-ranked after refinement."""
     counts, feasible = reference["hover"]
     top_n = 4
-    out = rank(parts.library(), MISSIONS["hover"], objective="endurance", top_n=top_n)
+    out = rank(parts.mixed_library(), MISSIONS["hover"], objective="endurance", top_n=top_n)
     screened = sorted(feasible, key=lambda r: brute.sort_key(r, "endurance"))[:top_n]
     expected = sorted(screened, key=lambda r: brute.sort_key(r, "endurance", "refined_endurance_min"))
     assert [_key(r) for r in out.top] == [_brute_key(r) for r in expected]
     assert [r.rank for r in out.top] == list(range(1, top_n + 1))
     assert np.all(np.diff([r.endurance_min for r in out.top]) <= 0)
+
+
+@pytest.mark.parametrize("kind", ["hover", "cruise"])
+def test_a_propeller_made_for_the_other_kind_of_flight_is_refused(reference: dict, kind: str) -> None:
+    """prop_application: the fixed-wing 10 in propeller never hovers, the multirotor 12 in one never cruises."""
+    counts, feasible = reference[kind]
+    assert counts.get("prop_application", 0) > 0  # the brute force refuses some, for this reason
+    out = rank(parts.mixed_library(), MISSIONS[kind], top_n=500)
+    assert out.rejected["prop_application"] == counts["prop_application"]
+    refused = 44 if kind == "hover" else 45
+    assert refused not in {row.propeller_id for row in out.top}
+    twin = 41 if kind == "hover" else 42  # the same propeller marked "any" is still ranked
+    if kind == "hover":
+        assert twin in {row.propeller_id for row in out.top}
