@@ -40,7 +40,8 @@ class FormField:
 
 
 LABELS = {
-    "ct": "CT", "cp": "CP", "kv_rpm_per_v": "Kv", "k_pwm": "k_pwm", "no_load_current_a": "No-load current I0",
+    "ct": "CT", "cp": "CP", "kv_rpm_per_v": "Kv", "k_pwm": "Partial-throttle loss k_pwm",
+    "no_load_current_a": "No-load current I0",
     "static_table": "Static table (rpm, CT, CP per line)", "forward_table": "Forward table (J, CT, CP per line)",
     "r_on_path_ohm": "Conduction resistance R_on", "input_esr_ohm": "Input-capacitor ESR",
     "unit_cost": "Unit cost", "pwm_frequency_khz": "PWM frequency", "no_load_test_voltage_v": "I0 measured at",

@@ -22,7 +22,7 @@ OVERRIDES = [
     ("battery", "cells_series", "Cells in series", "S"), ("battery", "capacity_mah", "Capacity", "mAh"),
     ("battery", "cell_resistance_mohm", "Cell resistance", "mΩ"),
     ("esc", "r_on_path_ohm", "Conduction resistance", "Ω"), ("esc", "pwm_frequency_khz", "PWM frequency", "kHz"),
-    ("esc", "k_pwm", "k_pwm", ""),
+    ("esc", "k_pwm", "Partial-throttle loss k_pwm", ""),
     ("motor", "kv_rpm_per_v", "Kv", "rpm/V"), ("motor", "winding_resistance_ohm", "Winding resistance", "Ω"),
     ("motor", "no_load_current_a", "No-load current", "A"),
     ("propeller", "diameter_in", "Diameter", "in"), ("propeller", "ct", "CT", ""), ("propeller", "cp", "CP", ""),
