@@ -31,9 +31,15 @@ def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
     lo, hi = api["points"][1]["bands"]["electrical_power_w"]
     assert power_cell.select_one(".band").text.replace("\u2009", "") == f"{lo:.3g}–{hi:.3g}".replace(",", "")
     assert soup.select_one("#predict-chart-data") is not None and soup.select_one("#chart-curves") is not None
-    sources = {r["data-param"]: r.select("td")[3].text.strip() for r in soup.select("#parameters tbody tr")}
-    assert sources["motor.kv_rpm_per_v"] == "part" and sources["esc.k_pwm"] == "assumed, not measured"
+    table = {r["data-param"]: r for r in soup.select("#parameters tbody tr")}
+    sources = {key: r.select("td")[3].text.strip() for key, r in table.items()}
+    assert table["motor.kv_rpm_per_v"].select_one(".source").text == "part"
+    assert table["esc.k_pwm"].select_one(".source").text == "assumed, not measured"
     assert "Assumed, not measured: " in soup.text and "k_pwm" in soup.select_one("#predict-results").text
+    # A prior says where it comes from and how uncertain it is, as the API does.
+    k_pwm = api["parameters"]["esc"]["k_pwm"]
+    assert k_pwm["origin"] in sources["esc.k_pwm"]
+    assert "±" in table["esc.k_pwm"].select("td")[2].text and k_pwm["sd"] > 0
     names = {r["data-param"]: r.select("td")[1].text for r in soup.select("#parameters tbody tr")}
     assert names["motor.kv_rpm_per_v"] == "Kv" and names["propeller.static_table"] == "CT, CP vs rpm"
     # The part's CT and CP constants stand beside its table, which the model reads: said, not hidden.
