@@ -15,6 +15,7 @@ from pydantic import ValidationError
 from server.errors import DomainError
 from server.pages._forms import parameter_label
 from server.security import new_csrf_token
+from server.services._sorting import naturally
 from server.services._validation import field_errors
 
 
@@ -43,6 +44,11 @@ def quantity(value: Any, unit: str = "", digits: int = 3) -> Markup:
     return Markup(f'<span class="num">{escape(number)}</span>\u00a0<span class="unit">{escape(unit)}</span>')
 
 
+def natural_sort(items: Any, attribute: str) -> list[Any]:
+    """Jinja filter: ``items`` (dicts or objects) in the natural order of ``attribute`` (5x2.5 before 30x10)."""
+    return naturally(items, lambda x: x[attribute] if isinstance(x, dict) else getattr(x, attribute))
+
+
 def fmt_band(band: Any, digits: int = 3) -> Markup:
     """An 80 % band [lo, hi] as a small 'lo–hi' span (empty when there is none)."""
     if not band or len(band) != 2 or band[0] is None or band[1] is None:
@@ -55,6 +61,7 @@ def make_templates(directory: Path) -> Jinja2Templates:
     templates = Jinja2Templates(directory=str(directory))
     templates.env.filters["num"] = fmt_number
     templates.env.filters["band"] = fmt_band
+    templates.env.filters["natural_sort"] = natural_sort
     templates.env.filters["param_label"] = parameter_label
     templates.env.globals["quantity"] = quantity
     templates.env.globals["csrf_token"] = csrf_token

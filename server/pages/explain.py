@@ -19,6 +19,7 @@ from server.services import explain as explain_service
 from server.services import missions as missions_service
 from server.services import parts as parts_service
 from server.services import rankings as rankings_service
+from server.services._sorting import naturally
 
 router = APIRouter()
 FIELDS = ("battery_id", "esc_id", "motor_id", "propeller_id")
@@ -37,7 +38,7 @@ def _int(value: str | None) -> int | None:
 def _options(session: Any, team_id: int, ranking: Any) -> dict[str, list[dict[str, Any]]]:
     """The parts to choose from: the ranking's library when there is one, else the team's active parts."""
     if ranking is not None:
-        return {field: sorted(ranking.inputs["parts"][kind], key=lambda p: str(p["name"]))
+        return {field: naturally(ranking.inputs["parts"][kind], lambda p: p["name"])
                 for field, kind in KINDS.items()}
     out = {}
     for field, kind in KINDS.items():

@@ -99,6 +99,8 @@ def test_why_this_verdict_from_a_row_a_rejection_count_and_the_why_not_form(app:
         assert "first-failed" in shown.select("#checks tbody tr")[list(rankings_service.REASON_TEXT).index(reason)][
             "class"]
     form = page.select_one("#why-not form")
+    props = [o.text for o in form.select("select[name=propeller_id] option")]
+    assert props.index("5x2.5 multirotor prop") < props.index("10x4.5 multirotor prop")  # natural order
     fields = {s["name"]: s.select("option")[-1]["value"] for s in form.select("select")}
     answer = client.get("/explain", params={"ranking_id": ranking_id, **fields, "packs_in_parallel": 1})
     assert answer.status_code == 200 and "#verdict" not in answer.text
