@@ -120,9 +120,9 @@ _cache_lock = threading.Lock()
 
 def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds,
                with_curves: bool) -> tuple[Any, ...]:
-    """Everything an evaluation depends on, by version: the engine, the mission and its airframe, the four parts and
-    every active calibration of the team (a part's own, and the ESCs' pooled k_pwm prior). Any edit, calibration
-    or switch changes a version or the set, so a cached evaluation is never served after a change."""
+    """Everything an evaluation depends on, by version: the database, the engine, the mission and its airframe, the
+    four parts and every active calibration of the team (a part's own, and the ESCs' pooled k_pwm prior). Any edit,
+    calibration or switch changes a version or the set, so a cached evaluation is never served after a change."""
     parts = []
     for kind, part_id in (("batteries", ids.battery_id), ("escs", ids.esc_id), ("motors", ids.motor_id),
                           ("propellers", ids.propeller_id)):
@@ -133,8 +133,9 @@ def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: Candida
         parts.append((kind, part.id, part.version))
     calibrations = tuple(session.scalars(select(Calibration.id).where(
         Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id)))
-    return (ENGINE_VERSION, team_id, mission.id, mission.version, mission.airframe.id, mission.airframe.version,
-            tuple(parts), ids.packs_in_parallel, calibrations, with_curves)
+    engine = session.get_bind().engine  # ids and versions are per database: two databases never share a key
+    return (ENGINE_VERSION, id(engine), str(engine.url), team_id, mission.id, mission.version, mission.airframe.id,
+            mission.airframe.version, tuple(parts), ids.packs_in_parallel, calibrations, with_curves)
 
 
 def evaluate(

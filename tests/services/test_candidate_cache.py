@@ -3,6 +3,8 @@ any edit of a part, the mission or a calibration switch is evaluated afresh (nev
 
 from __future__ import annotations
 
+import shutil
+from pathlib import Path
 from typing import Any
 
 import pytest
@@ -10,7 +12,7 @@ from fastapi import FastAPI
 from fastapi.testclient import TestClient
 from sqlalchemy import select
 
-from server.db import transaction
+from server.db import make_engine, make_sessionmaker, transaction
 from server.models import PART_MODELS, Calibration, Mission
 from server.services import calibrations, candidate, missions
 from server.services import parts as parts_service
@@ -64,3 +66,35 @@ def test_repeat_is_cached_and_every_change_is_seen(app: FastAPI, client: TestCli
     before = len(calls)
     power()
     assert len(calls) == before + 1  # a calibration switch is a new key
+
+
+def test_two_databases_with_the_same_ids_never_share_an_evaluation(app: FastAPI, client: TestClient,
+                                                                   demo_template: Path, tmp_path: Path) -> None:
+    """Copies of one database hold the same ids and versions (tests, restored backups): an edit in one copy must not
+    be answered from the other's cached evaluation."""
+    path = tmp_path / "copy.db"
+    shutil.copy(demo_template, path)
+    engine = make_engine(f"sqlite:///{path}")
+    try:
+        factories = {"app": app.state.sessionmaker, "copy": make_sessionmaker(engine)}
+        with transaction(factories["copy"]) as session:  # the same edit count in both: equal versions
+            mission, ids = _ids(session)
+            motor = parts_service.get_part(session, team_id=mission.team_id, kind="motors", part_id=ids.motor_id)
+            parts_service.update_part(session, team_id=mission.team_id, user_id=None, kind="motors",
+                                      part_id=motor.id, changes={"mass_g": motor.mass_g + 100},
+                                      expected_version=motor.version)
+        with transaction(factories["app"]) as session:
+            mission, ids = _ids(session)
+            motor = parts_service.get_part(session, team_id=mission.team_id, kind="motors", part_id=ids.motor_id)
+            parts_service.update_part(session, team_id=mission.team_id, user_id=None, kind="motors",
+                                      part_id=motor.id, changes={"notes": "same version, other data"},
+                                      expected_version=motor.version)
+        mass = {}
+        for name, factory in factories.items():
+            with factory() as session:
+                mission, ids = _ids(session)
+                mass[name] = candidate.evaluate(session, team_id=mission.team_id, mission=mission,
+                                                ids=ids)["all_up_mass_g"]
+        assert mass["copy"] == pytest.approx(mass["app"] + 4 * 100)  # four motors, each 100 g heavier
+    finally:
+        engine.dispose()
