@@ -9,6 +9,8 @@ pack. Limits are the mission's (defaults are common practice, no source).
 from __future__ import annotations
 
 import copy
+import hashlib
+import json
 import threading
 from collections import OrderedDict
 from dataclasses import dataclass
@@ -118,24 +120,30 @@ _cache: OrderedDict[tuple[Any, ...], dict[str, Any]] = OrderedDict()
 _cache_lock = threading.Lock()
 
 
+def _content(row: Any) -> list[Any]:
+    """A row's stored values (not its bookkeeping), JSON-ready."""
+    return [[c.key, getattr(row, c.key)] for c in row.__table__.columns
+            if c.key not in ("created_at", "updated_at", "version", "notes")]
+
+
 def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds,
                with_curves: bool) -> tuple[Any, ...]:
-    """Everything an evaluation depends on, by version: the database, the engine, the mission and its airframe, the
-    four parts and every active calibration of the team (a part's own, and the ESCs' pooled k_pwm prior). Any edit,
-    calibration or switch changes a version or the set, so a cached evaluation is never served after a change."""
+    """Everything an evaluation depends on, by content: the engine version, the mission and its airframe, the four
+    parts and every active calibration of the team (a part's own, and the ESCs' pooled k_pwm prior). Any edit,
+    calibration or switch changes the key, so a cached evaluation is never served after a change (ids and versions
+    alone are not enough: a database may reuse an id)."""
     parts = []
     for kind, part_id in (("batteries", ids.battery_id), ("escs", ids.esc_id), ("motors", ids.motor_id),
                           ("propellers", ids.propeller_id)):
         try:
-            part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+            parts.append(_content(parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)))
         except NotFound as exc:
             raise InvalidInput("Unknown part", [FieldError("part", str(exc))]) from None
-        parts.append((kind, part.id, part.version))
-    calibrations = tuple(session.scalars(select(Calibration.id).where(
-        Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id)))
-    engine = session.get_bind().engine  # ids and versions are per database: two databases never share a key
-    return (ENGINE_VERSION, id(engine), str(engine.url), team_id, mission.id, mission.version, mission.airframe.id,
-            mission.airframe.version, tuple(parts), ids.packs_in_parallel, calibrations, with_curves)
+    calibrations = [_content(c) for c in session.scalars(select(Calibration).where(
+        Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id))]
+    content = json.dumps([_content(mission), _content(mission.airframe), parts, calibrations], default=str,
+                         sort_keys=True)
+    return (ENGINE_VERSION, hashlib.sha256(content.encode()).hexdigest(), ids.packs_in_parallel, with_curves)
 
 
 def evaluate(
