@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+import pytest
 from bs4 import BeautifulSoup
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 
 from server.pages._render import fmt_number
+from server.services import seed
 from tests.factories import login, make_library, make_team
 
 
@@ -73,3 +75,38 @@ def test_compare_page_cautions_when_a_part_runs_near_its_rating(app: FastAPI, cl
     assert f"Candidate 1: ESC above {1.2 / ratio:.0%} of its allowed current" in caution
     assert "local regulations" in caution
     assert page.select_one(".note-form") is None  # viewers read only
+
+
+@pytest.mark.demo_data
+def test_compare_marks_assumed_parts_and_shows_bands(app: FastAPI, client: TestClient) -> None:
+    """Untested ESCs rest on the team's pooled k_pwm: the compare page marks them 'assumed', says how much of the
+    result rests on that, and shows the 80 % bands beside the numbers; the tested ESC's column assumes nothing."""
+    from sqlalchemy import select
+
+    from server.models import PART_MODELS, Mission
+    from server.schemas.shortlists import EntryCreate
+    from server.services import shortlists
+
+    login(client, seed.DEMO_LOGIN[0], seed.DEMO_LOGIN[1])
+    with app.state.sessionmaker() as s:
+        m = s.scalars(select(Mission).where(Mission.name == "Q4 mapping survey")).one()
+
+        def pid(kind: str, number: str) -> int:
+            return int(s.scalars(select(PART_MODELS[kind].id).where(PART_MODELS[kind].part_number == number)).one())
+
+        sl = shortlists.create(s, team_id=m.team_id, user_id=None, name="ESC choice", mission_id=m.id)
+        for esc in ("NS-E30", "NS-E45"):
+            shortlists.add_entry(s, team_id=m.team_id, user_id=None, shortlist_id=sl.id, data=EntryCreate(
+                battery_id=pid("batteries", "NS-B4S-5200"), esc_id=pid("escs", esc),
+                motor_id=pid("motors", "NS-M3508-460"), propeller_id=pid("propellers", "NS-P13x4.4")))
+        s.commit()
+        sid = sl.id
+    page = BeautifulSoup(client.get(f"/shortlists/{sid}").text, "html.parser")
+    table = page.select_one("#compare-table")
+    assumed_row = table.select_one('tr[data-key="assumed"]').select("td")
+    assert "k_pwm" in assumed_row[0].text and assumed_row[1].text.split()[0] == "none"
+    assert table.select_one('tr[data-key="parts.escs"]').select("td")[0].select_one(".assumed") is not None
+    assert table.select_one('tr[data-key="parts.escs"]').select("td")[1].select_one(".assumed") is None
+    assert "1 of the 2 candidates" in page.select_one("#compare-assumptions").text
+    power = table.select_one('tr[data-key="cruise.electrical_power_w"]').select("td")
+    assert all(cell.select_one(".band") for cell in power)
