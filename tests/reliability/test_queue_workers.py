@@ -175,7 +175,7 @@ def test_a_worker_killed_mid_job_loses_nothing(queue_db: str, tmp_path: Path) ->
     assert row.status == "done" and row.attempts == 2, (row.status, row.attempts, row.error)
 
 
-def test_a_large_ranking_in_shards_over_two_workers_equals_the_whole_ranking(queue_db: str, tmp_path: Path) -> None:
+def test_a_large_ranking_sharded_over_two_workers_equals_the_whole_and_cancels(queue_db: str, tmp_path: Path) -> None:
     from server.db import transaction
     from server.jobs import execute
     from tests.services.test_ranking_shards import _stored
@@ -188,6 +188,18 @@ def test_a_large_ranking_in_shards_over_two_workers_equals_the_whole_ranking(que
             rid = int(client.post("/api/v1/rankings", headers=team.headers(), json={
                 "mission_id": missions["Q4 mapping survey"], "top_n": 20}).json()["id"])
             (row,) = _wait_all(queue_db, Ranking, [rid], timeout_s=240)
+            # Cancel reaches a running sharded ranking and every shard of it, wherever they run.
+            other = int(client.post("/api/v1/rankings", headers=team.headers(), json={
+                "mission_id": missions["Q4 mapping survey"], "top_n": 20}).json()["id"])
+            deadline = time.monotonic() + 90
+            while not any(s.status == "done" for s in _shards(queue_db, other)):
+                assert time.monotonic() < deadline
+                time.sleep(0.02)
+            assert client.post(f"/api/v1/rankings/{other}/cancel", headers=team.headers()).status_code == 200
+            (cancelled,) = _wait_all(queue_db, Ranking, [other], timeout_s=60)
+            time.sleep(2.0)  # a shard on the other worker notices at its next check
+            assert cancelled.status == "cancelled", (cancelled.status, cancelled.error)
+            assert not any(s.status in ("queued", "running") for s in _shards(queue_db, other))
         assert row.status == "done" and row.timings["shards"] > 2, (row.status, row.error, row.timings)
         shards = _shards(queue_db, rid)
         assert len(shards) == row.timings["shards"] and all(s.status == "done" and s.attempts == 1 for s in shards)
