@@ -47,6 +47,17 @@ def _options(session: Any, team_id: int, ranking: Any) -> dict[str, list[dict[st
     return out
 
 
+def _kind(session: Any, team_id: int, ranking: Any, mission_id: int | None) -> str:
+    """The mission's kind (hover or cruise), for the words of the checks."""
+    if ranking is not None:
+        return str(ranking.inputs["mission"]["kind"])
+    try:
+        return missions_service.get_mission(session, team_id=team_id, mission_id=mission_id).kind \
+            if mission_id is not None else "hover"
+    except DomainError:
+        return "hover"
+
+
 @router.get("/explain", response_class=HTMLResponse)
 def explain_page(request: Request, caller: PageCaller, session: SessionDep) -> HTMLResponse:
     q = dict(request.query_params)
@@ -77,6 +88,7 @@ def explain_page(request: Request, caller: PageCaller, session: SessionDep) -> H
         "caller": caller, "nav": "rankings", "ranking": ranking, "mission_id": mission_id, "values": q,
         "options": {f: list(v.values()) for f, v in names.items()}, "names": names, "labels": LABELS,
         "missions": missions_service.list_missions(session, team_id=caller.team_id), "result": result,
-        "errors": errors, "reason_labels": rankings_service.REASON_TEXT, "packs": packs,
+        "errors": errors, "reason_labels": rankings_service.reason_text(_kind(session, caller.team_id, ranking,
+                                                                               mission_id)), "packs": packs,
     }
     return render(request, "pages/explain.html", ctx, status_code=422 if errors else 200)

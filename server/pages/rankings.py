@@ -25,7 +25,6 @@ from server.services.cautions import summary as cautions_summary
 router = APIRouter(prefix="/rankings")
 OBJECTIVE_LABELS = {"cruise_power": "lowest hover/cruise power", "endurance": "longest endurance",
                     "specific_thrust": "best specific thrust", "mass": "lowest mass", "cost": "lowest cost"}
-REASON_LABELS = rankings_service.REASON_TEXT
 GROUP_METRICS = {"cruise_power": "cruise power", "endurance": "endurance", "specific_thrust": "specific thrust",
                  "thrust_to_weight": "thrust-to-weight", "mass": "all-up mass (equal values)",
                  "cost": "cost (equal values)"}
@@ -111,8 +110,7 @@ def _ranking_context(request: Request, session: Any, caller: Caller, ranking_id:
     ctx: dict[str, Any] = {"caller": caller, "nav": "rankings", "ranking": status, "sort": sort, "q": q,
                            "filters": filters, "sorts": SORTS,
                            "objectives": OBJECTIVE_LABELS | {"cruise_power": f"lowest {point} power"},
-                           "reason_labels": {k: v.replace("cruise thrust", f"{point} thrust").replace(
-                               "cruise duty", f"{point} duty") for k, v in REASON_LABELS.items()},
+                           "reason_labels": rankings_service.reason_text(point),
                            "rows": [], "total": 0, "pareto": [], "shortlists": [],
                            "page": page, "page_size": 50, "cautions": [], "currencies": [],
                            "point_label": point.capitalize(), "grouping": {"count": 0}, "assumptions": {"rows": 0},

@@ -24,6 +24,13 @@ from server.services.scopes import with_scopes
 log = logging.getLogger("liftmatch.rankings")
 REASON_TEXT = constraints.REASON_TEXT
 """A plain-language line per rejection reason, in the engine's order."""
+
+
+def reason_text(kind: str) -> dict[str, str]:
+    """:data:`REASON_TEXT` in the mission's own words: a hover mission's point is the hover point."""
+    point = "cruise" if kind == "cruise" else "hover"
+    return {k: v.replace("cruise thrust", f"{point} thrust").replace("cruise duty", f"{point} duty")
+            for k, v in REASON_TEXT.items()}
 SORT_COLUMNS = {
     "rank": RankingResult.rank,
     "all_up_mass_g": RankingResult.all_up_mass_g,

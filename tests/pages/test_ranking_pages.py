@@ -82,6 +82,8 @@ def test_why_this_verdict_from_a_row_a_rejection_count_and_the_why_not_form(app:
     why = page.select_one("#results tbody tr a")["href"]
     verdict = BeautifulSoup(client.get(why).text, "html.parser")
     assert verdict.select_one("#verdict h2").text.strip() == "Passes every limit"
+    checks_text = verdict.select_one("#checks").text
+    assert "hover thrust" in checks_text and "cruise thrust" not in checks_text
     assert len(verdict.select("#checks tbody tr")) == len(rankings_service.REASON_TEXT)
     assert verdict.select_one("#numbers .band") is not None  # the row's bands
     examples = page.select("details.reason-examples")
@@ -95,7 +97,8 @@ def test_why_this_verdict_from_a_row_a_rejection_count_and_the_why_not_form(app:
         assert reason in rejected
         link = details.select_one("a")["href"]
         shown = BeautifulSoup(client.get(link).text, "html.parser")
-        assert shown.select_one("#verdict h2").text.strip() == f"Rejected: {rankings_service.REASON_TEXT[reason]}"
+        words = rankings_service.reason_text("hover")[reason]
+        assert shown.select_one("#verdict h2").text.strip() == f"Rejected: {words}"
         assert "first-failed" in shown.select("#checks tbody tr")[list(rankings_service.REASON_TEXT).index(reason)][
             "class"]
     form = page.select_one("#why-not form")
