@@ -4,6 +4,7 @@ any edit of a part, the mission or a calibration switch is evaluated afresh (nev
 from __future__ import annotations
 
 import shutil
+from collections import OrderedDict
 from pathlib import Path
 from typing import Any
 
@@ -33,6 +34,7 @@ def test_repeat_is_cached_and_every_change_is_seen(app: FastAPI, client: TestCli
     calls = []
     real = candidate._evaluate
     monkeypatch.setattr(candidate, "_evaluate", lambda *a, **k: calls.append(1) or real(*a, **k))
+    monkeypatch.setattr(candidate, "_cache", OrderedDict())  # other tests may have evaluated the same demo system
     factory = app.state.sessionmaker
 
     def power() -> float:
