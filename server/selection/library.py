@@ -1,5 +1,8 @@
 """Inputs of the ranking engine: the team's parts as columns of numpy arrays, and one mission.
 
+(About 410 lines, on purpose in one file: the four part libraries and the mission spec are one input contract —
+the same missing-value conventions below, one shared row setup — and are read together by every engine module.)
+
 One frozen dataclass per part kind holds one row per part (the service layer builds them from the ORM rows;
 field names follow ``server/models/parts.py`` converted to SI). Conventions for missing values:
 
