@@ -17,7 +17,6 @@ varied over its width with everything varied: how much of the spread rests on as
 
 from __future__ import annotations
 
-import copy
 from dataclasses import fields, replace
 from typing import Any
 
@@ -71,8 +70,8 @@ def has_uncertainty(snap: dict[str, Any]) -> bool:
     return all("uncertainty" in r for rows in snap["parts"].values() for r in rows)
 
 
-def _system(snap: dict[str, Any], row: CandidateRow) -> tuple[dict[str, dict[str, Any]], ps.PowerSystem]:
-    by_id = {kind: {r["id"]: r for r in snap["parts"][kind]} for kind in KINDS}
+def _system(by_id: dict[str, dict[int, dict[str, Any]]],
+            row: CandidateRow) -> tuple[dict[str, dict[str, Any]], ps.PowerSystem]:
     ids = (row.battery_id, row.esc_id, row.motor_id, row.propeller_id)
     parts = {kind: by_id[kind][int(i)] for kind, i in zip(KINDS, ids, strict=True)}
     resolved = {kind: resolved_from_snapshot(kind, parts[kind]) for kind in KINDS}
@@ -161,7 +160,8 @@ def rows_bands(snap: dict[str, Any], rows: list[CandidateRow], samples: int = SA
     """Bands of ranking rows, computed from the ranking's snapshot (see the module docstring)."""
     if not rows:
         return []
-    systems = [_system(snap, row) for row in rows]
+    by_id = {kind: {r["id"]: r for r in snap["parts"][kind]} for kind in KINDS}  # once, not per row
+    systems = [_system(by_id, row) for row in rows]
     everything = [(parts, bands.drawn_values(system, samples), int(row.packs_in_parallel), row.endurance_refined)
                   for row, (parts, system) in zip(rows, systems, strict=True)]
     with_priors = [i for i, (_, system) in enumerate(systems)
@@ -260,7 +260,7 @@ def with_bands(snap: dict[str, Any], objective: str, rows: list[CandidateRow],
                limit: int = MAX_ROWS) -> list[dict[str, Any]]:
     """Every row's ``as_dict()`` with its bands merged in (the first ``limit`` rows) and, when the first row is
     rank 1, ``indistinguishable_from_best``. Snapshots without uncertainties give rows without bands."""
-    out = [copy.deepcopy(r.as_dict()) for r in rows]
+    out = [r.as_dict() for r in rows]  # dataclasses.asdict already returns a deep copy
     if not has_uncertainty(snap):
         return out
     for b, metrics in zip(rows_bands(snap, rows[:limit]), out, strict=False):
