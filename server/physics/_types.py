@@ -43,7 +43,10 @@ RAD_S_PER_RPM = 2.0 * math.pi / 60.0
 RPM_PER_RAD_S = 60.0 / (2.0 * math.pi)
 SECONDS_PER_HOUR_S = 3600.0
 
-# --- Copper (IEC 60028 annealed copper; value recalled from memory [MEM]) -------------------------------
+# --- Copper: temperature coefficient of resistance of standard (IACS, IEC 60028) annealed copper at 20 °C,
+# 3.93e-3 /°C: K. C. Agrawal, Industrial Power Engineering and Applications Handbook, Newnes 2001, table of
+# conductor properties; the same 3930 ppm/°C in the IEICE Handbook for Electronics, Information and
+# Communication Engineers, vol. 1 (docs/model-reference.md#heat) ---------------------------------------
 COPPER_TEMPERATURE_COEFFICIENT_PER_K = 0.00393
 
 

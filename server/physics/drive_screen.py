@@ -45,7 +45,9 @@ class Batch:
     charge [V], pack resistance ``S r / (P k)`` [Ω], total capacity [Ah], allowed continuous pack current
     [A]. ESC: conduction resistance [Ω], switching ``0.5 f t`` [1/1], dead-time ``2 V_SD t_dt f`` [V],
     ``1 / (12 f^2)`` [s^2], ESR [Ω], k_pwm [-], continuous rating [A]. Motor: Kv [(rad/s)/V], R [Ω], I0 [A],
-    L [H], rating [A]. ``q``: propeller index into the :class:`PropModel`. ``mass_kg``: all-up mass [kg].
+    L [H], rating [A], winding-to-air thermal resistance [K/W], thermal time constant [s], highest winding
+    temperature [°C] (read only by the heat model, :mod:`server.selection.temperature`). ``q``: propeller index
+    into the :class:`PropModel`. ``mass_kg``: all-up mass [kg].
     """
 
     voc_cruise_v: np.ndarray
@@ -66,6 +68,9 @@ class Batch:
     no_load_current_a: np.ndarray
     inductance_h: np.ndarray
     motor_rating_a: np.ndarray
+    thermal_resistance_k_per_w: np.ndarray
+    thermal_time_constant_s: np.ndarray
+    max_winding_temperature_c: np.ndarray
     q: np.ndarray
     mass_kg: np.ndarray
 

@@ -160,7 +160,8 @@ def resistance_at_temperature_ohm(resistance_20c_ohm: ArrayLike, temperature_c: 
     temperature_c : array_like
         Winding temperature. [°C]
     coefficient_per_k : array_like, default 0.00393
-        Temperature coefficient of annealed copper (IEC 60028 value, recalled [MEM]). [1/K]
+        Temperature coefficient of standard annealed copper at 20 °C (Agrawal's handbook; see
+        docs/model-reference.md#heat). [1/K]
 
     Returns
     -------

@@ -15,6 +15,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
+from ._types import ArrayLike, FloatArray, as_float_array
 from .esc import EscParams
 from .motor import DEFAULT_INDUCTANCE_H
 
@@ -87,3 +90,32 @@ MODEL_DISCREPANCY_RELATIVE = 0.04
 """Relative scatter of the calibrated model's electrical power about bench measurements it did not see (the
 cross-voltage check on the published 5-inch sweeps: median error 3.6 %), used when no calibration states its own
 residual. [-]"""
+
+SPECIFIC_THERMAL_RESISTANCE_K_KG_PER_W = 0.1
+"""Winding-to-air thermal resistance times motor mass for a propeller-cooled outrunner when a motor states none:
+``R_th = 0.1 / m`` (about 3 K/W at 30 g, 1 K/W at 100 g). From memory [MEM], order of magnitude only."""
+MOTOR_HEAT_CAPACITY_J_PER_KG_K = 500.0
+"""Lumped heat capacity per kilogram of motor (copper 385, electrical steel about 450, aluminium about 900
+J/(kg K), from memory [MEM]); the time constant prior is ``tau = R_th m c``. [J/(kg K)]"""
+THERMAL_PRIORS: dict[str, Prior] = {
+    "thermal_resistance_k_per_w": Prior(SPECIFIC_THERMAL_RESISTANCE_K_KG_PER_W, 0.5,
+                                        _MEM + " (0.1 K kg/W divided by the motor's mass)", relative=True),
+    "thermal_time_constant_s": Prior(SPECIFIC_THERMAL_RESISTANCE_K_KG_PER_W * MOTOR_HEAT_CAPACITY_J_PER_KG_K, 0.5,
+                                     _MEM + " (R_th x mass x 500 J/(kg K))", relative=True),
+    "max_winding_temperature_c": Prior(100.0, 10.0, _MEM + " (winding and N/H-grade magnets: 80-150 °C)"),
+}
+"""What the heat model assumes for a motor without thermal data (docs/model-reference.md#heat). Not counted among
+a part's assumed parameters (they matter only to missions that ask for temperature effects)."""
+
+
+def thermal_defaults(mass_kg: ArrayLike, thermal_resistance_k_per_w: ArrayLike, time_constant_s: ArrayLike,
+                     max_winding_temperature_c: ArrayLike) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """Fill NaN thermal values from :data:`THERMAL_PRIORS`: R_th [K/W], tau [s] (from R_th), maximum [°C]."""
+    mass = as_float_array(mass_kg)
+    r_th = as_float_array(thermal_resistance_k_per_w)
+    r_th = np.where(np.isnan(r_th), SPECIFIC_THERMAL_RESISTANCE_K_KG_PER_W / mass, r_th)
+    tau = as_float_array(time_constant_s)
+    tau = np.where(np.isnan(tau), r_th * mass * MOTOR_HEAT_CAPACITY_J_PER_KG_K, tau)
+    t_max = as_float_array(max_winding_temperature_c)
+    t_max = np.where(np.isnan(t_max), THERMAL_PRIORS["max_winding_temperature_c"].value, t_max)
+    return r_th, tau, t_max

@@ -69,6 +69,9 @@ class RankedCruise(Result):
     shaft_power_per_rotor_w: float | None = Field(default=None, description="= shaft_power_w, named: per rotor [W]")
     electrical_power_craft_w: float | None = Field(default=None, description="= electrical_power_w, named: craft [W]")
     bus_current_craft_a: float | None = Field(default=None, description="= bus_current_a, named: craft [A]")
+    winding_temperature_c: float | None = Field(
+        default=None, description="Steady motor winding temperature at this point (missions with temperature "
+                                  "effects; None: thermal runaway or not computed) [°C]")
 
 
 class RankedFullThrottle(Result):
@@ -85,6 +88,9 @@ class RankedFullThrottle(Result):
     motor_current_per_rotor_a: float | None = Field(default=None, description="= motor_current_a, named: per rotor [A]")
     electrical_power_craft_w: float | None = Field(default=None, description="= electrical_power_w, named: craft [W]")
     bus_current_craft_a: float | None = Field(default=None, description="= bus_current_a, named: craft [A]")
+    winding_temperature_c: float | None = Field(
+        default=None, description="Motor winding temperature after the mission's full-throttle burst from the "
+                                  "cruise temperature (missions with temperature effects) [°C]")
 
 
 class RowAssumptions(Result):

@@ -25,8 +25,14 @@ below_thrust_to_weight      full-throttle thrust / weight below the floor, at SO
 motor_out_thrust_short      that thrust-to-weight times the share left after the worst single motor failure
                             (:mod:`server.physics.motor_out`) below the mission's motor-out floor (when set)
 motor_over_current          full-throttle motor current (full pack, SOC 1) above the motor's rating
+winding_over_temperature    with temperature effects: the winding temperature at the cruise point or after the
+                            full-throttle burst above the motor's maximum, or thermal runaway (:mod:`.temperature`)
 esc_over_current            ESC continuous rating below esc_current_margin x that current
 pack_over_current           full-throttle pack current above pack_current_fraction x C x capacity x k
+cold_day_thrust_short       at the cold-day air temperature (when set): thrust-to-weight below the floor, or the
+                            bus collapses at full throttle (pack resistance and air density of that day)
+cold_day_endurance_short    at the cold-day air temperature: the screening endurance below the mission minimum,
+                            or the cruise thrust out of reach
 endurance_short             screening (or refined) endurance below the mission minimum
 ==========================  ==================================================================================
 
@@ -46,6 +52,7 @@ from server.physics._types import STANDARD_GRAVITY_M_S2
 from server.physics.drive_screen import Batch, Cruise, FullThrottle, cruise_point, full_throttle_points
 from server.physics.propeller_segments import PropModel
 
+from . import temperature
 from .library import MissionSpec
 
 REASON_TEXT: dict[str, str] = {
@@ -64,8 +71,11 @@ REASON_TEXT: dict[str, str] = {
     "below_thrust_to_weight": "thrust-to-weight below the mission's minimum",
     "motor_out_thrust_short": "thrust-to-weight with one motor out below the mission's minimum",
     "motor_over_current": "full-throttle current above the motor's rating",
+    "winding_over_temperature": "motor winding hotter than its maximum (cruise or after the full-throttle burst)",
     "esc_over_current": "ESC rating below the required margin",
     "pack_over_current": "pack current above the allowed share of its C rating",
+    "cold_day_thrust_short": "thrust-to-weight on the cold day below the mission's minimum (or the pack collapses)",
+    "cold_day_endurance_short": "endurance on the cold day below the mission's minimum",
     "endurance_short": "endurance below the mission's minimum",
 }
 """A plain-language line per rejection reason (pages, explain)."""
@@ -137,10 +147,59 @@ class Screen:
     specific_thrust_g_per_w: np.ndarray
     thrust_to_weight: np.ndarray
     endurance_min: np.ndarray
+    batch: Batch
+    """The batch the cruise point was solved on (pack and winding resistance at temperature, when asked)."""
+    heat: temperature.Heat | None = None
+    cold_day: ColdDay | None = None
+
+
+@dataclass(frozen=True)
+class ColdDay:
+    """The cold-day re-check (batch shape): thrust-to-weight at the low state of charge [-], whether the bus holds
+    at full throttle, screening endurance [min] (NaN where the cruise thrust is out of reach)."""
+
+    air_temperature_c: float
+    thrust_to_weight: np.ndarray
+    bus_holds: np.ndarray
+    endurance_min: np.ndarray
+
+
+def _metrics(batch: Batch, mission: MissionSpec, cruise: Cruise, low: FullThrottle,
+             mass: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Thrust-to-weight at the low state of charge [-] and the screening endurance [min]."""
+    n_r = float(mission.rotor_count)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tw = (n_r / STANDARD_GRAVITY_M_S2) * low.thrust_n / mass
+        # Screening endurance: usable capacity drained at the cruise pack current (common practice, no source).
+        endurance = (mission.usable_fraction * 60.0) * batch.capacity_ah / (n_r * cruise.bus_current_a)
+    return tw, endurance
+
+
+def _bus_ratio(batch: Batch, low: FullThrottle, full: FullThrottle) -> np.ndarray:
+    ratio: np.ndarray = np.minimum(low.bus_voltage_v / batch.voc_low_v, full.bus_voltage_v / batch.voc_full_v)
+    return ratio
+
+
+def cold_day(batch: Batch, model: PropModel, mission: MissionSpec) -> ColdDay:
+    """The system re-checked at the mission's cold-day air temperature (pack resistance, air density, and the
+    winding when the mission asks for temperature effects)."""
+    assert mission.cold_day_temperature_c is not None
+    air_c = float(mission.cold_day_temperature_c)
+    cold_model = temperature.at_density(model, temperature.cold_day_density_kg_m3(mission))
+    cruise_batch, full_batch, _ = temperature.at_temperature(batch, cold_model, mission, air_c,
+                                                             winding=mission.temperature_effects)
+    n_r = float(mission.rotor_count)
+    cruise = cruise_point(cruise_batch, cold_model, n_r, mission.thrust_per_rotor_n(batch.mass_kg))
+    low, full = full_throttle_points(full_batch, cold_model, n_r, (batch.voc_low_v, batch.voc_full_v))
+    tw, endurance = _metrics(cruise_batch, mission, cruise, low, batch.mass_kg)
+    with np.errstate(invalid="ignore"):
+        holds = np.asarray(_bus_ratio(batch, low, full) >= BUS_COLLAPSE_FRACTION)
+    return ColdDay(air_c, tw, holds, np.where(cruise.reachable, endurance, np.nan))
 
 
 def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: FullThrottle, full: FullThrottle,
-                     mass: np.ndarray, thrust_to_weight: np.ndarray, endurance_min: np.ndarray) -> list[Check]:
+                     mass: np.ndarray, thrust_to_weight: np.ndarray, endurance_min: np.ndarray,
+                     heat: temperature.Heat | None = None, cold: ColdDay | None = None) -> list[Check]:
     """The operating-point reasons of :data:`REASONS`, in order, as :class:`Check` objects."""
     n_r = float(mission.rotor_count)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -155,21 +214,29 @@ def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: Fu
             _at_most("prop_data_out_of_range", momentum, 1.0, "-"),
             Check("duty_out_of_band", cruise.duty, (mission.duty_min, mission.duty_max), "-", "band",
                   np.asarray((cruise.duty >= mission.duty_min) & (cruise.duty <= mission.duty_max))),
-            _at_least("bus_collapse", np.minimum(low.bus_voltage_v / batch.voc_low_v,
-                                                 full.bus_voltage_v / batch.voc_full_v), BUS_COLLAPSE_FRACTION, "-"),
+            _at_least("bus_collapse", _bus_ratio(batch, low, full), BUS_COLLAPSE_FRACTION, "-"),
             _at_least("below_thrust_to_weight", thrust_to_weight, mission.min_thrust_to_weight, "-"),
         ]
         if mission.min_thrust_to_weight_motor_out is not None:
             left = motor_out.worst_thrust_fraction(mission.rotor_count)
             checks.append(_at_least("motor_out_thrust_short", left * thrust_to_weight,
                                     mission.min_thrust_to_weight_motor_out, "-"))
+        checks.append(_at_most("motor_over_current", full.motor_current_a, batch.motor_rating_a, "A"))
+        if heat is not None:
+            checks.append(_at_most("winding_over_temperature", heat.peak_winding_c, batch.max_winding_temperature_c,
+                                   "°C"))
         checks += [
-            _at_most("motor_over_current", full.motor_current_a, batch.motor_rating_a, "A"),
             # The ESC must carry the margin times the full-throttle current: the current it needs is compared.
             _at_most("esc_over_current", mission.esc_current_margin * full.motor_current_a, batch.esc_rating_a, "A"),
             _at_most("pack_over_current", n_r * full.motor_current_a, batch.pack_limit_a, "A"),
-            _at_least("endurance_short", endurance_min, mission.min_endurance_min, "min"),
         ]
+        if cold is not None:
+            checks += [
+                Check("cold_day_thrust_short", cold.thrust_to_weight, mission.min_thrust_to_weight, "-", "min",
+                      np.asarray((cold.thrust_to_weight >= mission.min_thrust_to_weight) & cold.bus_holds)),
+                _at_least("cold_day_endurance_short", cold.endurance_min, mission.min_endurance_min, "min"),
+            ]
+        checks.append(_at_least("endurance_short", endurance_min, mission.min_endurance_min, "min"))
     return checks
 
 
@@ -185,8 +252,13 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
         specific thrust [g/W], thrust-to-weight at SOC 1 - usable_fraction [-], screening endurance [min].
     """
     n_r = float(mission.rotor_count)
+    cold = cold_day(batch, model, mission) if mission.cold_day_temperature_c is not None else None
+    heat = None
+    full_batch = batch
+    if mission.temperature_effects:
+        batch, full_batch, heat = temperature.at_temperature(batch, model, mission, mission.air_temperature_c)
     cruise = cruise_point(batch, model, n_r, mission.thrust_per_rotor_n(batch.mass_kg))
-    low, full = full_throttle_points(batch, model, n_r, (batch.voc_low_v, batch.voc_full_v))
+    low, full = full_throttle_points(full_batch, model, n_r, (batch.voc_low_v, batch.voc_full_v))
     shape = np.broadcast_shapes(batch.shape, cruise.duty.shape)
     mass = np.broadcast_to(batch.mass_kg, shape)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -194,10 +266,8 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
         power = n_r * per_rotor_power
         pack_current = n_r * cruise.bus_current_a
         specific = (1000.0 / STANDARD_GRAVITY_M_S2) * cruise.thrust_n / per_rotor_power
-        tw = (n_r / STANDARD_GRAVITY_M_S2) * low.thrust_n / mass
-        # Screening endurance: usable capacity drained at the cruise pack current (common practice, no source).
-        endurance = (mission.usable_fraction * 60.0) * batch.capacity_ah / pack_current
-    checks = operating_checks(batch, mission, cruise, low, full, mass, tw, endurance)
+    tw, endurance = _metrics(batch, mission, cruise, low, mass)
+    checks = operating_checks(batch, mission, cruise, low, full, mass, tw, endurance, heat, cold)
     code = np.zeros(shape, dtype=np.uint8)
     violations = np.zeros(len(REASONS), dtype=np.int64)
     # Later reasons first, so that the earliest failing reason is the one left in ``code``.
@@ -208,4 +278,4 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
             violations[CODE[check.reason] - 1] = np.count_nonzero(bad)
     return Screen(code=code, violations=violations, checks=tuple(checks), mass_kg=mass, cruise=cruise, low=low,
                   full=full, electrical_power_w=power, pack_current_a=pack_current, specific_thrust_g_per_w=specific,
-                  thrust_to_weight=tw, endurance_min=endurance)
+                  thrust_to_weight=tw, endurance_min=endurance, batch=batch, heat=heat, cold_day=cold)

@@ -217,6 +217,9 @@ def batch_for(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: 
         no_load_current_a=mo.no_load_current_a[motor],
         inductance_h=mo.inductance_h[motor],
         motor_rating_a=mo.max_current_a[motor],
+        thermal_resistance_k_per_w=mo.thermal_resistance_k_per_w[motor],  # type: ignore[index]  # set in init
+        thermal_time_constant_s=mo.thermal_time_constant_s[motor],  # type: ignore[index]
+        max_winding_temperature_c=mo.max_winding_temperature_c[motor],  # type: ignore[index]
         q=np.asarray(prop, dtype=np.intp),
         mass_kg=mass,
     )

@@ -24,8 +24,10 @@ import numpy as np
 import numpy.typing as npt
 
 from server.physics import atmosphere, sizing
+from server.physics._types import CELSIUS_TO_KELVIN_K
 from server.physics.esc import EscConstants, EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H
+from server.physics.priors import thermal_defaults
 from server.physics.propeller import PropellerTable
 from server.physics.propeller_segments import PropModel
 
@@ -36,6 +38,8 @@ MissionKind = Literal["hover", "cruise"]
 PROP_APPLICATIONS = ("multirotor", "fixed_wing", "any")
 """What a propeller is made for; a multirotor propeller hovers, a fixed-wing one cruises, ``any`` does both."""
 INCH_M = 0.0254
+THERMAL_FIELDS = ("thermal_resistance_k_per_w", "thermal_time_constant_s", "max_winding_temperature_c")
+"""The motor's heat-model fields (:class:`MotorLibrary`)."""
 
 
 def _float(a: object) -> np.ndarray:
@@ -226,6 +230,10 @@ class MotorLibrary:
         Highest pack cell count allowed (``inf`` = none stated). [-]
     mass_kg, cost : array_like
         Mass [kg]; unit cost [currency].
+    thermal_resistance_k_per_w, thermal_time_constant_s, max_winding_temperature_c : array_like, optional
+        Winding-to-air thermal resistance [K/W], thermal time constant [s], highest allowed winding temperature
+        [°C]; NaN or omitted: the priors of :func:`server.physics.priors.thermal_defaults` (used only by
+        missions with ``temperature_effects``).
     """
 
     ids: np.ndarray
@@ -238,12 +246,22 @@ class MotorLibrary:
     mass_kg: np.ndarray
     cost: np.ndarray
     assumed: np.ndarray | None = None  # as PackLibrary.assumed
+    thermal_resistance_k_per_w: np.ndarray | None = None
+    thermal_time_constant_s: np.ndarray | None = None
+    max_winding_temperature_c: np.ndarray | None = None
 
     def __post_init__(self) -> None:
-        _rows(self, "kv_rpm_per_v")
+        n = _rows(self, "kv_rpm_per_v")
         filled = np.where(np.isnan(self.inductance_h), DEFAULT_INDUCTANCE_H, self.inductance_h)
         filled.setflags(write=False)
         object.__setattr__(self, "inductance_h", filled)
+        thermal = [np.full(n, np.nan) if getattr(self, name) is None else _float(getattr(self, name))
+                   for name in THERMAL_FIELDS]
+        for name, values in zip(THERMAL_FIELDS, thermal_defaults(self.mass_kg, *thermal), strict=True):
+            if values.shape != (n,):
+                raise ValueError(f"MotorLibrary.{name} has {values.shape[0]} rows, expected {n}")
+            values.setflags(write=False)
+            object.__setattr__(self, name, values)
 
     def __len__(self) -> int:
         return int(self.kv_rpm_per_v.shape[0])
@@ -366,6 +384,14 @@ class MissionSpec:
     max_all_up_mass_kg: float | None = None
     min_thrust_to_weight_motor_out: float | None = None
     """Thrust-to-weight floor with the worst single motor out (:mod:`server.physics.motor_out`); None: unchecked."""
+    temperature_effects: bool = False
+    """Heat and cold at the mission's air temperature (:mod:`.temperature`): winding resistance at the winding
+    temperature, pack resistance at the air temperature, the winding limit. False: every part at the temperature
+    its values are stated at (reference model v1)."""
+    burst_s: float = 0.0
+    """Length of a full-throttle burst from the cruise winding temperature (with ``temperature_effects``). [s]"""
+    cold_day_temperature_c: float | None = None
+    """A second, colder air temperature at which thrust-to-weight and endurance are re-checked; None: no check."""
 
     def __post_init__(self) -> None:
         if self.kind not in ("hover", "cruise"):
@@ -378,6 +404,13 @@ class MissionSpec:
             raise ValueError("usable_fraction must be in (0, 1] and cruise_state_of_charge in [0, 1]")
         if not np.isfinite(self.frame_mass_kg + self.payload_kg):
             raise ValueError("frame and payload mass must be finite")
+        if not (np.isfinite(self.burst_s) and self.burst_s >= 0.0):
+            raise ValueError("burst_s must be a finite number of seconds, 0 or more")
+
+    @property
+    def air_temperature_c(self) -> float:
+        """Air temperature of the mission: ISA at its altitude plus the offset. [°C]"""
+        return float(atmosphere.air_temperature_k(self.altitude_m, self.temperature_offset_c)) - CELSIUS_TO_KELVIN_K
 
     @property
     def density_kg_m3(self) -> float:

@@ -20,14 +20,15 @@ from dataclasses import fields, replace
 
 import numpy as np
 
-from server.physics import endurance, fast
+from server.physics import endurance, fast, thermal
 from server.physics._types import as_float_array
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
-from server.physics.drive_screen import cruise_point
+from server.physics.drive_screen import Batch, cruise_point
 from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
 from server.physics.propeller_segments import PropModel
 
+from . import temperature
 from .enumerate import batch_for
 from .library import MissionSpec, PartsLibrary
 from .result import CandidateSet
@@ -38,8 +39,11 @@ STOP_REASONS = {int(r): r.name.lower() for r in endurance.StopReason}
 def _pack(library: PartsLibrary, mission: MissionSpec, cs: CandidateSet) -> PackParams:
     pk = library.packs
     k = cs.k.astype(np.float64)
+    cell_resistance = pk.cell_resistance_ohm[cs.pack]
+    if mission.temperature_effects:  # the pack at the air temperature (docs/model-reference.md#cold)
+        cell_resistance = cell_resistance * thermal.cell_resistance_factor(mission.air_temperature_c)
     return PackParams(cells_series=pk.cells_series[cs.pack], capacity_ah=pk.capacity_ah[cs.pack] * k,
-                      cell_resistance_ohm=pk.cell_resistance_ohm[cs.pack],
+                      cell_resistance_ohm=cell_resistance,
                       cells_parallel=pk.cells_parallel[cs.pack] * k,
                       full_voltage_per_cell_v=pk.full_voltage_per_cell_v[cs.pack],
                       usable_fraction=as_float_array(mission.usable_fraction),
@@ -62,6 +66,16 @@ def refine(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: Ca
     return minutes, [STOP_REASONS.get(int(r), "unknown") for r in np.asarray(reason)]
 
 
+def _cruise_batch(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: CandidateSet) -> Batch:
+    """The candidates' batch with the winding (and pack) resistance of the cruise point at temperature, when the
+    mission asks for temperature effects (the cruise current, so its winding temperature, does not change with the
+    state of charge)."""
+    flat = batch_for(library, mission, *cs.indices())
+    if mission.temperature_effects:
+        flat = temperature.at_temperature(flat, model, mission, mission.air_temperature_c)[0]
+    return flat
+
+
 def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: CandidateSet,
           soc_step: float = endurance.DEFAULT_SOC_STEP) -> tuple[np.ndarray, np.ndarray]:
     """Every node of every candidate in one screening call, then the physics engine's march."""
@@ -70,7 +84,7 @@ def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: Can
     nodes = fast.constant_thrust_nodes(1.0, pack, (n,), soc_step)
     full_v = library.packs.full_voltage_per_cell_v[cs.pack]
     voc = pack.cells_series[:, np.newaxis] * open_circuit_voltage_per_cell_v(nodes, full_v[:, np.newaxis])
-    flat = batch_for(library, mission, *cs.indices())
+    flat = _cruise_batch(library, mission, model, cs)
     batch = replace(flat, **{f.name: np.asarray(getattr(flat, f.name))[:, np.newaxis] for f in fields(flat)})
     batch = replace(batch, voc_cruise_v=voc)
     cruise = cruise_point(batch, model, float(mission.rotor_count), mission.thrust_per_rotor_n(batch.mass_kg))
@@ -87,7 +101,8 @@ def _reference(library: PartsLibrary, mission: MissionSpec, model: PropModel,
     """:func:`server.physics.endurance.constant_thrust` (root finding at every node)."""
     mo = library.motors
     pack = _pack(library, mission, cs)
-    motor = MotorParams(mo.kv_rpm_per_v[cs.motor], mo.resistance_ohm[cs.motor], mo.no_load_current_a[cs.motor],
+    resistance = np.broadcast_to(_cruise_batch(library, mission, model, cs).motor_resistance_ohm, (len(cs),))
+    motor = MotorParams(mo.kv_rpm_per_v[cs.motor], resistance, mo.no_load_current_a[cs.motor],
                         inductance_h=mo.inductance_h[cs.motor], max_current_a=mo.max_current_a[cs.motor])
     esc: EscParams = library.escs.params(cs.esc)
     thrust = mission.thrust_per_rotor_n(cs.mass_kg)

@@ -98,7 +98,7 @@ class CandidateRow:
     packs_in_parallel: int
     all_up_mass_g: float
     cruise: dict[str, Any]
-    full_throttle: dict[str, float]
+    full_throttle: dict[str, float | None]
     endurance_min: float
     endurance_stop_reason: str
     endurance_refined: bool

@@ -22,6 +22,12 @@ def _f(a: np.ndarray, i: int) -> float:
     return float(a[i])
 
 
+def _temperature(a: np.ndarray, i: int) -> float | None:
+    """A winding temperature, None for runaway (NaN)."""
+    value = float(a[i])
+    return value if math.isfinite(value) else None
+
+
 def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: CandidateSet,
                stop_reasons: Sequence[str] | None = None, refined: np.ndarray | None = None,
                screening_endurance: np.ndarray | None = None) -> list[CandidateRow]:
@@ -33,8 +39,8 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
     n = len(cs)
     if n == 0:
         return []
-    batch = batch_for(library, mission, *cs.indices())
-    sc = screen(batch, model, mission, all_violations=False)
+    sc = screen(batch_for(library, mission, *cs.indices()), model, mission, all_violations=False)
+    batch = sc.batch  # pack and winding resistance at temperature, when the mission asks for it
     cr, full, low = sc.cruise, sc.full, sc.low
     n_r = float(mission.rotor_count)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -52,12 +58,20 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
         pack_limit = np.broadcast_to(batch.pack_limit_a, (n,))
     pk = library.packs
     rows = []
+    heat = sc.heat
     for i in range(n):
         p, k = int(cs.pack[i]), int(cs.k[i])
         cost = float(cs.cost[i])
         cells = float(pk.cells_series[p])
         nominal = cells * float(nominal_voltage_per_cell_v(pk.full_voltage_per_cell_v[p]))
         i_full = _f(full.motor_current_a, i)
+        full_row: dict[str, float | None] = {
+            "thrust_to_weight": _f(sc.thrust_to_weight, i), "thrust_n": _f(low.thrust_n, i),
+            "motor_current_a": i_full, "bus_current_a": n_r * i_full,
+            "bus_voltage_v": _f(full.bus_voltage_v, i), "rpm": _f(full.omega_rad_s, i) * 60.0 / (2.0 * math.pi),
+        }
+        if heat is not None:
+            full_row["winding_temperature_c"] = _temperature(heat.burst_winding_c, i)
         rows.append(CandidateRow(
             rank=i + 1,
             battery_id=pk.ids[p].item(), esc_id=library.escs.ids[cs.esc[i]].item(),
@@ -73,12 +87,8 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
                 "shaft_power_w": _f(shaft, i), "state_of_charge": float(mission.cruise_state_of_charge),
                 "losses": {name: _f(value, i) for name, value in losses.items()} | {
                     "pack_w": _f(pack_loss, i)},
-            },
-            full_throttle={
-                "thrust_to_weight": _f(sc.thrust_to_weight, i), "thrust_n": _f(low.thrust_n, i),
-                "motor_current_a": i_full, "bus_current_a": n_r * i_full,
-                "bus_voltage_v": _f(full.bus_voltage_v, i), "rpm": _f(full.omega_rad_s, i) * 60.0 / (2.0 * math.pi),
-            },
+            } | ({} if heat is None else {"winding_temperature_c": _temperature(heat.cruise_winding_c, i)}),
+            full_throttle=full_row,
             endurance_min=float(cs.endurance_min[i]),
             endurance_stop_reason=stop_reasons[i] if stop_reasons is not None else "estimate",
             endurance_refined=bool(refined[i]) if refined is not None else False,

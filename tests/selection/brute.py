@@ -13,8 +13,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.integrate import solve_ivp
 
-from server.physics import drive, endurance, sizing
+from server.physics import atmosphere, drive, endurance, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.esc import EscParams
@@ -63,6 +64,86 @@ def _table_physical(x: np.ndarray, ct: np.ndarray, cp: np.ndarray, *, forward: b
         elif math.sqrt(2.0 / math.pi) * cti**1.5 / cpi > 1.0:
             return False
     return True
+
+
+COPPER_PER_K = 0.00393  # IACS annealed copper at 20 °C (K. C. Agrawal, Industrial Power Engineering Handbook)
+ELECTROLYTE_EA_J_PER_MOL = 17_100.0  # Ecker et al., J. Electrochem. Soc. 162(9) A1836, 2015
+GAS_J_PER_MOL_K = 8.314462618
+
+
+def _pack_factor(air_c: float) -> float:
+    """Cell resistance at air_c over its 25 °C value (Arrhenius, written out here)."""
+    return math.exp(ELECTROLYTE_EA_J_PER_MOL / GAS_J_PER_MOL_K * (1.0 / (air_c + 273.15) - 1.0 / 298.15))
+
+
+def _hot(motor: MotorParams, temperature_c: float) -> MotorParams:
+    r20 = float(motor.resistance_ohm)
+    return MotorParams(float(motor.kv_rpm_per_v), r20 * (1.0 + COPPER_PER_K * (temperature_c - 20.0)),
+                       float(motor.no_load_current_a), inductance_h=float(motor.inductance_h),
+                       max_current_a=float(motor.max_current_a))
+
+
+def _heated(common: dict, mission: MissionSpec, air_c: float, thrust: float, voc: object,
+            limits: tuple[float, float, float]) -> tuple[dict, dict, tuple[float, float]]:
+    """Cruise and full-throttle solver arguments at temperature, and the (cruise, after-burst) winding temperatures.
+
+    Independent of the engine's closed forms: the cruise temperature by plain fixed-point iteration of
+    T = T_air + R_th P(T), the burst by integrating C dT/dt = P(T) - (T - T_air)/R_th numerically (scipy).
+    """
+    r_th, tau, t_max = limits
+    cold = dict(common, pack_resistance_ohm=common["pack_resistance_ohm"] * _pack_factor(air_c))
+    motor = cold["motor"]
+    r20 = float(motor.resistance_ohm)
+    op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **cold)  # type: ignore[operator]
+    i, p0 = float(op.motor_current_a[0]), float(op.motor_no_load_loss_w[0])
+    t = air_c
+    for _ in range(2000):
+        t_next = air_c + r_th * (i * i * r20 * (1.0 + COPPER_PER_K * (t - 20.0)) + p0)
+        if not math.isfinite(t_next) or t_next > 1e4:
+            t = math.nan
+            break
+        if abs(t_next - t) < 1e-12:
+            t = t_next
+            break
+        t = t_next
+    usable = t if math.isfinite(t) else t_max
+    cruise = dict(cold, motor=_hot(motor, usable))
+    end = t
+    if mission.burst_s > 0.0 and math.isfinite(t):
+        ft = drive.full_throttle(open_circuit_voltage_v=voc(1.0), **cruise)  # type: ignore[operator]
+        i_f, p0_f = float(ft.motor_current_a[0]), float(ft.motor_no_load_loss_w[0])
+        heat_capacity = tau / r_th
+
+        def rate(_: float, y: np.ndarray) -> np.ndarray:
+            loss = i_f * i_f * r20 * (1.0 + COPPER_PER_K * (y[0] - 20.0)) + p0_f
+            return np.array([(loss - (y[0] - air_c) / r_th) / heat_capacity])
+
+        end = float(solve_ivp(rate, (0.0, mission.burst_s), [t], rtol=1e-11, atol=1e-9).y[0, -1])
+    full = dict(cold, motor=_hot(motor, end if math.isfinite(end) else t_max)) if mission.burst_s > 0 else cruise
+    return cruise, full, (t, end)
+
+
+def _cold_day(common: dict, mission: MissionSpec, thrust: float, voc: object, mass: float, capacity_ah: float,
+              limits: tuple[float, float, float]) -> tuple[bool, bool]:
+    """(thrust-to-weight and bus hold, endurance holds) at the mission's cold-day air temperature."""
+    air_c = float(mission.cold_day_temperature_c)  # type: ignore[arg-type]
+    isa_c = float(atmosphere.standard_temperature_k(mission.altitude_m)) - 273.15
+    rho = float(atmosphere.air_density_kg_m3(mission.altitude_m, air_c - isa_c))
+    common = dict(common, density_kg_m3=rho)
+    if mission.temperature_effects:
+        cruise, full_args, _ = _heated(common, mission, air_c, thrust, voc, limits)
+    else:
+        cruise = full_args = dict(common, pack_resistance_ohm=common["pack_resistance_ohm"] * _pack_factor(air_c))
+    op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **cruise)  # type: ignore[operator]
+    low_voc, full_voc = voc(1.0 - mission.usable_fraction), voc(1.0)  # type: ignore[operator]
+    low = drive.full_throttle(open_circuit_voltage_v=low_voc, **full_args)
+    full = drive.full_throttle(open_circuit_voltage_v=full_voc, **full_args)
+    n_r = float(mission.rotor_count)
+    tw = n_r * float(low.thrust_n[0]) / (mass * G0)
+    holds = float(low.bus_voltage_v[0]) >= 0.5 * low_voc and float(full.bus_voltage_v[0]) >= 0.5 * full_voc
+    reachable = int(op.status[0]) in (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR)
+    minutes = mission.usable_fraction * capacity_ah * 60.0 / float(op.pack_current_a[0]) if reachable else math.nan
+    return tw >= mission.min_thrust_to_weight and holds, minutes >= mission.min_endurance_min
 
 
 def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int], list[Record]]:
@@ -121,12 +202,24 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
         def voc(soc: float, p: int = p, cells: float = cells) -> float:
             return cells * float(open_circuit_voltage_per_cell_v(soc, float(pk.full_voltage_per_cell_v[p])))
 
-        common = {"motor": motor, "esc": esc, "propeller": prop,
-                  "pack_resistance_ohm": cells * float(pk.cell_resistance_ohm[p]) / (float(pk.cells_parallel[p]) * k),
+        pack_r = cells * float(pk.cell_resistance_ohm[p]) / (float(pk.cells_parallel[p]) * k)
+        common = {"motor": motor, "esc": esc, "propeller": prop, "pack_resistance_ohm": pack_r,
                   "rotor_count": n_r, "density_kg_m3": rho, "airspeed_m_s": speed}
+        thermal_limits = (float(mo.thermal_resistance_k_per_w[m]), float(mo.thermal_time_constant_s[m]),
+                          float(mo.max_winding_temperature_c[m]))
+        winding = None
+        if mission.temperature_effects:
+            common, full_common, winding = _heated(common, mission, mission.air_temperature_c, thrust, voc,
+                                                   thermal_limits)
+        else:
+            full_common = common
         op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **common)
-        low = drive.full_throttle(open_circuit_voltage_v=voc(1.0 - mission.usable_fraction), **common)
-        full = drive.full_throttle(open_circuit_voltage_v=voc(1.0), **common)
+        low = drive.full_throttle(open_circuit_voltage_v=voc(1.0 - mission.usable_fraction), **full_common)
+        full = drive.full_throttle(open_circuit_voltage_v=voc(1.0), **full_common)
+        cold_ok = cold_endurance_ok = True
+        if mission.cold_day_temperature_c is not None:
+            cold_ok, cold_endurance_ok = _cold_day(dict(common, motor=motor, pack_resistance_ohm=pack_r), mission,
+                                                   thrust, voc, mass, float(pk.capacity_ah[p]) * k, thermal_limits)
         tw = n_r * float(low.thrust_n[0]) / (mass * G0)
         i_full = float(full.motor_current_a[0])
         capacity = float(pk.capacity_ah[p]) * k
@@ -146,9 +239,12 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             ("motor_out_thrust_short", mission.min_thrust_to_weight_motor_out is not None and not (
                 MOTOR_OUT_SHARE[int(mission.rotor_count)] * tw >= mission.min_thrust_to_weight_motor_out)),
             ("motor_over_current", not i_full <= float(mo.max_current_a[m])),
+            ("winding_over_temperature", winding is not None and not max(winding) <= thermal_limits[2]),
             ("esc_over_current", not float(es.continuous_current_a[e]) >= mission.esc_current_margin * i_full),
             ("pack_over_current", not n_r * i_full <= mission.pack_current_fraction * float(
                 pk.max_continuous_c[p]) * capacity),
+            ("cold_day_thrust_short", not cold_ok),
+            ("cold_day_endurance_short", not cold_endurance_ok),
             ("endurance_short", not screening_endurance >= mission.min_endurance_min),
         ]
         reason = next((name for name, bad in checks if bad), None)
@@ -164,7 +260,8 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             "bus_current_a": pack_current, "drive_efficiency": float(op.drive_efficiency[0]),
             "thrust_n": float(op.thrust_n[0]), "full_motor_current_a": i_full,
             "full_thrust_n": float(low.thrust_n[0]), "extra_loss_w": float(op.extra_loss_w[0]),
-            "cruise_thrust_n": thrust}, tie=tuple(  # type: ignore[arg-type]
+            "cruise_thrust_n": thrust,
+            "cruise_winding_resistance_ohm": float(common["motor"].resistance_ohm)}, tie=tuple(  # type: ignore[arg-type]
                 0.0 if lib.assumed is None else float(lib.assumed[i])
                 for lib, i in ((pk, p), (es, e), (mo, m), (pr, q)))))
     return counts, feasible
@@ -179,12 +276,15 @@ def refine(library: PartsLibrary, mission: MissionSpec, records: list[Record]) -
     kf = k.astype(float)
     table = pr.forward if mission.kind == "cruise" else pr.static
     assert table is not None
+    resistance = np.array([r.metrics["cruise_winding_resistance_ohm"] for r in records])
+    cell_r = pk.cell_resistance_ohm[p] * (_pack_factor(mission.air_temperature_c) if mission.temperature_effects
+                                          else 1.0)
     result = endurance.constant_thrust(
         np.array([r.metrics["cruise_thrust_n"] for r in records]),
-        pack=PackParams(pk.cells_series[p], pk.capacity_ah[p] * kf, pk.cell_resistance_ohm[p],
+        pack=PackParams(pk.cells_series[p], pk.capacity_ah[p] * kf, cell_r,
                         cells_parallel=pk.cells_parallel[p] * kf, full_voltage_per_cell_v=pk.full_voltage_per_cell_v[p],
                         usable_fraction=mission.usable_fraction, cutoff_voltage_per_cell_v=mission.cutoff_v_per_cell),
-        motor=MotorParams(mo.kv_rpm_per_v[m], mo.resistance_ohm[m], mo.no_load_current_a[m],
+        motor=MotorParams(mo.kv_rpm_per_v[m], resistance, mo.no_load_current_a[m],
                           inductance_h=np.where(np.isnan(mo.inductance_h[m]), 30e-6, mo.inductance_h[m]),
                           max_current_a=mo.max_current_a[m]),
         esc=es.params(e), propeller=table.take(q), rotor_count=float(mission.rotor_count),

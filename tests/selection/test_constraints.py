@@ -77,8 +77,15 @@ CASES = {
     # a quad keeps no trimmed hover with a motor out (share 0): any motor-out floor rejects it
     "motor_out_thrust_short": ({}, {"min_thrust_to_weight_motor_out": 0.5}),
     "motor_over_current": ({"motor": {"max_current_a": [12.0]}}, {}),
+    # a 30 s full-throttle burst heats the winding to about 76 °C (thermal priors): above a 60 °C maximum
+    "winding_over_temperature": ({"motor": {"max_winding_temperature_c": [60.0]}},
+                                 {"temperature_effects": True, "burst_s": 30.0}),
     "esc_over_current": ({"esc": {"continuous_current_a": [16.0]}}, {}),
     "pack_over_current": ({"pack": {"max_continuous_c": [4.0]}}, {}),
+    # at -20 °C the cell resistance is x 3.4 and T/W falls from 2.87 to 2.02: below a 2.1 floor
+    "cold_day_thrust_short": ({}, {"cold_day_temperature_c": -20.0, "min_thrust_to_weight": 2.1}),
+    # the screening endurance falls from 16.25 to 16.18 min on a -20 °C day: below a 16.2 min floor
+    "cold_day_endurance_short": ({}, {"cold_day_temperature_c": -20.0, "min_endurance_min": 16.2}),
     "endurance_short": ({}, {"min_endurance_min": 120.0}),
 }
 

@@ -18,6 +18,11 @@ MISSIONS = {
     "cruise": parts.cruise_mission(duty_max=0.99, min_thrust_to_weight=0.25),
     # A hexa that must hold T/W 1.4 with its worst motor out: some pass T/W 1.8 intact and fail this one.
     "hexa_motor_out": parts.hover_mission(rotor_count=6, frame_mass_kg=1.3, min_thrust_to_weight_motor_out=1.4),
+    # A hot day (ISA + 30 at 500 m, 41.75 °C) with a 30 s full-throttle burst: hot windings and packs, the winding
+    # limit (priors: 100 °C, R_th = 0.1 K kg/W / mass) rejects some.
+    "hot_burst": parts.hover_mission(temperature_effects=True, temperature_offset_c=30.0, burst_s=30.0),
+    # A cold-day re-check at -15 °C (pack resistance x 2.6, denser air) on the plain hover mission.
+    "cold_day": parts.hover_mission(cold_day_temperature_c=-15.0, min_thrust_to_weight=1.6),
 }
 
 
@@ -41,7 +46,7 @@ def _brute_key(record: brute.Record) -> tuple[object, ...]:
 
 
 @pytest.mark.parametrize("objective", ["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
-@pytest.mark.parametrize("kind", ["hover", "cruise", "hexa_motor_out"])
+@pytest.mark.parametrize("kind", ["hover", "cruise", "hexa_motor_out", "hot_burst", "cold_day"])
 def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objective: str) -> None:
     mission: MissionSpec = MISSIONS[kind]
     counts, feasible = reference[kind]
@@ -73,6 +78,10 @@ def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objecti
     assert rejected == counts
     if mission.min_thrust_to_weight_motor_out is not None:
         assert counts.get("motor_out_thrust_short", 0) > 0  # the limit bites on this library
+    if mission.temperature_effects:
+        assert counts.get("winding_over_temperature", 0) > 0
+    if mission.cold_day_temperature_c is not None:
+        assert counts.get("cold_day_thrust_short", 0) > 0
     assert out.feasible == len(feasible)
     assert out.feasible + sum(out.rejected.values()) == out.combinations
     assert set(out.rejected) == set(REASONS)
