@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from sqlalchemy import Float, ForeignKey, Integer, String, Text
+from sqlalchemy import Boolean, Float, ForeignKey, Integer, String, Text, false
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.db import Base
@@ -19,6 +19,11 @@ class Airframe(TeamOwned, Timestamped, Versioned, Base):
     frame_mass_g: Mapped[float] = mapped_column(Float)
     max_prop_diameter_in: Mapped[float | None] = mapped_column(Float, nullable=True)
     max_packs_in_parallel: Mapped[int] = mapped_column(Integer, default=1)
+    drag_area_m2: Mapped[float | None] = mapped_column(Float, nullable=True)
+    """Airframe drag area C_D A for multirotor forward flight and climb; None: not stated (no drag counted)."""
+    frontal_area_note: Mapped[str] = mapped_column(Text, default="", server_default="")
+    coaxial: Mapped[bool] = mapped_column(Boolean, default=False, server_default=false())
+    """Rotors stacked in coaxial pairs (rotor_count counts both rotors of every pair)."""
     notes: Mapped[str] = mapped_column(Text, default="")
 
     missions: Mapped[list[Mission]] = relationship(back_populates="airframe", passive_deletes=True)
@@ -31,7 +36,7 @@ class Mission(TeamOwned, Timestamped, Versioned, Base):
 
     name: Mapped[str] = mapped_column(String(120))
     airframe_id: Mapped[int] = mapped_column(ForeignKey("airframe.id", ondelete="RESTRICT"), index=True)
-    kind: Mapped[str] = mapped_column(String(8))
+    kind: Mapped[str] = mapped_column(String(16))
     payload_mass_g: Mapped[float] = mapped_column(Float, default=0.0)
     altitude_m: Mapped[float] = mapped_column(Float, default=0.0)
     temperature_offset_c: Mapped[float] = mapped_column(Float, default=0.0)
@@ -48,6 +53,8 @@ class Mission(TeamOwned, Timestamped, Versioned, Base):
     cruise_state_of_charge: Mapped[float] = mapped_column(Float, default=0.5)
     max_all_up_mass_g: Mapped[float | None] = mapped_column(Float, nullable=True)
     min_thrust_to_weight_motor_out: Mapped[float | None] = mapped_column(Float, nullable=True)
+    climb_rate_m_s: Mapped[float] = mapped_column(Float, default=0.0, server_default="0")
+    """Climb rate at the cruise point of a multirotor mission (negative: descent). [m/s]"""
     notes: Mapped[str] = mapped_column(Text, default="")
 
     airframe: Mapped[Airframe] = relationship(back_populates="missions")

@@ -57,8 +57,11 @@ LABELS = {
     "pack_current_fraction": "Allowed share of the pack's C rating",
     "cruise_state_of_charge": "State of charge at the hover/cruise point", "max_all_up_mass_g": "Largest all-up mass",
     "payload_mass_g": "Payload", "application": "Made for", "frame_mass_g": "Frame mass", "mass_g": "Mass",
+    "drag_area_m2": "Drag area C_D·A", "frontal_area_note": "Frontal area (note)", "coaxial": "Coaxial pairs",
+    "climb_rate_m_s": "Climb rate at the hover/cruise point",
 }
-CHOICE_LABELS = {"hover": "hover", "cruise": "cruise (wing-borne)",
+CHOICE_LABELS = {"hover": "hover", "cruise": "cruise (wing-borne)", "forward_flight": "forward flight (multirotor)",
+                 "false": "no", "true": "yes",
                  "lipo": "LiPo", "lihv": "LiHV", "liion": "Li-ion", "multirotor": "multirotor (hover)",
                  "fixed_wing": "fixed-wing (cruise)", "any": "any (hover and cruise)"}
 
@@ -114,6 +117,8 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
         if typing.get_origin(base) is typing.Annotated:  # ranged(...) | None: look inside the Annotated
             base = typing.get_args(base)[0]
         literal_args = typing.get_args(base) if typing.get_origin(base) is Literal else ()
+        if base is bool:  # a yes/no choice, sent as "true"/"false" (what the schema parses)
+            literal_args = ("false", "true")
         if name in TABLE_COLUMNS:
             widget: Any = "table"
         elif literal_args:
@@ -136,7 +141,8 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
                 step="1" if base is int else "any",
                 choices=tuple(str(a) for a in literal_args),
                 help=help_text,
-                default=None if info.is_required() else info.default,
+                default=None if info.is_required() else (
+                    str(info.default).lower() if isinstance(info.default, bool) else info.default),
             )
         )
     return out
@@ -195,6 +201,8 @@ def values_of(obj: Any, fields: list[FormField]) -> dict[str, str]:
             out[field.name] = table_to_text(value, TABLE_COLUMNS[field.name])
         elif value is None:
             out[field.name] = ""
+        elif isinstance(value, bool):
+            out[field.name] = "true" if value else "false"
         elif isinstance(value, float):
             out[field.name] = f"{value:g}"
         else:

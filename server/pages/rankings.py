@@ -106,11 +106,11 @@ def _ranking_context(request: Request, session: Any, caller: Caller, ranking_id:
     filters = _filters(q)
     if sort.lstrip("-") not in rankings_service.SORT_COLUMNS:
         sort = "rank"
-    point = "cruise" if ranking.inputs["mission"]["kind"] == "cruise" else "hover"
+    point = rankings_service.point_word(ranking.inputs["mission"]["kind"])
     ctx: dict[str, Any] = {"caller": caller, "nav": "rankings", "ranking": status, "sort": sort, "q": q,
                            "filters": filters, "sorts": SORTS,
                            "objectives": OBJECTIVE_LABELS | {"cruise_power": f"lowest {point} power"},
-                           "reason_labels": rankings_service.reason_text(point),
+                           "reason_labels": rankings_service.reason_text(ranking.inputs["mission"]["kind"]),
                            "rows": [], "total": 0, "pareto": [], "shortlists": [],
                            "page": page, "page_size": 50, "cautions": [], "currencies": [],
                            "point_label": point.capitalize(), "grouping": {"count": 0}, "assumptions": {"rows": 0},

@@ -15,6 +15,7 @@ from server.schemas.parts import KIND_WORDS
 from server.schemas.shortlists import EntryCreate, ShortlistCreate
 from server.services import missions as missions_service
 from server.services import parts as parts_service
+from server.services import rankings as rankings_service
 from server.services import shortlist_compare
 from server.services import shortlists as shortlists_service
 
@@ -70,7 +71,7 @@ def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: 
     }
     options = {kind: parts_service.list_parts(session, team_id=caller.team_id, kind=kind, page_size=500)[0]
                for kind in ("batteries", "escs", "motors", "propellers")}
-    point = "Cruise" if compare["mission"]["kind"] == "cruise" else "Hover"
+    point = rankings_service.point_word(compare["mission"]["kind"]).capitalize()
     ctx = {"caller": caller, "nav": "shortlists", "shortlist": shortlists_service.read(session, shortlist),
            "compare": compare, "charts": charts, "cautions": cautions(compare), "options": options, "errors": [],
            "changes": None, "values": {}, "point_label": point, "kind_words": {k: w[0] for k, w in KIND_WORDS.items()},

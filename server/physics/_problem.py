@@ -13,6 +13,7 @@ import numpy as np
 
 from ._types import ArrayLike, FloatArray, as_float_array
 from .esc import EscParams
+from .forward_flight import FlightState
 from .motor import MotorParams
 from .propeller import PropellerAxis, PropellerTable
 
@@ -58,6 +59,11 @@ class Problem:
     rotor_count: FloatArray
     density_kg_m3: FloatArray
     airspeed_m_s: FloatArray
+    flight: FlightState | None = None
+    """Multirotor flight state (arrays flat like the rest): the torque is the static table's corrected to the
+    flight's shaft power (:func:`.forward_flight.shaft_torque_nm`); None: the table's torque as it is."""
+    flight_off: np.ndarray | None = None
+    """Elements that use the table's torque as it is although ``flight`` is set (full throttle stays static)."""
 
     @property
     def series_resistance_ohm(self) -> FloatArray:
@@ -73,7 +79,12 @@ class Problem:
         """The sub-problem of elements ``idx`` (shared length-1 arrays stay shared)."""
         esc = EscParams(**{f.name: _rows(getattr(self.esc, f.name), idx) for f in fields(self.esc)})
         changes: dict[str, object] = {"size": int(idx.size), "shape": (int(idx.size),), "esc": esc}
+        if self.flight is not None:
+            changes["flight"] = FlightState(**{f.name: _rows(getattr(self.flight, f.name), idx)
+                                               for f in fields(self.flight)})
         for f in fields(self):
+            if f.name == "flight":
+                continue
             value = getattr(self, f.name)
             if isinstance(value, np.ndarray):
                 changes[f.name] = _rows(value, idx)
@@ -95,9 +106,11 @@ class Problem:
 
 def build_problem(motor: MotorParams, esc: EscParams, propeller: PropellerTable, open_circuit_voltage_v: ArrayLike,
                   pack_resistance_ohm: ArrayLike, rotor_count: ArrayLike, density_kg_m3: ArrayLike,
-                  airspeed_m_s: ArrayLike, *requests: ArrayLike) -> tuple[Problem, list[FloatArray]]:
+                  airspeed_m_s: ArrayLike, *requests: ArrayLike,
+                  flight: FlightState | None = None) -> tuple[Problem, list[FloatArray]]:
     """Broadcast everything to one shape and flatten; returns the problem and the flat requests."""
-    scalars = [motor.kv_rpm_per_v, motor.resistance_ohm, motor.no_load_current_a, motor.inductance_h,
+    flight_arrays = [] if flight is None else [getattr(flight, f.name) for f in fields(flight)]
+    scalars = [*flight_arrays, motor.kv_rpm_per_v, motor.resistance_ohm, motor.no_load_current_a, motor.inductance_h,
                motor.max_current_a, propeller.diameter_m, open_circuit_voltage_v, pack_resistance_ohm,
                rotor_count, density_kg_m3, airspeed_m_s, *requests,
                *(getattr(esc, f.name) for f in fields(esc))]
@@ -126,6 +139,8 @@ def build_problem(motor: MotorParams, esc: EscParams, propeller: PropellerTable,
         rotor_count=_flat(rotor_count, shape),
         density_kg_m3=_flat(density_kg_m3, shape),
         airspeed_m_s=_flat(airspeed_m_s, shape),
+        flight=None if flight is None else FlightState(**{f.name: _flat(getattr(flight, f.name), shape)
+                                                          for f in fields(flight)}),
     )
     flat_requests = [np.broadcast_to(_flat(r, shape), (size,)) for r in requests]
     return problem, flat_requests

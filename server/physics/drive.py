@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
+from dataclasses import replace
 from typing import Literal
 
 import numpy as np
@@ -38,6 +39,7 @@ from . import esc as esc_model
 from ._problem import Problem, build_problem
 from ._types import RPM_PER_RAD_S, ArrayLike, FloatArray, IntArray, Status
 from .esc import EscParams
+from .forward_flight import FlightState
 from .motor import MotorParams
 from .operating_point import OperatingPoint, assemble, motor_side
 from .propeller import PropellerTable, coefficients_at
@@ -292,16 +294,21 @@ def at_duty(duty: ArrayLike, *, motor: MotorParams, esc: EscParams, propeller: P
 def for_thrust(thrust_n: ArrayLike, *, motor: MotorParams, esc: EscParams, propeller: PropellerTable,
                open_circuit_voltage_v: ArrayLike, pack_resistance_ohm: ArrayLike = 0.0, rotor_count: ArrayLike = 1,
                density_kg_m3: ArrayLike = 1.225, airspeed_m_s: ArrayLike = 0.0,
-               method: SolveMethod = "auto") -> OperatingPoint:
+               method: SolveMethod = "auto", flight: FlightState | None = None) -> OperatingPoint:
     """Operating point that gives a required thrust per rotor (duty solved; d > 1 is INFEASIBLE_THRUST).
 
     Parameters
     ----------
     thrust_n : array_like
         Required thrust per rotor (> 0). [N]
+    flight : FlightState, optional
+        Multirotor flight state of the point (its thrust is ``thrust_n``; broadcasts with the rest): the speed
+        is the static table's for the thrust, the torque the table's corrected to the flight's shaft power
+        (:func:`.forward_flight.shaft_torque_nm`, docs/model-reference.md#multirotor-flight-state). In the thin
+        band where the request falls to full throttle, the full-throttle point is static.
     """
     p, (thrust,) = build_problem(motor, esc, propeller, open_circuit_voltage_v, pack_resistance_ohm, rotor_count,
-                                 density_kg_m3, airspeed_m_s, thrust_n)
+                                 density_kg_m3, airspeed_m_s, thrust_n, flight=flight)
     active = p.finite_inputs() & np.isfinite(thrust)
     omega, found = _omega_for_thrust(p, thrust, active, method)
     return _at_speed(p, omega, active, found, method)
@@ -341,7 +348,14 @@ def _at_speed(p: Problem, omega: FloatArray, active: np.ndarray, found: np.ndarr
     jump = (status == Status.OK) & ~(np.abs(residual) <= 1e-9 * np.broadcast_to(p.open_circuit_voltage_v, bus.shape))
     if jump.any():
         idx = np.flatnonzero(jump)
-        omega_full, bus_full, status_full = _solve_duty(p.take(idx), np.ones(idx.size), method)
+        sub = p.take(idx)
+        if p.flight is not None:  # full throttle stays static: the point reported is the table's own
+            sub = replace(sub, flight_off=np.ones(idx.size, dtype=bool))
+            off = np.zeros(p.size, dtype=bool) if p.flight_off is None else np.array(
+                np.broadcast_to(p.flight_off, (p.size,)))
+            off[idx] = True
+            p = replace(p, flight_off=off)
+        omega_full, bus_full, status_full = _solve_duty(sub, np.ones(idx.size), method)
         omega, bus = omega.copy(), bus.copy()
         omega[idx], bus[idx], status[idx] = omega_full, bus_full, status_full
     status[~active] = Status.NON_FINITE

@@ -26,6 +26,7 @@ from dataclasses import dataclass, fields, replace
 import numpy as np
 
 from . import esc as esc_model
+from . import forward_flight
 from .propeller_segments import PropModel
 
 BUS_RTOL = 1e-14
@@ -170,13 +171,21 @@ def full_throttle_points(batch: Batch, model: PropModel, rotor_count: float,
     return [FullThrottle(**{name: value[i] for name, value in values.items()}) for i in range(len(open_circuit_v))]
 
 
-def cruise_point(batch: Batch, model: PropModel, rotor_count: float, thrust_n: np.ndarray) -> Cruise:
-    """Cruise (hover) point: duty for thrust ``thrust_n`` per rotor on the sagged bus, with every ESC loss."""
+def cruise_point(batch: Batch, model: PropModel, rotor_count: float, thrust_n: np.ndarray,
+                 flight: forward_flight.FlightState | None = None) -> Cruise:
+    """Cruise (hover) point: duty for thrust ``thrust_n`` per rotor on the sagged bus, with every ESC loss.
+
+    With a multirotor ``flight`` state (broadcasting with the batch; its thrust is ``thrust_n``) the torque is the
+    static table's corrected to the flight's shaft power (:func:`.forward_flight.shaft_torque_nm`); the speed is
+    the static table's for the thrust.
+    """
     n_r = float(rotor_count)
     thrust = thrust_n
     y, seg = model.speed_for_thrust(thrust, batch.q)
     _, cp = model.coefficients(batch.q, seg, y)
     torque = (model.kq[batch.q] * cp) * (y * y)
+    if flight is not None:
+        torque = forward_flight.shaft_torque_nm(torque, model.omega_rad_s(y), 0.5 * model.diameter_m[batch.q], flight)
     current = batch.no_load_current_a + batch.kv_si * torque
     motor_v = y * model.emf_per_y(batch.kv_si) + current * (batch.motor_resistance_ohm + batch.r_on_ohm)
     voc = batch.voc_cruise_v

@@ -32,6 +32,7 @@ from . import drive
 from ._types import SECONDS_PER_HOUR_S, ArrayLike, FloatArray, IntArray, Status, as_float_array
 from .battery import PackParams, current_for_power_a, peukert_effective_current_a
 from .esc import EscParams
+from .forward_flight import FlightState
 from .motor import MotorParams
 from .operating_point import OperatingPoint
 from .propeller import PropellerTable
@@ -221,7 +222,7 @@ def constant_power(power_w: ArrayLike, *, pack: PackParams, initial_state_of_cha
 def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams, esc: EscParams,
                     propeller: PropellerTable, rotor_count: ArrayLike = 1, density_kg_m3: ArrayLike = 1.225,
                     airspeed_m_s: ArrayLike = 0.0, initial_state_of_charge: ArrayLike = 1.0,
-                    soc_step: float = DEFAULT_SOC_STEP) -> ThrustEnduranceResult:
+                    soc_step: float = DEFAULT_SOC_STEP, flight: FlightState | None = None) -> ThrustEnduranceResult:
     """Hover/cruise endurance at constant thrust per rotor, the operating point re-solved as the pack sags.
 
     Parameters
@@ -242,6 +243,8 @@ def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams
         SOC at take-off. [-]
     soc_step : float, default 0.01
         SOC step of the march. [-]
+    flight : FlightState, optional
+        Multirotor flight state (as for :func:`drive.for_thrust`; broadcasts with the candidates).
 
     Returns
     -------
@@ -252,7 +255,7 @@ def constant_thrust(thrust_n: ArrayLike, *, pack: PackParams, motor: MotorParams
         return drive.for_thrust(thrust_n, motor=motor, esc=esc, propeller=propeller,
                                 open_circuit_voltage_v=pack.open_circuit_voltage_v(soc),
                                 pack_resistance_ohm=pack.resistance_ohm, rotor_count=rotor_count,
-                                density_kg_m3=density_kg_m3, airspeed_m_s=airspeed_m_s)
+                                density_kg_m3=density_kg_m3, airspeed_m_s=airspeed_m_s, flight=flight)
 
     start = solve(initial_state_of_charge)
     shape = np.broadcast_shapes(start.status.shape, np.shape(initial_state_of_charge),

@@ -14,6 +14,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from . import esc as esc_model
+from . import forward_flight
 from ._problem import Problem
 from ._types import RPM_PER_RAD_S, ArrayLike, FloatArray, IntArray, Status
 from .propeller import advance_ratio, coefficients_at, momentum_limit_ratio, outside_table, specific_thrust_g_per_w
@@ -140,6 +141,9 @@ def motor_side(p: Problem, omega: FloatArray) -> tuple[FloatArray, FloatArray, F
     ct, cp = coefficients_at(p.table, omega, p.airspeed_m_s)
     n = omega / (2.0 * math.pi)
     torque = cp * p.density_kg_m3 * n * n * p.diameter_m**5 / (2.0 * math.pi)
+    if p.flight is not None:
+        corrected = forward_flight.shaft_torque_nm(torque, omega, 0.5 * p.diameter_m, p.flight)
+        torque = corrected if p.flight_off is None else np.where(p.flight_off, torque, corrected)
     current = p.no_load_current_a + torque * p.kv_rad_s_per_v
     motor_voltage = omega / p.kv_rad_s_per_v + current * p.series_resistance_ohm
     return ct, cp, current, motor_voltage

@@ -190,6 +190,32 @@ class SystemBands(Result):
     endurance_min: list[float] | None = None
 
 
+class FlightStateRead(Result):
+    """A multirotor's flight state at the cruise point (docs/model-reference.md#multirotor-flight-state); per rotor
+    unless a field says craft. Full throttle stays static."""
+
+    kind: str
+    airspeed_m_s: float = Field(description="Horizontal airspeed [m/s]")
+    climb_rate_m_s: float = Field(description="Climb rate, negative in descent [m/s]")
+    drag_area_m2: float = Field(description="Airframe drag area C_D·A used (0: none stated) [m²]")
+    coaxial: bool
+    induced_factor: float | None = Field(default=None, description="Factor on induced power (coaxial 1.2808) [-]")
+    tilt_deg: float | None = Field(default=None, description="Forward tilt of the thrust from vertical [°]")
+    drag_n: float | None = Field(default=None, description="Airframe drag (craft) [N]")
+    thrust_per_rotor_n: float | None = Field(default=None, description="Thrust per rotor [N]")
+    induced_velocity_m_s: float | None = Field(default=None, description="Glauert induced velocity [m/s]")
+    hover_induced_velocity_m_s: float | None = Field(default=None, description="v_h at this thrust [m/s]")
+    through_disk_speed_m_s: float | None = Field(default=None, description="Free stream through the disk [m/s]")
+    edgewise_speed_m_s: float | None = Field(default=None, description="Free stream in the disk plane [m/s]")
+    edgewise_advance_ratio: float | None = Field(default=None, description="μ = V_∥ / (Ω R) [-]")
+    profile_power_factor: float | None = Field(default=None, description="1 + 4.65 μ² on the non-ideal power [-]")
+    ideal_power_per_rotor_w: float | None = Field(default=None, description="Momentum-theory power [W]")
+    hover_ideal_power_per_rotor_w: float | None = Field(default=None, description="The same in hover [W]")
+    electrical_power_w: float | None = Field(default=None, description="Craft electrical power at this point [W]")
+    hover_electrical_power_w: float | None = Field(default=None, description="Craft electrical power in hover [W]")
+    power_vs_hover: float | None = Field(default=None, description="Electrical power ÷ hover [-]")
+
+
 class CandidateEvaluation(Result):
     """Every number of one power system for one mission (craft totals unless a field says per rotor)."""
 

@@ -9,7 +9,7 @@ from pydantic import BaseModel, ConfigDict, model_validator
 
 from server.schemas._fields import partial_model, ranged, text
 
-MissionKind = Literal["hover", "cruise"]
+MissionKind = Literal["hover", "cruise", "forward_flight"]
 
 
 class AirframeCreate(BaseModel):
@@ -20,7 +20,18 @@ class AirframeCreate(BaseModel):
     frame_mass_g: ranged(float, 1, 500_000, "g", description="Frame mass without motors, ESCs, props and packs")  # type: ignore[valid-type]
     max_prop_diameter_in: ranged(float, 1, 80, "in", description="Largest propeller that fits") | None = None  # type: ignore[valid-type]
     max_packs_in_parallel: ranged(int, 1, 4, "packs", description="Identical packs flown in parallel") = 1  # type: ignore[valid-type]
+    drag_area_m2: ranged(  # type: ignore[valid-type]
+        float, 0, 5, "m²", description="Airframe drag area C_D·A for multirotor forward flight and climb "
+                                       "(drag = ½ρV²·C_D·A); blank: not stated, no airframe drag counted") | None = None
+    frontal_area_note: text(500) = ""  # type: ignore[valid-type]
+    coaxial: bool = False
     notes: text(4000) = ""  # type: ignore[valid-type]
+
+    @model_validator(mode="after")
+    def _pairs(self) -> AirframeCreate:
+        if self.coaxial and self.rotor_count % 2:
+            raise ValueError("coaxial: a coaxial airframe counts both rotors of every pair (an even rotor_count)")
+        return self
 
 
 class AirframeRead(AirframeCreate):
@@ -43,7 +54,8 @@ class MissionCreate(BaseModel):
     payload_mass_g: ranged(float, 0, 500_000, "g", description="Payload carried") = 0.0  # type: ignore[valid-type]
     altitude_m: ranged(float, -500, 11_000, "m", description="Altitude (ISA troposphere)") = 0.0  # type: ignore[valid-type]
     temperature_offset_c: ranged(float, -60, 60, "°C", description="Offset from the ISA temperature") = 0.0  # type: ignore[valid-type]
-    cruise_airspeed_m_s: ranged(float, 0.5, 150, "m/s", description="Cruise airspeed (cruise missions)") | None = None  # type: ignore[valid-type]
+    cruise_airspeed_m_s: ranged(  # type: ignore[valid-type]
+        float, 0.5, 150, "m/s", description="Cruise airspeed (cruise and forward-flight missions)") | None = None
     lift_to_drag: ranged(float, 1, 60, "", description="Lift-to-drag ratio at cruise") | None = None  # type: ignore[valid-type]
     min_thrust_to_weight: ranged(float, 0, 20, "", description="Minimum thrust-to-weight at full throttle") = 2.0  # type: ignore[valid-type]
     duty_min: ranged(float, 0.05, 1, "", description="Lowest acceptable hover/cruise PWM duty") = 0.40  # type: ignore[valid-type]
@@ -62,10 +74,17 @@ class MissionCreate(BaseModel):
     min_thrust_to_weight_motor_out: ranged(  # type: ignore[valid-type]
         float, 0, 20, "", description="Minimum thrust-to-weight with the worst single motor out (hexa and larger: "
                                       "a quad cannot hold attitude with one out); blank: not checked") | None = None
+    climb_rate_m_s: ranged(  # type: ignore[valid-type]
+        float, -10, 20, "m/s", description="Climb rate at the cruise point of a multirotor mission "
+                                           "(hover, forward flight); negative: descent") = 0.0
     notes: text(4000) = ""  # type: ignore[valid-type]
 
     @model_validator(mode="after")
     def _consistent(self) -> MissionCreate:
+        if self.kind == "forward_flight" and self.cruise_airspeed_m_s is None:
+            raise ValueError("cruise_airspeed_m_s: a forward_flight mission needs its airspeed")
+        if self.kind == "cruise" and self.climb_rate_m_s != 0:
+            raise ValueError("climb_rate_m_s: applies to multirotor missions (hover, forward_flight) only")
         if self.duty_min > self.duty_max:
             raise ValueError("duty_min: must not be above the highest duty (duty_max)")
         if self.kind == "cruise" and self.cruise_airspeed_m_s is None:

@@ -8,6 +8,7 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from server.schemas._fields import ranged
 from server.schemas.evaluation import (
+    FlightStateRead,
     Margins,
     RankedCandidate,
     RankedCruise,
@@ -137,3 +138,5 @@ class Explanation(Result):
     assumed_share: float | None = Field(
         default=None, description="Width of the cruise-power band with only priors varied ÷ its full width [-]")
     assumed: RowAssumptions | None = Field(default=None, description="Parameters resting on priors, per part")
+    flight: FlightStateRead | None = Field(default=None, description="Multirotor flight state (forward flight, "
+                                                                     "climb, coaxial); null for a plain hover")

@@ -189,7 +189,9 @@ def cold_day(batch: Batch, model: PropModel, mission: MissionSpec) -> ColdDay:
     cruise_batch, full_batch, _ = temperature.at_temperature(batch, cold_model, mission, air_c,
                                                              winding=mission.temperature_effects)
     n_r = float(mission.rotor_count)
-    cruise = cruise_point(cruise_batch, cold_model, n_r, mission.thrust_per_rotor_n(batch.mass_kg))
+    rho = cold_model.density_kg_m3  # a multirotor in forward flight meets more drag in the denser cold air
+    cruise = cruise_point(cruise_batch, cold_model, n_r, mission.thrust_per_rotor_n(batch.mass_kg, rho),
+                          mission.flight_state(batch.mass_kg, cold_model.diameter_m[batch.q], rho))
     low, full = full_throttle_points(full_batch, cold_model, n_r, (batch.voc_low_v, batch.voc_full_v))
     tw, endurance = _metrics(cruise_batch, mission, cruise, low, batch.mass_kg)
     with np.errstate(invalid="ignore"):
@@ -257,7 +259,8 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
     full_batch = batch
     if mission.temperature_effects:
         batch, full_batch, heat = temperature.at_temperature(batch, model, mission, mission.air_temperature_c)
-    cruise = cruise_point(batch, model, n_r, mission.thrust_per_rotor_n(batch.mass_kg))
+    cruise = cruise_point(batch, model, n_r, mission.thrust_per_rotor_n(batch.mass_kg),
+                          mission.flight_state(batch.mass_kg, model.diameter_m[batch.q]))
     low, full = full_throttle_points(full_batch, model, n_r, (batch.voc_low_v, batch.voc_full_v))
     shape = np.broadcast_shapes(batch.shape, cruise.duty.shape)
     mass = np.broadcast_to(batch.mass_kg, shape)

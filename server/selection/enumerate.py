@@ -89,7 +89,7 @@ class PartVerdicts:
     @classmethod
     def of(cls, library: PartsLibrary, mission: MissionSpec, model: PropModel) -> PartVerdicts:
         props = library.propellers
-        missing = ~props.valid() | ((mission.kind == "hover") & ~model.has_table)
+        missing = ~props.valid() | ((mission.kind != "cruise") & ~model.has_table)  # multirotor: static table
         invalid = ~missing & model.has_table & ~model.valid
         large = ~missing & ~invalid & ~(props.diameter_in <= mission.max_prop_diameter_in)
         misapplied = ~missing & ~invalid & ~large & ~props.suits(mission.kind)

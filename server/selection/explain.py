@@ -22,6 +22,7 @@ import numpy as np
 
 from .constraints import REASON_TEXT, REASONS, Check, screen
 from .enumerate import PartVerdicts, batch_for, cost_of
+from .flight_report import flight_report, hover_of, hover_state
 from .library import MissionSpec, PartsLibrary
 from .refine import refine
 from .result import CandidateRow, CandidateSet
@@ -55,6 +56,8 @@ class Explanation:
     checks: list[Verdict]
     row: CandidateRow | None = None
     notes: list[str] = field(default_factory=list)
+    flight: dict[str, Any] | None = None
+    """Multirotor flight-state numbers (:func:`.flight_report.flight_report`); None for a plain hover or cruise."""
 
 
 def _num(value: Any) -> float | None:
@@ -70,6 +73,9 @@ def _from_check(check: Check, detail: str = "") -> Verdict:
         limit = _num(check.limit)
     return Verdict(check.reason, bool(np.ravel(check.passed)[0]), _num(check.value), limit, check.unit,
                    _num(check.margin), REASON_TEXT[check.reason], detail)
+
+
+FLIES = {"hover": "hovers", "cruise": "cruises", "forward_flight": "flies forward as a multirotor"}
 
 
 def _part_verdicts(library: PartsLibrary, mission: MissionSpec, v: PartVerdicts, p: int, e: int, m: int,
@@ -92,7 +98,7 @@ def _part_verdicts(library: PartsLibrary, mission: MissionSpec, v: PartVerdicts,
                 _num(mission.max_prop_diameter_in - props.diameter_in[q]), REASON_TEXT["prop_too_large"]),
         Verdict("prop_application", bool(props.suits(mission.kind)[q]), text=REASON_TEXT["prop_application"],
                 detail="" if props.suits(mission.kind)[q] else
-                f"made for {props.made_for(q)}; the mission {'cruises' if mission.kind == 'cruise' else 'hovers'}"),
+                f"made for {props.made_for(q)}; the mission {FLIES.get(mission.kind, 'hovers')}"),
         Verdict("no_forward_table", not v.prop_no_forward[q] if have_prop else None,
                 text=REASON_TEXT["no_forward_table"]),
         Verdict("esc_cell_range", bool(PartVerdicts.esc_fits(escs, np.array(e), np.array(cells))), cells,
@@ -119,6 +125,7 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
     index = (np.array([pack]), np.array([packs_in_parallel]), np.array([esc]), np.array([motor]), np.array([prop]))
     row: CandidateRow | None = None
     notes: list[str] = []
+    flight: dict[str, Any] | None = None
     if evaluable:
         batch = batch_for(library, mission, *index)
         sc = screen(batch, model, mission, all_violations=False)
@@ -134,6 +141,8 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
                           specific_thrust_g_per_w=sc.specific_thrust_g_per_w.ravel(),
                           thrust_to_weight=sc.thrust_to_weight.ravel(), mass_kg=sc.mass_kg.ravel(),
                           cost=cost_of(library, mission, *index))
+        if mission.has_flight_state:
+            flight = _flight(library, mission, model, batch, sc, prop)
         screened_ok = bool(sc.code.ravel()[0] == 0)
         if screened_ok:
             minutes, reasons = refine(library, mission, model, cs)
@@ -158,4 +167,14 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
         notes.append("Operating points need every part's data: fill in what is missing, or calibrate it from a "
                      "bench run.")
     first = next((c.reason for c in checks if c.passed is False), None)
-    return Explanation(feasible=first is None, first_failed=first, checks=checks, row=row, notes=notes)
+    return Explanation(feasible=first is None, first_failed=first, checks=checks, row=row, notes=notes, flight=flight)
+
+
+def _flight(library: PartsLibrary, mission: MissionSpec, model: Any, batch: Any, sc: Any, prop: int) -> dict[str, Any]:
+    """The flight state of the candidate and its power against the same craft hovering (screening points)."""
+    diameter = model.diameter_m[prop]
+    state = mission.flight_state(batch.mass_kg, diameter)
+    assert state is not None
+    hovering = screen(batch, model, hover_of(mission), all_violations=False)
+    return flight_report(mission, state, hover_state(mission, batch.mass_kg, diameter).ideal_power_w,
+                         sc.cruise.omega_rad_s, diameter, sc.electrical_power_w, hovering.electrical_power_w)

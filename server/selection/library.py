@@ -23,18 +23,20 @@ from typing import TYPE_CHECKING, Literal
 import numpy as np
 import numpy.typing as npt
 
-from server.physics import atmosphere, sizing
+from server.physics import atmosphere, forward_flight, sizing
 from server.physics._types import CELSIUS_TO_KELVIN_K
 from server.physics.esc import EscConstants, EscParams
 from server.physics.motor import DEFAULT_INDUCTANCE_H
 from server.physics.priors import thermal_defaults
-from server.physics.propeller import PropellerTable
+from server.physics.propeller import PropellerTable, disk_area_m2
 from server.physics.propeller_segments import PropModel
 
 if TYPE_CHECKING:
     from _typeshed import DataclassInstance
 
-MissionKind = Literal["hover", "cruise"]
+MissionKind = Literal["hover", "cruise", "forward_flight"]
+MISSION_KINDS: tuple[MissionKind, ...] = ("hover", "cruise", "forward_flight")
+"""hover and forward_flight are multirotor flight (static tables, rotors lift); cruise is fixed-wing flight."""
 PROP_APPLICATIONS = ("multirotor", "fixed_wing", "any")
 """What a propeller is made for; a multirotor propeller hovers, a fixed-wing one cruises, ``any`` does both."""
 INCH_M = 0.0254
@@ -323,7 +325,7 @@ class PropellerLibrary:
 
     def suits(self, kind: MissionKind) -> np.ndarray:
         """Propellers made for this kind of flight: multirotor ones hover, fixed-wing ones cruise, ``any`` both."""
-        made_for = "multirotor" if kind == "hover" else "fixed_wing"
+        made_for = "fixed_wing" if kind == "cruise" else "multirotor"
         application = np.full(len(self), "any") if self.application is None else self.application  # set in init
         suits: np.ndarray = np.isin(application, ("any", made_for))
         return suits
@@ -392,10 +394,24 @@ class MissionSpec:
     """Length of a full-throttle burst from the cruise winding temperature (with ``temperature_effects``). [s]"""
     cold_day_temperature_c: float | None = None
     """A second, colder air temperature at which thrust-to-weight and endurance are re-checked; None: no check."""
+    climb_rate_m_s: float = 0.0
+    """Climb rate of a multirotor (hover and forward_flight kinds; negative: descent) at the cruise point. [m/s]"""
+    drag_area_m2: float = 0.0
+    """Airframe drag area C_D A (0: no airframe drag) of a multirotor in forward flight or climb. [m^2]"""
+    coaxial: bool = False
+    """Rotors stacked in coaxial pairs (induced power of the pair, :mod:`server.physics.forward_flight`)."""
 
     def __post_init__(self) -> None:
-        if self.kind not in ("hover", "cruise"):
+        if self.kind not in MISSION_KINDS:
             raise ValueError(f"unknown mission kind {self.kind!r}")
+        if self.kind == "forward_flight" and not self.cruise_airspeed_m_s > 0:
+            raise ValueError("a forward_flight mission needs cruise_airspeed_m_s > 0")
+        if not (np.isfinite(self.climb_rate_m_s) and np.isfinite(self.drag_area_m2) and self.drag_area_m2 >= 0):
+            raise ValueError("climb_rate_m_s must be finite and drag_area_m2 finite and >= 0")
+        if self.kind == "cruise" and self.climb_rate_m_s != 0:
+            raise ValueError("climb_rate_m_s applies to multirotor kinds (hover, forward_flight) only")
+        if self.coaxial and int(self.rotor_count) % 2:
+            raise ValueError("a coaxial airframe has an even rotor_count (both rotors of every pair)")
         if int(self.rotor_count) < 1 or int(self.max_packs_in_parallel) < 1:
             raise ValueError("rotor_count and max_packs_in_parallel must be at least 1")
         if self.kind == "cruise" and not (self.cruise_airspeed_m_s > 0 and self.lift_to_drag > 0):
@@ -424,12 +440,44 @@ class MissionSpec:
 
     @property
     def thrust_per_weight(self) -> float:
-        """Required thrust over weight at the cruise point: 1 (hover) or 1/(L/D) (cruise). [-]"""
+        """Required thrust over weight at the cruise point: 1 (hover) or 1/(L/D) (cruise); a flight state's thrust
+        (:attr:`has_flight_state`) comes from :meth:`thrust_per_rotor_n`. [-]"""
         return 1.0 if self.kind == "hover" else 1.0 / float(self.lift_to_drag)
 
-    def thrust_per_rotor_n(self, mass_kg: npt.ArrayLike) -> np.ndarray:
-        """Thrust each rotor makes at the cruise point for all-up mass ``mass_kg``. [N]"""
+    def thrust_per_rotor_n(self, mass_kg: npt.ArrayLike, density_kg_m3: float | None = None) -> np.ndarray:
+        """Thrust each rotor makes at the cruise point for all-up mass ``mass_kg`` (airframe drag in air of
+        ``density_kg_m3``, default the mission's). [N]"""
+        if self.has_flight_state:
+            rho = self.density_kg_m3 if density_kg_m3 is None else float(density_kg_m3)
+            total, _, _ = forward_flight.craft_thrust_n(forward_flight.weight_n(mass_kg), rho,
+                                                        self.horizontal_airspeed_m_s, self.climb_rate_m_s,
+                                                        self.drag_area_m2)
+            thrust: np.ndarray = total / float(self.rotor_count)
+            return thrust
         return sizing.thrust_per_rotor_n(mass_kg, float(self.rotor_count), self.thrust_per_weight)
+
+    @property
+    def has_flight_state(self) -> bool:
+        """The cruise point needs the multirotor flight state (forward flight, a climb or descent, coaxial pairs);
+        a plain hover (the default) keeps the static propeller power unchanged."""
+        return self.kind == "forward_flight" or (self.kind == "hover" and (self.climb_rate_m_s != 0 or self.coaxial))
+
+    @property
+    def horizontal_airspeed_m_s(self) -> float:
+        """Horizontal airspeed of a multirotor at the cruise point (forward_flight; 0 otherwise). [m/s]"""
+        return float(self.cruise_airspeed_m_s) if self.kind == "forward_flight" else 0.0
+
+    def flight_state(self, mass_kg: npt.ArrayLike, diameter_m: npt.ArrayLike,
+                     density_kg_m3: float | None = None) -> forward_flight.FlightState | None:
+        """Multirotor flight state at the cruise point for all-up mass and propeller diameter (broadcast), in air
+        of ``density_kg_m3`` (default the mission's); None where :attr:`has_flight_state` is false (the static
+        propeller power applies as it is)."""
+        if not self.has_flight_state:
+            return None
+        rho = self.density_kg_m3 if density_kg_m3 is None else float(density_kg_m3)
+        return forward_flight.flight_state(forward_flight.weight_n(mass_kg), float(self.rotor_count),
+                                           disk_area_m2(diameter_m), rho, self.horizontal_airspeed_m_s,
+                                           self.climb_rate_m_s, self.drag_area_m2, self.coaxial)
 
     def propeller_model(self, props: PropellerLibrary) -> PropModel:
         """The segment model of the table this mission flies (static for hover, versus J for cruise).

@@ -87,7 +87,8 @@ def _fast(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs: Can
     flat = _cruise_batch(library, mission, model, cs)
     batch = replace(flat, **{f.name: np.asarray(getattr(flat, f.name))[:, np.newaxis] for f in fields(flat)})
     batch = replace(batch, voc_cruise_v=voc)
-    cruise = cruise_point(batch, model, float(mission.rotor_count), mission.thrust_per_rotor_n(batch.mass_kg))
+    cruise = cruise_point(batch, model, float(mission.rotor_count), mission.thrust_per_rotor_n(batch.mass_kg),
+                          mission.flight_state(batch.mass_kg, model.diameter_m[batch.q]))
     shape = voc.shape
     pack_current = np.broadcast_to(float(mission.rotor_count) * cruise.bus_current_a, shape)
     result = fast.march_constant_thrust(
@@ -108,5 +109,6 @@ def _reference(library: PartsLibrary, mission: MissionSpec, model: PropModel,
     thrust = mission.thrust_per_rotor_n(cs.mass_kg)
     result = endurance.constant_thrust(thrust, pack=pack, motor=motor, esc=esc, propeller=model.table.take(cs.prop),
                                        rotor_count=float(mission.rotor_count), density_kg_m3=mission.density_kg_m3,
-                                       airspeed_m_s=mission.airspeed_m_s, initial_state_of_charge=1.0)
+                                       airspeed_m_s=mission.airspeed_m_s, initial_state_of_charge=1.0,
+                                       flight=mission.flight_state(cs.mass_kg, model.diameter_m[cs.prop]))
     return result.time_s, result.stop_reason

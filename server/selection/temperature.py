@@ -21,7 +21,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from server.physics import atmosphere, thermal
+from server.physics import atmosphere, forward_flight, thermal
 from server.physics.drive_screen import Batch, full_throttle
 from server.physics.motor import resistance_at_temperature_ohm
 from server.physics.propeller_segments import PropModel
@@ -46,11 +46,16 @@ class Heat:
         return np.where(self.runaway, np.nan, peak)
 
 
-def cruise_current(batch: Batch, model: PropModel, thrust_n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Motor current [A] and back-EMF [V] at the cruise thrust (the propeller fixes speed and torque)."""
+def cruise_current(batch: Batch, model: PropModel, thrust_n: np.ndarray,
+                   flight: forward_flight.FlightState | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Motor current [A] and back-EMF [V] at the cruise thrust (the propeller fixes speed and torque; a multirotor
+    flight state corrects the torque as :func:`server.physics.drive_screen.cruise_point` does)."""
     y, seg = model.speed_for_thrust(thrust_n, batch.q)
     _, cp = model.coefficients(batch.q, seg, y)
-    current: np.ndarray = batch.no_load_current_a + batch.kv_si * ((model.kq[batch.q] * cp) * (y * y))
+    torque = (model.kq[batch.q] * cp) * (y * y)
+    if flight is not None:
+        torque = forward_flight.shaft_torque_nm(torque, model.omega_rad_s(y), 0.5 * model.diameter_m[batch.q], flight)
+    current: np.ndarray = batch.no_load_current_a + batch.kv_si * torque
     emf: np.ndarray = y * model.emf_per_y(batch.kv_si)
     return current, emf
 
@@ -77,7 +82,9 @@ def at_temperature(batch: Batch, model: PropModel, mission: MissionSpec, air_tem
     if not winding:
         return batch, batch, None
     n_r = float(mission.rotor_count)
-    current, emf = cruise_current(batch, model, mission.thrust_per_rotor_n(batch.mass_kg))
+    rho = model.density_kg_m3  # the mission's, or the cold day's
+    current, emf = cruise_current(batch, model, mission.thrust_per_rotor_n(batch.mass_kg, rho),
+                                  mission.flight_state(batch.mass_kg, model.diameter_m[batch.q], rho))
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         cruise_c, runaway = thermal.steady_winding_temperature_c(
             air_temperature_c, current, batch.motor_resistance_ohm, batch.no_load_current_a * emf,

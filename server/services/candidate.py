@@ -25,7 +25,9 @@ from server.models import Battery, Calibration, Esc, Mission, Motor, Propeller
 from server.physics import ENGINE_VERSION, drive, endurance, fast, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
+from server.physics.forward_flight import FlightState
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
+from server.selection.flight_report import flight_report, hover_of, hover_state
 from server.services import parts as parts_service
 from server.services import power_system as ps
 from server.services import ranking_bands
@@ -65,6 +67,8 @@ class Candidate:
     cost: float | None
     sources: dict[str, dict[str, str]]
     pack_nominal_voltage_v: float
+    flight: FlightState | None = None
+    """Multirotor flight state of the cruise point (forward flight, climb, coaxial); None: static hover/cruise."""
 
     def point_at_soc(self, soc: float, **kw: Any) -> dict[str, Any]:
         return {
@@ -107,7 +111,8 @@ def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds)
         "airspeed_m_s": spec.airspeed_m_s,
     }
     return Candidate(mission, ids, battery, esc, motor, prop, kwargs, pack, float(spec.thrust_per_rotor_n(mass_kg)),
-                     1000.0 * mass_kg, cost, system.sources(), system.nominal_voltage_v)
+                     1000.0 * mass_kg, cost, system.sources(), system.nominal_voltage_v,
+                     spec.flight_state(mass_kg, table.diameter_m))
 
 
 def _losses(op: OperatingPoint) -> dict[str, float | None]:
@@ -171,7 +176,7 @@ def _evaluate(
 ) -> dict[str, Any]:
     c = load(session, team_id=team_id, mission=mission, ids=ids)
     rotors = c.mission.airframe.rotor_count
-    cruise = drive.for_thrust(c.thrust_required_n, **c.point_at_soc(mission.cruise_state_of_charge))
+    cruise = drive.for_thrust(c.thrust_required_n, **c.point_at_soc(mission.cruise_state_of_charge), flight=c.flight)
     low = drive.full_throttle(**c.point_at_soc(1 - mission.usable_fraction))
     peak = drive.full_throttle(**c.point_at_soc(1.0))
     discharge = _discharge(c)
@@ -233,6 +238,8 @@ def _evaluate(
         },
         "sources": c.sources,
     }
+    if c.flight is not None:
+        metrics["flight"] = _flight(c, cruise)
     if with_curves:
         metrics["curves"] = curves(c)
     metrics |= ranking_bands.for_system(session, team_id=team_id, mission=mission, battery_id=ids.battery_id,
@@ -241,12 +248,27 @@ def _evaluate(
     return metrics
 
 
+def _flight(c: Candidate, cruise: OperatingPoint) -> dict[str, Any]:
+    """The flight state and the power against the same craft hovering, by the reference solver."""
+    assert c.flight is not None
+    spec = mission_spec_of(c.mission)
+    hover = hover_of(spec)
+    mass_kg = c.all_up_mass_g / 1000.0
+    diameter = c.kwargs["propeller"].diameter_m
+    point = c.point_at_soc(c.mission.cruise_state_of_charge)
+    hovering = drive.for_thrust(float(hover.thrust_per_rotor_n(mass_kg)), **point,
+                                flight=hover.flight_state(mass_kg, diameter))
+    rotors = spec.rotor_count
+    return flight_report(spec, c.flight, hover_state(spec, mass_kg, diameter).ideal_power_w, cruise.omega_rad_s,
+                         diameter, cruise.electrical_power_w * rotors, hovering.electrical_power_w * rotors)
+
+
 def _discharge(c: Candidate) -> endurance.EnduranceResult:
     """The constant-thrust discharge of :func:`physics.endurance.constant_thrust`, its SOC nodes solved at once."""
     nodes = fast.constant_thrust_nodes(1.0, c.pack, ())
     op = drive.for_thrust(np.full(nodes.shape, c.thrust_required_n),
                           **{**c.kwargs, "open_circuit_voltage_v": c.pack.open_circuit_voltage_v(nodes),
-                             "pack_resistance_ohm": float(c.pack.resistance_ohm)})
+                             "pack_resistance_ohm": float(c.pack.resistance_ohm)}, flight=c.flight)
     reachable = ~np.isin(op.status, [Status.INFEASIBLE_THRUST, Status.NO_SOLUTION, Status.POWER_LIMIT])
     invalid = op.status == Status.NON_FINITE
     return fast.march_constant_thrust(nodes, op.pack_current_a, op.bus_voltage_v, op.duty, reachable, invalid,
@@ -267,6 +289,7 @@ def curves(c: Candidate, steps: int = 40) -> dict[str, Any]:
             "open_circuit_voltage_v": c.pack.open_circuit_voltage_v(socs),
             "pack_resistance_ohm": float(c.pack.resistance_ohm),
         },
+        flight=c.flight,
     )
     good = np.isin(held.status, [Status.OK, Status.OVER_CURRENT]) & np.isfinite(held.pack_current_a)
     # Coulomb counting between SOC nodes (trapezoid on 1/I), as in the endurance module.

@@ -84,6 +84,7 @@ def explain(session: Session, *, team_id: int, mission_id: int | None, battery_i
         "assumed": row.get("assumed") if row else None,
         "sources": {kind: rows[0].get("sources", {}) for kind, rows in snap["parts"].items() if rows},
         "notes": verdict.notes,
+        "flight": verdict.flight,
     }
 
 

@@ -85,8 +85,10 @@ MISSION_FIELDS = [
     "cruise_state_of_charge",
     "max_all_up_mass_g",
     "min_thrust_to_weight_motor_out",
+    "climb_rate_m_s",
 ]
-AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel"]
+AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel",
+                   "drag_area_m2", "coaxial"]
 
 
 def mission_dicts(mission: Mission) -> tuple[dict[str, Any], dict[str, Any]]:
@@ -255,6 +257,9 @@ def mission_spec(ms: dict[str, Any], af: dict[str, Any]) -> MissionSpec:
         cruise_state_of_charge=ms["cruise_state_of_charge"],
         max_all_up_mass_kg=None if ms["max_all_up_mass_g"] is None else ms["max_all_up_mass_g"] / 1000,
         min_thrust_to_weight_motor_out=ms.get("min_thrust_to_weight_motor_out"),  # absent in older snapshots
+        climb_rate_m_s=float(ms.get("climb_rate_m_s") or 0.0),  # absent in older snapshots: level
+        drag_area_m2=_num(af.get("drag_area_m2"), 0.0),  # not stated: no airframe drag
+        coaxial=bool(af.get("coaxial") or False),
     )
 
 

@@ -26,9 +26,18 @@ REASON_TEXT = constraints.REASON_TEXT
 """A plain-language line per rejection reason, in the engine's order."""
 
 
+POINT_WORDS = {"hover": "hover", "cruise": "cruise", "forward_flight": "forward-flight"}
+"""What a mission kind calls its operating point (the checks, the objective, the compare group)."""
+
+
+def point_word(kind: str) -> str:
+    """The mission's point in words: hover, cruise or forward-flight."""
+    return POINT_WORDS.get(kind, "hover")
+
+
 def reason_text(kind: str) -> dict[str, str]:
     """:data:`REASON_TEXT` in the mission's own words: a hover mission's point is the hover point."""
-    point = "cruise" if kind == "cruise" else "hover"
+    point = point_word(kind)
     return {k: v.replace("cruise thrust", f"{point} thrust").replace("cruise duty", f"{point} duty")
             for k, v in REASON_TEXT.items()}
 SORT_COLUMNS = {

@@ -47,6 +47,17 @@ COMPARE_ROWS: list[tuple[str, str, str, str, str | None]] = [
     ("Endurance", "endurance_stop_reason", "Stops at", "", None),
     ("Cost", "cost", "Parts cost per airframe", "", "low"),
 ]
+FLIGHT_ROWS: list[tuple[str, str, str, str, str | None]] = [
+    ("Flight state", "flight.tilt_deg", "Rotor tilt from vertical", "°", None),
+    ("Flight state", "flight.thrust_per_rotor_n", "Thrust per rotor (weight and drag)", "N", None),
+    ("Flight state", "flight.induced_velocity_m_s", "Induced velocity (Glauert)", "m/s", None),
+    ("Flight state", "flight.hover_induced_velocity_m_s", "Hover induced velocity v_h", "m/s", None),
+    ("Flight state", "flight.edgewise_advance_ratio", "Edgewise advance ratio μ", "", None),
+    ("Flight state", "flight.hover_electrical_power_w", "Electrical power in hover (craft)", "W", "low"),
+    ("Flight state", "flight.power_vs_hover", "Power ÷ hover", "", "low"),
+]
+"""Rows of a multirotor flight state (forward flight, climb, coaxial), shown when an entry has one; full throttle
+stays static."""
 PART_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
 
 
@@ -113,7 +124,10 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
         )
     rows = []
     flying = [e["metrics"]["cruise"]["status"] in FLYING for e in entries]
-    for group, key, label, unit, better in COMPARE_ROWS:
+    has_flight = any(e["metrics"].get("flight") for e in entries)
+    at = next(i for i, r in enumerate(COMPARE_ROWS) if r[0] == "Full throttle")
+    table = COMPARE_ROWS[:at] + FLIGHT_ROWS + COMPARE_ROWS[at:] if has_flight else COMPARE_ROWS
+    for group, key, label, unit, better in table:
         values = [lookup(e["metrics"], key) for e in entries]
         rows.append({"group": group, "key": key, "label": label, "unit": unit, "better": better,
                      "values": values, "best": _best(values, better, flying)})

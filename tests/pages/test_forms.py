@@ -45,7 +45,7 @@ def test_airframe_and_mission_with_every_optional_field_blank(app: FastAPI, clie
     assert client.post("/airframes", data=airframe, follow_redirects=False).status_code == 303
     page = soup(client.get("/missions").text)
     kind = page.select_one("select[name=kind]")
-    assert [o["value"] for o in kind.select("option")] == ["hover", "cruise"]  # a select, not a text box
+    assert [o["value"] for o in kind.select("option")] == ["hover", "cruise", "forward_flight"]  # a select
     mission = form_of(page, "form[action='/missions']") | {"name": "Blank survey"}
     assert mission["min_thrust_to_weight"] == "" and mission["duty_min"] == ""
     saved = client.post("/missions", data=mission, follow_redirects=False)
@@ -61,6 +61,37 @@ def test_airframe_and_mission_with_every_optional_field_blank(app: FastAPI, clie
     assert "blank: 2" in help_line
 
 
+def test_forward_flight_fields_through_the_forms(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    login(client, team.owner_email)
+    page = soup(client.get("/missions").text)
+    coaxial = page.select_one("select[name=coaxial]")
+    assert [o["value"] for o in coaxial.select("option")] == ["false", "true"]  # yes/no, "no" shown by default
+    assert coaxial.select_one("option[selected]")["value"] == "false"
+    airframe = form_of(page, "form[action='/airframes']") | {"name": "X8 mapper", "rotor_count": "8",
+                                                              "frame_mass_g": "1800", "drag_area_m2": "0.04",
+                                                              "frontal_area_note": "pod and gimbal", "coaxial": "true"}
+    assert client.post("/airframes", data=airframe, follow_redirects=False).status_code == 303
+    stored = client.get("/api/v1/airframes", headers=team.headers()).json()[0]
+    assert (stored["coaxial"], stored["drag_area_m2"], stored["frontal_area_note"]) == (True, 0.04, "pod and gimbal")
+    page = soup(client.get("/missions").text)
+    assert "coaxial pairs" in page.select_one("article.airframe").text
+    mission = form_of(page, "form[action='/missions']") | {"name": "Transit", "kind": "forward_flight",
+                                                            "cruise_airspeed_m_s": "12", "climb_rate_m_s": "-1.5"}
+    assert "blank: 0" in page.select_one("#m-climb_rate_m_s-help").text
+    saved = client.post("/missions", data=mission, follow_redirects=False)
+    assert saved.status_code == 303, soup(saved.text).select(".error")
+    stored = client.get("/api/v1/missions", headers=team.headers()).json()[0]
+    assert (stored["kind"], stored["cruise_airspeed_m_s"], stored["climb_rate_m_s"]) == ("forward_flight", 12.0, -1.5)
+    assert "12.0 m/s forward, descent 1.50 m/s" in " ".join(soup(client.get("/missions").text).select_one(
+        "article.airframe tbody tr").text.split()).replace("\xa0", " ")
+    # An odd coaxial craft is refused on the form, naming the field, and nothing is saved.
+    bad = airframe | {"name": "Odd", "rotor_count": "5"}
+    refused = client.post("/airframes", data=bad, follow_redirects=False)
+    assert refused.status_code in (400, 422) and "coaxial" in refused.text
+    assert len(client.get("/api/v1/airframes", headers=team.headers()).json()) == 1
+
+
 def test_plain_messages_instead_of_the_validators(app: FastAPI, client: TestClient) -> None:
     team = make_team(app)
     h = team.headers()
@@ -73,7 +104,7 @@ def test_plain_messages_instead_of_the_validators(app: FastAPI, client: TestClie
     cells = client.post("/api/v1/parts/escs", json=part_payload("escs", min_cells="six"), headers=h)
     assert first(cells) == {"field": "min_cells", "message": "must be a whole number"}
     kind = client.post("/api/v1/missions", json={"name": "x", "airframe_id": 1, "kind": "Hovering"}, headers=h)
-    assert {"field": "kind", "message": "must be hover or cruise"} in [
+    assert {"field": "kind", "message": "must be hover, cruise or forward_flight"} in [
         {k: e[k] for k in ("field", "message")} for e in kind.json()["errors"]]
     swapped = client.post("/api/v1/parts/escs", json=part_payload("escs", min_cells=6, max_cells=3), headers=h)
     assert first(swapped) == {"field": "min_cells", "message": "must not be above the highest cell count (max_cells)"}

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from server.physics import atmosphere, drive, endurance, sizing
+from server.physics import atmosphere, drive, endurance, forward_flight, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.esc import EscParams
@@ -84,7 +84,8 @@ def _hot(motor: MotorParams, temperature_c: float) -> MotorParams:
 
 
 def _heated(common: dict, mission: MissionSpec, air_c: float, thrust: float, voc: object,
-            limits: tuple[float, float, float]) -> tuple[dict, dict, tuple[float, float]]:
+            limits: tuple[float, float, float],
+            flight: forward_flight.FlightState | None = None) -> tuple[dict, dict, tuple[float, float]]:
     """Cruise and full-throttle solver arguments at temperature, and the (cruise, after-burst) winding temperatures.
 
     Independent of the engine's closed forms: the cruise temperature by plain fixed-point iteration of
@@ -94,7 +95,8 @@ def _heated(common: dict, mission: MissionSpec, air_c: float, thrust: float, voc
     cold = dict(common, pack_resistance_ohm=common["pack_resistance_ohm"] * _pack_factor(air_c))
     motor = cold["motor"]
     r20 = float(motor.resistance_ohm)
-    op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **cold)  # type: ignore[operator]
+    op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), flight=flight,  # type: ignore[operator]
+                          **cold)
     i, p0 = float(op.motor_current_a[0]), float(op.motor_no_load_loss_w[0])
     t = air_c
     for _ in range(2000):
@@ -124,17 +126,21 @@ def _heated(common: dict, mission: MissionSpec, air_c: float, thrust: float, voc
 
 
 def _cold_day(common: dict, mission: MissionSpec, thrust: float, voc: object, mass: float, capacity_ah: float,
-              limits: tuple[float, float, float]) -> tuple[bool, bool]:
+              limits: tuple[float, float, float], diameter_m: float) -> tuple[bool, bool]:
     """(thrust-to-weight and bus hold, endurance holds) at the mission's cold-day air temperature."""
     air_c = float(mission.cold_day_temperature_c)  # type: ignore[arg-type]
     isa_c = float(atmosphere.standard_temperature_k(mission.altitude_m)) - 273.15
     rho = float(atmosphere.air_density_kg_m3(mission.altitude_m, air_c - isa_c))
     common = dict(common, density_kg_m3=rho)
+    flight = _flight(mission, mass, diameter_m, rho)  # forward flight in the cold air: more drag
+    if flight is not None:
+        thrust = float(flight.thrust_n)
     if mission.temperature_effects:
-        cruise, full_args, _ = _heated(common, mission, air_c, thrust, voc, limits)
+        cruise, full_args, _ = _heated(common, mission, air_c, thrust, voc, limits, flight)
     else:
         cruise = full_args = dict(common, pack_resistance_ohm=common["pack_resistance_ohm"] * _pack_factor(air_c))
-    op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **cruise)  # type: ignore[operator]
+    op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), flight=flight,  # type: ignore[operator]
+                          **cruise)
     low_voc, full_voc = voc(1.0 - mission.usable_fraction), voc(1.0)  # type: ignore[operator]
     low = drive.full_throttle(open_circuit_voltage_v=low_voc, **full_args)
     full = drive.full_throttle(open_circuit_voltage_v=full_voc, **full_args)
@@ -144,6 +150,20 @@ def _cold_day(common: dict, mission: MissionSpec, thrust: float, voc: object, ma
     reachable = int(op.status[0]) in (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR)
     minutes = mission.usable_fraction * capacity_ah * 60.0 / float(op.pack_current_a[0]) if reachable else math.nan
     return tw >= mission.min_thrust_to_weight and holds, minutes >= mission.min_endurance_min
+
+
+def _flight(mission: MissionSpec, mass_kg: object, diameter_m: object,
+            density_kg_m3: float | None = None) -> forward_flight.FlightState | None:
+    """The multirotor flight state from the physics module directly (not through MissionSpec): forward flight at
+    the mission's airspeed, any climb rate, coaxial pairs; None for a plain hover or a fixed-wing cruise."""
+    if mission.kind == "cruise" or (mission.kind == "hover" and mission.climb_rate_m_s == 0 and not mission.coaxial):
+        return None
+    speed = mission.cruise_airspeed_m_s if mission.kind == "forward_flight" else 0.0
+    d = np.asarray(diameter_m, dtype=float)
+    return forward_flight.flight_state(np.asarray(mass_kg, dtype=float) * G0, float(mission.rotor_count),
+                                       math.pi * d * d / 4.0, mission.density_kg_m3 if density_kg_m3 is None
+                                       else density_kg_m3, speed, mission.climb_rate_m_s,
+                                       mission.drag_area_m2, mission.coaxial)
 
 
 def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int], list[Record]]:
@@ -163,14 +183,14 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
         missing = (any(math.isnan(float(v)) for v in (pk.cell_resistance_ohm[p], pk.capacity_ah[p], pk.mass_kg[p]))
                    or math.isnan(float(mo.resistance_ohm[m])) or math.isnan(float(mo.no_load_current_a[m]))
                    or math.isnan(float(es.continuous_current_a[e])) or math.isnan(float(pr.diameter_m[q]))
-                   or (mission.kind == "hover" and x.size == 0))
+                   or (mission.kind != "cruise" and x.size == 0))
         if missing:
             reason = "missing_data"
         elif x.size and not _table_physical(x, ct, cp, forward=mission.kind == "cruise"):
             reason = "prop_data_invalid"
         elif float(pr.diameter_in[q]) > mission.max_prop_diameter_in:
             reason = "prop_too_large"
-        elif str(pr.application[q]) not in ("any", "multirotor" if mission.kind == "hover" else "fixed_wing"):
+        elif str(pr.application[q]) not in ("any", "fixed_wing" if mission.kind == "cruise" else "multirotor"):
             reason = "prop_application"
         elif x.size == 0:
             reason = "no_forward_table"
@@ -183,8 +203,10 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             continue
         mass = float(sizing.all_up_mass_kg(mission.frame_mass_kg + mission.payload_kg, k, float(pk.mass_kg[p]), n_r,
                                            float(es.mass_kg[e]), float(mo.mass_kg[m]), float(pr.mass_kg[q])))
+        flight = _flight(mission, mass, float(pr.diameter_m[q]))
         thrust = float(sizing.thrust_per_rotor_n(mass, n_r, 1.0 if mission.kind == "hover"
-                                                 else 1.0 / mission.lift_to_drag))
+                                                 else 1.0 / mission.lift_to_drag)) if flight is None else float(
+            flight.thrust_n)
         motor = MotorParams(float(mo.kv_rpm_per_v[m]), float(mo.resistance_ohm[m]), float(mo.no_load_current_a[m]),
                             inductance_h=_or(float(mo.inductance_h[m]), 30e-6),
                             max_current_a=float(mo.max_current_a[m]))
@@ -210,16 +232,18 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
         winding = None
         if mission.temperature_effects:
             common, full_common, winding = _heated(common, mission, mission.air_temperature_c, thrust, voc,
-                                                   thermal_limits)
+                                                   thermal_limits, flight)
         else:
             full_common = common
-        op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), **common)
+        op = drive.for_thrust(thrust, open_circuit_voltage_v=voc(mission.cruise_state_of_charge), flight=flight,
+                              **common)
         low = drive.full_throttle(open_circuit_voltage_v=voc(1.0 - mission.usable_fraction), **full_common)
         full = drive.full_throttle(open_circuit_voltage_v=voc(1.0), **full_common)
         cold_ok = cold_endurance_ok = True
         if mission.cold_day_temperature_c is not None:
             cold_ok, cold_endurance_ok = _cold_day(dict(common, motor=motor, pack_resistance_ohm=pack_r), mission,
-                                                   thrust, voc, mass, float(pk.capacity_ah[p]) * k, thermal_limits)
+                                                   thrust, voc, mass, float(pk.capacity_ah[p]) * k, thermal_limits,
+                                                   float(pr.diameter_m[q]))
         tw = n_r * float(low.thrust_n[0]) / (mass * G0)
         i_full = float(full.motor_current_a[0])
         capacity = float(pk.capacity_ah[p]) * k
@@ -260,7 +284,7 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             "bus_current_a": pack_current, "drive_efficiency": float(op.drive_efficiency[0]),
             "thrust_n": float(op.thrust_n[0]), "full_motor_current_a": i_full,
             "full_thrust_n": float(low.thrust_n[0]), "extra_loss_w": float(op.extra_loss_w[0]),
-            "cruise_thrust_n": thrust,
+            "cruise_thrust_n": thrust, "diameter_m": float(pr.diameter_m[q]),
             "cruise_winding_resistance_ohm": float(common["motor"].resistance_ohm)}, tie=tuple(  # type: ignore[arg-type]
                 0.0 if lib.assumed is None else float(lib.assumed[i])
                 for lib, i in ((pk, p), (es, e), (mo, m), (pr, q)))))
@@ -288,7 +312,9 @@ def refine(library: PartsLibrary, mission: MissionSpec, records: list[Record]) -
                           inductance_h=np.where(np.isnan(mo.inductance_h[m]), 30e-6, mo.inductance_h[m]),
                           max_current_a=mo.max_current_a[m]),
         esc=es.params(e), propeller=table.take(q), rotor_count=float(mission.rotor_count),
-        density_kg_m3=mission.density_kg_m3, airspeed_m_s=mission.airspeed_m_s)
+        density_kg_m3=mission.density_kg_m3, airspeed_m_s=mission.airspeed_m_s,
+        flight=_flight(mission, np.array([r.metrics["mass_kg"] for r in records]),
+                       np.array([r.metrics["diameter_m"] for r in records])))
     for r, t in zip(records, np.asarray(result.time_s) / 60.0, strict=True):
         r.metrics["refined_endurance_min"] = float(t)
 

@@ -23,6 +23,17 @@ MISSIONS = {
     "hot_burst": parts.hover_mission(temperature_effects=True, temperature_offset_c=30.0, burst_s=30.0),
     # A cold-day re-check at -15 °C (pack resistance x 2.6, denser air) on the plain hover mission.
     "cold_day": parts.hover_mission(cold_day_temperature_c=-15.0, min_thrust_to_weight=1.6),
+    # A quad flying forward at 12 m/s with a drag area (docs/model-reference.md#multirotor-flight-state).
+    "forward_flight": parts.hover_mission(kind="forward_flight", cruise_airspeed_m_s=12.0, drag_area_m2=0.03),
+    # The same quad climbing at 2 m/s, and a coaxial X8 descending at 1.5 m/s.
+    "climb": parts.hover_mission(climb_rate_m_s=2.0, drag_area_m2=0.03),
+    "coaxial_descent": parts.hover_mission(rotor_count=8, frame_mass_kg=1.3, coaxial=True, climb_rate_m_s=-1.5,
+                                           kind="forward_flight", cruise_airspeed_m_s=3.0, drag_area_m2=0.03),
+    # Forward flight on a hot day with a burst and a cold-day re-check: the winding heats at the forward-flight
+    # current, the cold day flies forward in denser air (more drag).
+    "forward_hot_cold": parts.hover_mission(kind="forward_flight", cruise_airspeed_m_s=12.0, drag_area_m2=0.03,
+                                            temperature_effects=True, temperature_offset_c=30.0, burst_s=30.0,
+                                            cold_day_temperature_c=-15.0, min_thrust_to_weight=1.6),
 }
 
 
@@ -46,7 +57,8 @@ def _brute_key(record: brute.Record) -> tuple[object, ...]:
 
 
 @pytest.mark.parametrize("objective", ["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
-@pytest.mark.parametrize("kind", ["hover", "cruise", "hexa_motor_out", "hot_burst", "cold_day"])
+@pytest.mark.parametrize("kind", ["hover", "cruise", "hexa_motor_out", "hot_burst", "cold_day", "forward_flight",
+                                  "climb", "coaxial_descent", "forward_hot_cold"])
 def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objective: str) -> None:
     mission: MissionSpec = MISSIONS[kind]
     counts, feasible = reference[kind]
