@@ -22,6 +22,8 @@ INTENDED = [
     ("Q4 mapping survey", "NS-B6S-5000", "NS-E30", "NS-M4010-370", "NS-P13x4.4", 1),
     ("Q4 mapping survey, hot and high", "NS-B4S-5200", "NS-E30", "NS-M3508-580", "NS-P13x4.4", 1),
     ("Q4 mapping survey, hot and high", "NS-B6S-5000", "NS-E30", "NS-M4010-370", "NS-P13x4.4", 1),
+    ("Q4 mapping transit, 12 m/s", "NS-B4S-5200", "NS-E30", "NS-M3508-460", "NS-P13x4.4", 1),
+    ("Q4 mapping transit, 12 m/s", "NS-B6S-5000", "NS-E30", "NS-M4010-370", "NS-P13x4.4", 1),
     ("H6 structure inspection", "NS-B6S-16000", "NS-E45", "NS-M6010-190", "NS-P22x7.2", 1),
     ("H6 structure inspection", "NS-B12S-12000", "NS-E60", "NS-M6010-130", "NS-P20x6.5", 1),
     ("V1 corridor cruise", "NS-B6S-10000", "NS-E80", "NS-M4120-420", "NS-PF13x8", 1),

@@ -29,7 +29,7 @@ OVERRIDES = [
 ]
 POINT_WORDS = {"thrust_n": "{:g} N", "rpm": "{:g} rpm", "throttle": "throttle {:g}"}  # a requested point, for people
 SCALARS = ["rotor_count", "all_up_mass_g", "supply_voltage_v", "packs_in_parallel", "state_of_charge", "altitude_m",
-           "temperature_offset_c", "airspeed_m_s"]
+           "temperature_offset_c", "airspeed_m_s", "forward_airspeed_m_s", "climb_rate_m_s", "drag_area_m2", "coaxial"]
 
 
 def _numbers(text: str) -> list[float]:
@@ -50,7 +50,8 @@ def build_request(q: dict[str, str]) -> dict[str, Any]:
     for name in ("packs_in_parallel", "state_of_charge"):
         if q.get(name) and "supply_voltage_v" not in body["battery"]:
             body["battery"][name] = q[name]
-    for name in ("altitude_m", "temperature_offset_c", "airspeed_m_s"):
+    for name in ("altitude_m", "temperature_offset_c", "airspeed_m_s", "forward_airspeed_m_s", "climb_rate_m_s",
+                 "drag_area_m2", "coaxial"):
         if q.get(name):
             body["conditions"][name] = q[name]
     for name in ("rotor_count", "all_up_mass_g"):

@@ -221,6 +221,26 @@ def shaft_torque_nm(static_torque_nm: ArrayLike, omega_rad_s: ArrayLike, radius_
     return torque
 
 
+def weight_for_rotor_thrust_n(thrust_n: ArrayLike, rotor_count: ArrayLike, density_kg_m3: ArrayLike,
+                              airspeed_m_s: ArrayLike = 0.0, climb_rate_m_s: ArrayLike = 0.0,
+                              drag_area_m2: ArrayLike = 0.0) -> FloatArray:
+    """The weight that rotors making ``thrust_n`` each carry in this flight (inverse of :func:`craft_thrust_n`). [N]
+
+    ``N T`` balances weight and drag: ``T_z = sqrt((N T)^2 - T_x^2)``, ``W = T_z - D V_c / V_rel``; NaN where the
+    thrust cannot even balance the drag.
+    """
+    total = as_float_array(thrust_n) * as_float_array(rotor_count)
+    v = as_float_array(airspeed_m_s)
+    vc = as_float_array(climb_rate_m_s)
+    v_rel = np.hypot(v, vc)
+    drag = 0.5 * as_float_array(density_kg_m3) * v_rel * v_rel * as_float_array(drag_area_m2)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        per_speed = np.where(v_rel > 0.0, drag / v_rel, 0.0)
+        vertical = np.sqrt(total * total - (per_speed * v) ** 2)
+        weight: FloatArray = vertical - per_speed * vc
+    return np.where(weight > 0.0, weight, np.nan)
+
+
 def weight_n(mass_kg: ArrayLike) -> FloatArray:
     """Weight ``m g0``. [N]"""
     return as_float_array(mass_kg) * STANDARD_GRAVITY_M_S2

@@ -7,7 +7,7 @@ from typing import TYPE_CHECKING, Any, Literal, TypeAlias
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import ranged
-from server.schemas.evaluation import LossBreakdown
+from server.schemas.evaluation import FlightStateRead, LossBreakdown
 from server.schemas.parts import ForwardRow, StaticRow
 
 if TYPE_CHECKING:  # the pydantic constrained-type pattern: mypy sees the plain type
@@ -85,12 +85,28 @@ class Conditions(BaseModel):
     temperature_offset_c: ranged(float, -60, 60, "°C", description="Offset from ISA") | None = None  # type: ignore[valid-type]
     air_temperature_c: ranged(float, -60, 60, "°C", description="Measured air temperature") | None = None  # type: ignore[valid-type]
     airspeed_m_s: ranged(float, 0, 150, "m/s", description="Axial airspeed (forward table)") = 0.0  # type: ignore[valid-type]
+    forward_airspeed_m_s: ranged(  # type: ignore[valid-type]
+        float, 0, 60, "m/s", description="Horizontal airspeed of a multirotor: thrust points in forward flight "
+                                         "(static table, docs/model-reference.md#multirotor-flight-state)") = 0.0
+    climb_rate_m_s: ranged(  # type: ignore[valid-type]
+        float, -10, 20, "m/s", description="Climb rate of a multirotor at thrust points (negative: descent)") = 0.0
+    drag_area_m2: ranged(  # type: ignore[valid-type]
+        float, 0, 5, "m²", description="Airframe drag area C_D·A in forward flight and climb") = 0.0
+    coaxial: bool = False  # rotors stacked in coaxial pairs: induced power × 1.2808 at thrust points
 
     @model_validator(mode="after")
     def _one_temperature(self) -> Conditions:
         if self.temperature_offset_c is not None and self.air_temperature_c is not None:
             raise ValueError("air_temperature_c: give either temperature_offset_c or air_temperature_c")
+        if self.airspeed_m_s > 0 and (self.forward_airspeed_m_s > 0 or self.climb_rate_m_s != 0 or self.coaxial):
+            raise ValueError("airspeed_m_s: the axial airspeed reads a fixed-wing forward table; a multirotor's flight "
+                             "(forward_airspeed_m_s, climb_rate_m_s, coaxial) uses the static table")
         return self
+
+    @property
+    def multirotor_flight(self) -> bool:
+        """Thrust points take the multirotor flight state (forward flight, climb or descent, coaxial pairs)."""
+        return self.forward_airspeed_m_s > 0 or self.climb_rate_m_s != 0 or self.coaxial
 
 
 class PointIn(BaseModel):
@@ -196,6 +212,8 @@ class PointOut(BaseModel):
     craft: Craft
     warnings: list[str]
     bands: PointBands | None = None
+    flight: FlightStateRead | None = Field(default=None, description="Multirotor flight state of a thrust point "
+                                                                     "(with forward_airspeed_m_s, climb or coaxial)")
 
 
 class EnduranceOut(BaseModel):

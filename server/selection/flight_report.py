@@ -31,10 +31,19 @@ def _f(value: Any) -> float | None:
     return number if math.isfinite(number) else None
 
 
-def flight_report(mission: MissionSpec, state: FlightState, hover_ideal_power_w: Any, omega_rad_s: Any,
-                  diameter_m: Any, electrical_power_w: Any, hover_electrical_power_w: Any) -> dict[str, Any]:
+def described(mission: MissionSpec) -> dict[str, Any]:
+    """The flight a mission asks for, as :func:`flight_report` lists it."""
+    return {"kind": mission.kind, "airspeed_m_s": mission.horizontal_airspeed_m_s,
+            "climb_rate_m_s": mission.climb_rate_m_s, "drag_area_m2": mission.drag_area_m2,
+            "coaxial": mission.coaxial}
+
+
+def flight_report(mission: MissionSpec | dict[str, Any], state: FlightState, hover_ideal_power_w: Any,
+                  omega_rad_s: Any, diameter_m: Any, electrical_power_w: Any,
+                  hover_electrical_power_w: Any) -> dict[str, Any]:
     """One candidate's flight state in SI (per rotor unless named craft), for the API and the pages.
 
+    ``mission``: the mission, or the :func:`described` fields of a flight without one (predict);
     ``hover_ideal_power_w``: ideal power of one rotor of the same craft hovering [W]; ``electrical_power_w`` and
     ``hover_electrical_power_w``: craft electrical power at the cruise point and in hover [W].
     """
@@ -45,8 +54,7 @@ def flight_report(mission: MissionSpec, state: FlightState, hover_ideal_power_w:
     power, hover = _f(electrical_power_w), _f(hover_electrical_power_w)
     ideal, hover_ideal = _f(state.ideal_power_w), _f(hover_ideal_power_w)
     return {
-        "kind": mission.kind, "airspeed_m_s": mission.horizontal_airspeed_m_s,
-        "climb_rate_m_s": mission.climb_rate_m_s, "drag_area_m2": mission.drag_area_m2, "coaxial": mission.coaxial,
+        **(described(mission) if isinstance(mission, MissionSpec) else mission),
         "induced_factor": _f(state.induced_factor), "tilt_deg": None if (t := _f(state.tilt_rad)) is None
         else math.degrees(t), "drag_n": _f(state.drag_n), "thrust_per_rotor_n": _f(state.thrust_n),
         "induced_velocity_m_s": _f(state.induced_velocity_m_s),

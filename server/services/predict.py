@@ -9,12 +9,13 @@ import numpy as np
 from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput
-from server.physics import atmosphere, drive, endurance, fast, uncertainty
+from server.physics import atmosphere, drive, endurance, fast, forward_flight, uncertainty
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
-from server.physics.propeller import PropellerTable, tip_mach_number
+from server.physics.propeller import PropellerTable, disk_area_m2, tip_mach_number
 from server.schemas.predict import PredictRequest
+from server.selection.flight_report import flight_report
 from server.services import bands
 from server.services import power_system as ps
 
@@ -74,6 +75,20 @@ class System:
             "rotor_count": self.request.rotor_count, "density_kg_m3": self.density, "airspeed_m_s": self.airspeed,
         }
 
+    def flight(self, thrust_n: Any, coaxial_only: bool = False) -> forward_flight.FlightState | None:
+        """The multirotor flight state of rotors making ``thrust_n`` each (None without a multirotor flight): the
+        craft's weight is what that thrust carries at the conditions' airspeed, climb rate and drag area.
+        ``coaxial_only``: the same craft hovering (the comparison "vs hover")."""
+        c = self.request.conditions
+        if not c.multirotor_flight:
+            return None
+        n = float(self.request.rotor_count)
+        speed, climb = (0.0, 0.0) if coaxial_only else (c.forward_airspeed_m_s, c.climb_rate_m_s)
+        weight = forward_flight.weight_for_rotor_thrust_n(thrust_n, n, self.density, c.forward_airspeed_m_s,
+                                                          c.climb_rate_m_s, c.drag_area_m2)
+        return forward_flight.flight_state(weight, n, disk_area_m2(self.table.diameter_m), self.density, speed, climb,
+                                           c.drag_area_m2, c.coaxial)
+
     def parameters(self) -> dict[str, dict[str, dict[str, Any]]]:
         return {"battery": self.battery.report(), "esc": self.esc.report(), "motor": self.motor.report(),
                 "propeller": self.prop.report()}
@@ -88,7 +103,8 @@ def solve_points(system: System, kinds: list[str], values: np.ndarray) -> Operat
         mask = kinds_arr == kind
         if not mask.any():
             continue
-        op = fn(values[mask], **system.solve_kwargs())
+        extra: dict[str, Any] = {"flight": system.flight(values[mask])} if kind == "thrust_n" else {}
+        op = fn(values[mask], **system.solve_kwargs(), **extra)
         if merged is None:
             merged = op.map(lambda a: np.zeros(n, dtype=np.asarray(a).dtype) if np.asarray(a).dtype.kind in "ib"
                             else np.full(n, np.nan))
@@ -101,6 +117,37 @@ def solve_points(system: System, kinds: list[str], values: np.ndarray) -> Operat
         merged = merged.map(scatter, op)
     assert merged is not None  # the request has at least one point (schema)
     return merged
+
+
+def _flight_points(system: System, kinds: list[str], values: np.ndarray, op: OperatingPoint,
+                   points: list[dict[str, Any]]) -> None:
+    """Each thrust point's multirotor flight state and its power against the same craft hovering; throttle and rpm
+    points stay static (they say so)."""
+    c = system.request.conditions
+    if not c.multirotor_flight:
+        return
+    rotors = float(system.request.rotor_count)
+    which = np.flatnonzero(np.array(kinds) == "thrust_n")
+    state = system.flight(values[which])
+    assert state is not None
+    hover_thrust = forward_flight.weight_for_rotor_thrust_n(
+        values[which], rotors, system.density, c.forward_airspeed_m_s, c.climb_rate_m_s, c.drag_area_m2) / rotors
+    hover_state = system.flight(values[which], coaxial_only=True)
+    hovering = drive.for_thrust(hover_thrust, **system.solve_kwargs(), flight=hover_state if c.coaxial else None)
+    described = {"kind": "forward_flight" if c.forward_airspeed_m_s > 0 else "hover",
+                 "airspeed_m_s": c.forward_airspeed_m_s, "climb_rate_m_s": c.climb_rate_m_s,
+                 "drag_area_m2": c.drag_area_m2, "coaxial": c.coaxial}
+    for j, i in enumerate(which):
+        one = forward_flight.FlightState(**{name: np.ravel(np.broadcast_to(value, which.shape))[j:j + 1]
+                                            for name, value in vars(state).items()})
+        assert hover_state is not None
+        points[i]["flight"] = flight_report(
+            described, one, np.ravel(np.broadcast_to(hover_state.ideal_power_w, which.shape))[j],
+            op.omega_rad_s[i], system.table.diameter_m, op.electrical_power_w[i] * rotors,
+            hovering.electrical_power_w[j] * rotors)
+    for i in np.flatnonzero(np.array(kinds) != "thrust_n"):
+        points[i]["warnings"].append("throttle and rpm points are the static rotor's; the multirotor flight state "
+                                     "applies to thrust points")
 
 
 def _warnings(system: System, op: OperatingPoint, i: int) -> list[str]:
@@ -196,7 +243,8 @@ def _endurance(system: System) -> dict[str, Any] | None:
         for key in ("open_circuit_voltage_v", "pack_resistance_ohm"):
             kwargs.pop(key)
         assert spec.thrust_n is not None  # EnduranceIn: exactly one of thrust_n and power_w is given
-        result = endurance.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc, **kwargs)
+        result = endurance.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc,
+                                           flight=system.flight(spec.thrust_n), **kwargs)
         start, end = _state(result.start), _state(result.end)
     seconds = _f(np.ravel(result.time_s)[0])
     return {
@@ -235,7 +283,8 @@ def point_bands(system: System, kinds: list[str], values: np.ndarray, d: bands.D
         mask = np.flatnonzero(kinds_arr == kind)
         if not mask.size:
             continue
-        op = fn(values[mask][None, :], **kwargs)
+        extra: dict[str, Any] = {"flight": system.flight(values[mask][None, :])} if kind == "thrust_n" else {}
+        op = fn(values[mask][None, :], **kwargs, **extra)
         solved = np.isin(op.status, [Status.OK, Status.OVER_CURRENT])
         for name, array in (("electrical_power_w", op.electrical_power_w * d.discrepancy),
                             ("thrust_n", op.thrust_n), ("motor_current_a", op.motor_current_a)):
@@ -274,7 +323,7 @@ def endurance_band(system: System, d: bands.Draws) -> list[float | None] | None:
         voc = pack.cells_series[:, None] * open_circuit_voltage_per_cell_v(nodes, pack.full_voltage_per_cell_v)
         kwargs = _drawn_kwargs(system, d) | {"open_circuit_voltage_v": voc}
         kwargs["pack_resistance_ohm"] = np.asarray(pack.resistance_ohm)[:, None]
-        op = drive.for_thrust(spec.thrust_n, **kwargs)
+        op = drive.for_thrust(spec.thrust_n, **kwargs, flight=system.flight(spec.thrust_n))
         reachable = ~np.isin(op.status, [Status.INFEASIBLE_THRUST, Status.NO_SOLUTION, Status.POWER_LIMIT])
         result = fast.march_constant_thrust(nodes, op.pack_current_a * d.discrepancy, op.bus_voltage_v, op.duty,
                                             reachable, op.status == Status.NON_FINITE, pack=pack,
@@ -291,6 +340,7 @@ def predict(session: Session | None, team_id: int | None, request: PredictReques
     values = np.array([getattr(p, p.kind) for p in request.points], dtype=float)
     op = solve_points(system, kinds, values)
     points = [_point(system, op, i, {kinds[i]: float(values[i])}) for i in range(len(kinds))]
+    _flight_points(system, kinds, values, op, points)
     d = bands.draws(system.system)
     for point, b in zip(points, point_bands(system, kinds, values, d), strict=True):
         point["bands"] = b

@@ -66,3 +66,25 @@ def test_forward_flight_mission_round_trip_and_errors(app: FastAPI, client: Test
         r = client.post("/api/v1/missions", headers=h, json={**base, **fields})
         assert r.status_code == 422, (fields, r.text)
         assert name in r.text
+
+
+def test_predict_flight_conditions(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    h = team.headers()
+    base = {"battery": {"supply_voltage_v": 14.8}, "motor": {"kv_rpm_per_v": 460, "winding_resistance_ohm": 0.1,
+                                                              "no_load_current_a": 0.5},
+            "propeller": {"diameter_in": 13, "pitch_in": 4.4, "ct": 0.11, "cp": 0.045}, "rotor_count": 4,
+            "points": [{"thrust_n": 6.0}]}
+    hover = client.post("/api/v1/predict", headers=h, json=base)
+    forward = client.post("/api/v1/predict", headers=h, json={
+        **base, "conditions": {"forward_airspeed_m_s": 12.0, "drag_area_m2": 0.03}})
+    assert hover.status_code == 200 and forward.status_code == 200, forward.text
+    assert hover.json()["points"][0].get("flight") is None
+    flight = forward.json()["points"][0]["flight"]
+    assert flight["kind"] == "forward_flight" and flight["tilt_deg"] > 0 and flight["power_vs_hover"] < 1
+    assert forward.json()["points"][0]["electrical_power_w"] < hover.json()["points"][0]["electrical_power_w"]
+    for conditions, name in (({"airspeed_m_s": 10.0, "forward_airspeed_m_s": 12.0}, "airspeed_m_s"),
+                             ({"forward_airspeed_m_s": 90.0}, "forward_airspeed_m_s"),
+                             ({"drag_area_m2": -1}, "drag_area_m2")):
+        r = client.post("/api/v1/predict", headers=h, json={**base, "conditions": conditions})
+        assert r.status_code == 422 and name in r.text, r.text

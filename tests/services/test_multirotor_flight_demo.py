@@ -9,7 +9,8 @@ from sqlalchemy import select
 
 from server.db import transaction
 from server.models import Mission
-from server.services import candidate, explain, rankings
+from server.schemas.predict import PredictRequest
+from server.services import candidate, explain, predict, rankings
 
 pytestmark = pytest.mark.demo_data
 REL = 1e-6
@@ -33,6 +34,7 @@ def test_forward_flight_winner_is_explained_and_compared_alike(app: FastAPI, cli
         verdict = explain.explain(session, team_id=team_id, mission_id=mission_id, **ids)
         mission = session.get(Mission, mission_id)
         assert mission is not None
+        mission_soc = mission.cruise_state_of_charge
         evaluated = candidate.evaluate(session, team_id=team_id, mission=mission, ids=candidate.CandidateIds(**ids))
     assert verdict["feasible"]
     engine, reference = verdict["flight"], evaluated["flight"]
@@ -43,3 +45,18 @@ def test_forward_flight_winner_is_explained_and_compared_alike(app: FastAPI, cli
     assert top["cruise"]["electrical_power_w"] == pytest.approx(reference["electrical_power_w"], rel=REL)
     assert 0.5 < engine["power_vs_hover"] < 1.0  # 12 m/s with C_D A 0.03 m^2: below hover for a 2.4 kg quad
     assert 3.0 < engine["tilt_deg"] < 10.0
+    # Predict at the same thrust per rotor, airspeed, drag area and state of charge reports the same numbers (the
+    # craft's weight follows from the thrust: N T = hypot(D, W)).
+    request = PredictRequest.model_validate({
+        "battery": {"id": ids["battery_id"], "state_of_charge": mission_soc, "packs_in_parallel": 1},
+        "esc": {"id": ids["esc_id"]}, "motor": {"id": ids["motor_id"]}, "propeller": {"id": ids["propeller_id"]},
+        "rotor_count": 4, "conditions": {"altitude_m": 300, "forward_airspeed_m_s": 12.0, "drag_area_m2": 0.03},
+        "points": [{"thrust_n": evaluated["thrust_required_n"]}, {"throttle": 0.5}]})
+    with factory() as session:
+        predicted = predict.predict(session, team_id, request)
+    point = predicted["points"][0]
+    assert point["flight"]["tilt_deg"] == pytest.approx(reference["tilt_deg"], rel=1e-9)
+    assert point["flight"]["power_vs_hover"] == pytest.approx(reference["power_vs_hover"], rel=1e-9)
+    assert point["craft"]["electrical_power_w"] == pytest.approx(reference["electrical_power_w"], rel=1e-9)
+    assert predicted["points"][1].get("flight") is None
+    assert any("static rotor" in w for w in predicted["points"][1]["warnings"])
