@@ -19,6 +19,7 @@ import math
 import resource
 import sys
 import time
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -149,6 +150,9 @@ def main() -> None:
     parser.add_argument("--chunk-size", type=int, default=65_536)
     parser.add_argument("--scalar-sample", type=int, default=300)
     parser.add_argument("--top", type=int, default=50)
+    parser.add_argument("--forward-flight", type=float, default=0.0, metavar="V",
+                        help="also rank the same craft in forward flight at V m/s (drag area 0.03 m^2) and print the "
+                             "ratio of its time to the hover ranking's")
     args = parser.parse_args()
     library = make_library(args.combinations)
     print(f"library: packs x ESCs x motors x propellers = {' x '.join(str(s) for s in library.sizes)}")
@@ -173,6 +177,14 @@ def main() -> None:
     scalar, sample = scalar_rate(library, MISSION, args.scalar_sample)
     print(f"scalar brentq path: {scalar:.1f} candidates/s on {sample} sampled candidates "
           f"(extrapolated {n / scalar:.0f} s for all)")
+    if args.forward_flight > 0:
+        forward = replace(MISSION, kind="forward_flight", cruise_airspeed_m_s=args.forward_flight, drag_area_m2=0.03)
+        t1 = time.perf_counter()
+        flown = rank(library, forward, objective="cruise_power", top_n=args.top, chunk_size=args.chunk_size,
+                     processes=args.processes)
+        wall_ff = time.perf_counter() - t1
+        print(f"forward flight at {args.forward_flight:g} m/s: {flown.combinations} combinations in {wall_ff:.3f} s, "
+              f"{wall_ff / wall:.2f}x the hover ranking; feasible {flown.feasible} (hover {out.feasible})")
     print(f"ranking: {n} combinations in {wall:.3f} s ({rate:.0f} combinations/s), scalar ratio {rate / scalar:.0f}, "
           f"peak memory {peak_mb:.0f} MB")
 

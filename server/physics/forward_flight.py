@@ -65,15 +65,19 @@ def glauert_inflow_ratio(edgewise_ratio: ArrayLike, through_ratio: ArrayLike) ->
     through_ratio : array_like
         ``x = V_perp / v_h``, free stream through the disk (positive against the thrust, i.e. climb). [-]
 
-    Bracketed Newton: ``g(0) = -1 < 0`` and ``g(max(0, -x) + 1) >= 0``, so a root lies in between; Newton steps
-    from the upper end, bisection where a step leaves the bracket, until the relative step is below 1e-13.
+    Bracketed Newton: ``g(0) = -1 < 0`` and ``g >= 0`` at ``min(max(0, -x) + 1, 1/sqrt(m^2 + max(x, 0)^2))``, so a
+    root lies in between; Newton steps from the upper end, bisection where a step leaves the bracket, until the
+    relative step is below 1e-13.
     """
     m = as_float_array(edgewise_ratio)
     x = as_float_array(through_ratio)
     m, x = np.broadcast_arrays(m, x)
     m2 = m * m
     lo = np.zeros(m.shape)
-    hi = np.maximum(0.0, -x) + 1.0
+    with np.errstate(divide="ignore"):
+        # Every root lies below 1/sqrt(m^2 + x^2) for x >= 0 (lam < 1/sqrt(m^2 + (x + lam)^2)), below 1/m, and below
+        # max(0, -x) + 1; from that upper bound Newton descends monotonically where g is convex (x >= 0).
+        hi = np.minimum(np.maximum(0.0, -x) + 1.0, 1.0 / np.sqrt(m2 + np.maximum(x, 0.0) ** 2))
     lam = hi.copy()
     if not lam.size:
         return lam
@@ -85,7 +89,7 @@ def glauert_inflow_ratio(edgewise_ratio: ArrayLike, through_ratio: ArrayLike) ->
             lo = np.where(g < 0.0, lam, lo)
             hi = np.where(g >= 0.0, lam, hi)
             new = lam - g / dg
-            new = np.where((new > lo) & (new < hi) & np.isfinite(new), new, 0.5 * (lo + hi))
+            new = np.where((new >= lo) & (new <= hi) & np.isfinite(new), new, 0.5 * (lo + hi))
             step = np.abs(new - lam) / np.maximum(new, 1e-300)
             lam = new
             if not np.nanmax(step, initial=0.0) > GLAUERT_RTOL:
