@@ -55,6 +55,9 @@ class Mission(TeamOwned, Timestamped, Versioned, Base):
     min_thrust_to_weight_motor_out: Mapped[float | None] = mapped_column(Float, nullable=True)
     climb_rate_m_s: Mapped[float] = mapped_column(Float, default=0.0, server_default="0")
     """Climb rate at the cruise point of a multirotor mission (negative: descent). [m/s]"""
+    temperature_effects: Mapped[bool] = mapped_column(Boolean, default=False, server_default=false())
+    burst_s: Mapped[float] = mapped_column(Float, default=0.0, server_default="0")
+    cold_day_temperature_c: Mapped[float | None] = mapped_column(Float, nullable=True)
     notes: Mapped[str] = mapped_column(Text, default="")
 
     airframe: Mapped[Airframe] = relationship(back_populates="missions")

@@ -71,6 +71,9 @@ class Motor(PartColumns, Base):
     max_power_w: Mapped[float | None] = mapped_column(Float, nullable=True)
     max_cells: Mapped[int | None] = mapped_column(Integer, nullable=True)
     inductance_uh: Mapped[float | None] = mapped_column(Float, nullable=True)
+    thermal_resistance_k_per_w: Mapped[float | None] = mapped_column(Float, nullable=True)
+    thermal_time_constant_s: Mapped[float | None] = mapped_column(Float, nullable=True)
+    max_winding_temperature_c: Mapped[float | None] = mapped_column(Float, nullable=True)
 
 
 class Propeller(PartColumns, Base):

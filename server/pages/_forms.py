@@ -59,6 +59,11 @@ LABELS = {
     "payload_mass_g": "Payload", "application": "Made for", "frame_mass_g": "Frame mass", "mass_g": "Mass",
     "drag_area_m2": "Drag area C_D·A", "frontal_area_note": "Frontal area (note)", "coaxial": "Coaxial pairs",
     "climb_rate_m_s": "Climb rate at the hover/cruise point",
+    "min_thrust_to_weight_motor_out": "Minimum thrust-to-weight, one motor out",
+    "thermal_resistance_k_per_w": "Thermal resistance winding-to-air", "thermal_time_constant_s":
+        "Thermal time constant", "max_winding_temperature_c": "Highest winding temperature",
+    "temperature_effects": "Temperature effects (heat and cold)", "burst_s": "Full-throttle burst",
+    "cold_day_temperature_c": "Cold-day check at",
 }
 CHOICE_LABELS = {"hover": "hover", "cruise": "cruise (wing-borne)", "forward_flight": "forward flight (multirotor)",
                  "false": "no", "true": "yes",

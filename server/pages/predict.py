@@ -25,6 +25,9 @@ OVERRIDES = [
     ("esc", "k_pwm", "Partial-throttle loss k_pwm", ""),
     ("motor", "kv_rpm_per_v", "Kv", "rpm/V"), ("motor", "winding_resistance_ohm", "Winding resistance", "Ω"),
     ("motor", "no_load_current_a", "No-load current", "A"),
+    ("motor", "thermal_resistance_k_per_w", "Thermal resistance winding-to-air", "K/W"),
+    ("motor", "thermal_time_constant_s", "Thermal time constant", "s"),
+    ("motor", "max_winding_temperature_c", "Highest winding temperature", "°C"),
     ("propeller", "diameter_in", "Diameter", "in"), ("propeller", "ct", "CT", ""), ("propeller", "cp", "CP", ""),
 ]
 POINT_WORDS = {"thrust_n": "{:g} N", "rpm": "{:g} rpm", "throttle": "throttle {:g}"}  # a requested point, for people
@@ -66,6 +69,10 @@ def build_request(q: dict[str, str]) -> dict[str, Any]:
     body["points"] = points
     if q.get("endurance_thrust_n"):
         body["endurance"] = {"thrust_n": q["endurance_thrust_n"]}
+    if q.get("heat") == "on":
+        body["heat"] = {"burst_s": q.get("burst_s") or 0}
+        if q.get("heat_motor_mass_g"):
+            body["heat"]["motor_mass_g"] = q["heat_motor_mass_g"]
     return body
 
 

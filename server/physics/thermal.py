@@ -159,6 +159,23 @@ def cell_resistance_factor(temperature_c: ArrayLike, reference_c: ArrayLike = PA
                   * (1.0 / t - 1.0 / t_ref))
 
 
+BENCH_MIN_DUTY = 0.3
+"""Bench samples below this duty are left out of the R_th fit: the motor current is estimated as ``I_bus / d``
+(averaged switch), which the partial-throttle losses distort most at low duty."""
+
+
+def bench_winding_loss_w(bus_current_a: ArrayLike, duty: ArrayLike, omega_rad_s: ArrayLike, kv_rpm_per_v: ArrayLike,
+                         resistance_20c_ohm: ArrayLike, no_load_current_a: ArrayLike,
+                         temperature_c: ArrayLike) -> FloatArray:
+    """Motor loss at bench samples from what a bench measures: ``I = I_bus / d``, ``E = Ω / Kv_SI``,
+    ``P = I^2 R(T) + I0 E`` with R at the sample's winding temperature. [W]"""
+    current = as_float_array(bus_current_a) / as_float_array(duty)
+    emf = as_float_array(omega_rad_s) / (as_float_array(kv_rpm_per_v) * (2.0 * np.pi / 60.0))
+    hot = as_float_array(resistance_20c_ohm) * (1.0 + COPPER_TEMPERATURE_COEFFICIENT_PER_K * (
+        as_float_array(temperature_c) - COPPER_REFERENCE_TEMPERATURE_C))
+    return winding_loss_w(current, hot, no_load_current_a, emf)
+
+
 def fit_thermal_resistance(temperature_rise_k: ArrayLike, loss_w: ArrayLike) -> tuple[float, float]:
     """Least-squares ``R_th`` from steady points ``T - T_air = R_th P`` (a line through the origin).
 

@@ -216,6 +216,29 @@ class FlightStateRead(Result):
     power_vs_hover: float | None = Field(default=None, description="Electrical power ÷ hover [-]")
 
 
+class WindingHeat(Result):
+    """Winding temperatures of a mission with temperature effects (docs/model-reference.md#heat)."""
+
+    air_temperature_c: float | None = None
+    cruise_winding_c: float | None = Field(default=None, description="Steady at the cruise point; None: runaway [°C]")
+    burst_winding_c: float | None = Field(default=None, description="After the mission's full-throttle burst [°C]")
+    burst_s: float | None = None
+    runaway: bool | None = None
+    max_winding_temperature_c: float | None = None
+    thermal_resistance_k_per_w: float | None = None
+    thermal_time_constant_s: float | None = None
+
+
+class ColdDayCheck(Result):
+    """The cold-day re-check of a mission with ``cold_day_temperature_c`` (docs/model-reference.md#cold)."""
+
+    air_temperature_c: float | None = None
+    thrust_to_weight: float | None = Field(default=None, description="Full throttle at SOC 1 − usable [-]")
+    bus_holds: bool | None = Field(default=None, description="Full-throttle bus at least half the open-circuit voltage")
+    endurance_min: float | None = Field(default=None, description="Usable capacity ÷ cruise pack current [min]")
+    cell_resistance_factor: float | None = Field(default=None, description="Cell resistance ÷ its 25 °C value [-]")
+
+
 class CandidateEvaluation(Result):
     """Every number of one power system for one mission (craft totals unless a field says per rotor)."""
 
@@ -246,3 +269,5 @@ class CandidateEvaluation(Result):
         default=None, description="Width of the cruise-power band with only priors varied ÷ its full width [-]")
     feasible_share: float | None = Field(
         default=None, description="Share of the uncertainty draws in which the system passes every limit [-]")
+    heat: WindingHeat | None = Field(default=None, description="Missions with temperature effects")
+    cold_day: ColdDayCheck | None = Field(default=None, description="Missions with a cold-day check")

@@ -5,7 +5,7 @@ from __future__ import annotations
 from datetime import datetime
 from typing import TYPE_CHECKING, Literal, TypeAlias
 
-from pydantic import BaseModel, ConfigDict, model_validator
+from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from server.schemas._fields import partial_model, ranged, text
 
@@ -77,6 +77,17 @@ class MissionCreate(BaseModel):
     climb_rate_m_s: ranged(  # type: ignore[valid-type]
         float, -10, 20, "m/s", description="Climb rate at the cruise point of a multirotor mission "
                                            "(hover, forward flight); negative: descent") = 0.0
+    temperature_effects: bool = Field(
+        default=False, description="Heat and cold at the mission's air temperature: motor windings at their "
+                                   "temperature (and checked against their maximum), the pack at the air temperature; "
+                                   "false: every part at the temperature its values are stated at")
+    burst_s: ranged(  # type: ignore[valid-type]
+        float, 0, 3600, "s", description="Full-throttle burst from the hover/cruise winding temperature, checked "
+                                         "against the motor's maximum (with temperature effects)") = 0.0
+    cold_day_temperature_c: ranged(  # type: ignore[valid-type]
+        float, -60, 50, "°C", description="Re-check thrust-to-weight and endurance at this colder air temperature "
+                                          "(pack resistance and air density of that day); blank: no cold-day check"
+    ) | None = None
     notes: text(4000) = ""  # type: ignore[valid-type]
 
     @model_validator(mode="after")
@@ -91,6 +102,9 @@ class MissionCreate(BaseModel):
             raise ValueError("cruise_airspeed_m_s: a cruise mission needs its cruise airspeed")
         if self.kind == "cruise" and self.lift_to_drag is None:
             raise ValueError("lift_to_drag: a cruise mission needs the lift-to-drag ratio at cruise")
+        if self.burst_s > 0 and not self.temperature_effects:
+            raise ValueError("burst_s: a full-throttle burst is checked by the winding temperature model: turn on "
+                             "temperature_effects, or leave the burst at 0")
         return self
 
 

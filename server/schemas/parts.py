@@ -75,6 +75,15 @@ class MotorCreate(PartBase):
     max_power_w: ranged(float, 1, 100_000, "W", description="Maker's maximum power") | None = None  # type: ignore[valid-type]
     max_cells: ranged(int, 1, 24, "cells", description="Highest supported cell count") | None = None  # type: ignore[valid-type]
     inductance_uh: ranged(float, 0.1, 100_000, "µH", description="Line-to-line inductance") | None = None  # type: ignore[valid-type]
+    thermal_resistance_k_per_w: ranged(  # type: ignore[valid-type]
+        float, 0.01, 100, "K/W", description="Winding-to-air thermal resistance with the propeller's airflow; blank: "
+                                             "0.1 K kg/W divided by the motor's mass (assumed)") | None = None
+    thermal_time_constant_s: ranged(  # type: ignore[valid-type]
+        float, 1, 10_000, "s", description="Thermal time constant of the winding; blank: R_th x mass x 500 J/(kg K) "
+                                           "(assumed)") | None = None
+    max_winding_temperature_c: ranged(  # type: ignore[valid-type]
+        float, 40, 250, "°C", description="Highest allowed winding temperature (magnets and enamel); blank: 100 °C "
+                                          "(assumed)") | None = None
 
 
 class StaticRow(BaseModel):

@@ -63,6 +63,9 @@ class MotorIn(BaseModel):
     no_load_current_a: ranged(float, 0, 50, "A") | None = None  # type: ignore[valid-type]
     inductance_uh: ranged(float, 0.1, 100_000, "µH") | None = None  # type: ignore[valid-type]
     max_current_a: ranged(float, 0.1, 1000, "A") | None = None  # type: ignore[valid-type]
+    thermal_resistance_k_per_w: ranged(float, 0.01, 100, "K/W") | None = None  # type: ignore[valid-type]
+    thermal_time_constant_s: ranged(float, 1, 10_000, "s") | None = None  # type: ignore[valid-type]
+    max_winding_temperature_c: ranged(float, 40, 250, "°C") | None = None  # type: ignore[valid-type]
 
 
 class PropellerIn(BaseModel):
@@ -148,6 +151,17 @@ class EnduranceIn(BaseModel):
         return self
 
 
+class HeatIn(BaseModel):
+    """Ask for winding temperatures: each point's steady temperature and a full-throttle burst from the first."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    burst_s: ranged(float, 0, 3600, "s", description="Full-throttle burst from the first point's temperature") = 0.0  # type: ignore[valid-type]  # noqa: E501
+    motor_mass_g: ranged(  # type: ignore[valid-type]
+        float, 1, 100_000, "g", description="For the assumed thermal resistance of a motor given without one (a saved "
+                                            "motor's own mass otherwise)") | None = None
+
+
 class PredictRequest(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
@@ -160,6 +174,7 @@ class PredictRequest(BaseModel):
     conditions: Conditions = Field(default_factory=Conditions)
     points: list[PointIn] = Field(..., min_length=1, max_length=200)
     endurance: EnduranceIn | None = None
+    heat: HeatIn | None = None
 
 
 class Losses(BaseModel):
@@ -226,6 +241,38 @@ class EnduranceOut(BaseModel):
     minutes_band: list[float | None] | None = Field(default=None, description="[low, high] 80 % band [min]")
 
 
+class HeatPoint(BaseModel):
+    winding_temperature_c: float | None = Field(description="Steady winding temperature at this point [°C]")
+    runaway: bool = Field(description="No steady temperature: copper loss rises faster than the air removes it")
+    over_limit: bool = Field(description="Above the motor's maximum winding temperature (or runaway)")
+
+
+class BurstCurve(BaseModel):
+    t_s: list[float]
+    temperature_c: list[float | None]
+
+
+class BurstOut(BaseModel):
+    from_c: float | None = Field(description="Winding temperature at the start (the first point's) [°C]")
+    after_c: float | None = Field(description="Winding temperature at the end of the burst [°C]")
+    full_throttle_current_a: float | None = Field(description="Motor current at full throttle (R as stated) [A]")
+    over_limit: bool
+    curve: BurstCurve
+
+
+class HeatOut(BaseModel):
+    """Winding temperatures (docs/model-reference.md#heat)."""
+
+    air_temperature_c: float
+    burst_s: float
+    thermal_resistance_k_per_w: float
+    thermal_time_constant_s: float
+    max_winding_temperature_c: float
+    sources: dict[str, str] = Field(description="Per thermal value: stated (part or request) or prior")
+    points: list[HeatPoint]
+    burst: BurstOut | None = None
+
+
 class PredictResponse(BaseModel):
     air_density_kg_m3: float
     points: list[PointOut]
@@ -234,3 +281,4 @@ class PredictResponse(BaseModel):
     assumed: dict[str, list[str]] = Field(default_factory=dict,
                                           description="Per part, the parameters that rest on a prior (not measured)")
     warnings: list[str]
+    heat: HeatOut | None = None

@@ -29,11 +29,11 @@ winding_over_temperature    with temperature effects: the winding temperature at
                             full-throttle burst above the motor's maximum, or thermal runaway (:mod:`.temperature`)
 esc_over_current            ESC continuous rating below esc_current_margin x that current
 pack_over_current           full-throttle pack current above pack_current_fraction x C x capacity x k
+endurance_short             screening (or refined) endurance below the mission minimum
 cold_day_thrust_short       at the cold-day air temperature (when set): thrust-to-weight below the floor, or the
                             bus collapses at full throttle (pack resistance and air density of that day)
 cold_day_endurance_short    at the cold-day air temperature: the screening endurance below the mission minimum,
                             or the cruise thrust out of reach
-endurance_short             screening (or refined) endurance below the mission minimum
 ==========================  ==================================================================================
 
 Each operating-point reason is a :class:`Check`: the quantity compared, its limit, its unit and whether it
@@ -74,9 +74,9 @@ REASON_TEXT: dict[str, str] = {
     "winding_over_temperature": "motor winding hotter than its maximum (cruise or after the full-throttle burst)",
     "esc_over_current": "ESC rating below the required margin",
     "pack_over_current": "pack current above the allowed share of its C rating",
+    "endurance_short": "endurance below the mission's minimum",
     "cold_day_thrust_short": "thrust-to-weight on the cold day below the mission's minimum (or the pack collapses)",
     "cold_day_endurance_short": "endurance on the cold day below the mission's minimum",
-    "endurance_short": "endurance below the mission's minimum",
 }
 """A plain-language line per rejection reason (pages, explain)."""
 REASONS: tuple[str, ...] = tuple(REASON_TEXT)
@@ -232,13 +232,13 @@ def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: Fu
             _at_most("esc_over_current", mission.esc_current_margin * full.motor_current_a, batch.esc_rating_a, "A"),
             _at_most("pack_over_current", n_r * full.motor_current_a, batch.pack_limit_a, "A"),
         ]
-        if cold is not None:
+        checks.append(_at_least("endurance_short", endurance_min, mission.min_endurance_min, "min"))
+        if cold is not None:  # after every check of the mission's own day: a system is judged on that day first
             checks += [
                 Check("cold_day_thrust_short", cold.thrust_to_weight, mission.min_thrust_to_weight, "-", "min",
                       np.asarray((cold.thrust_to_weight >= mission.min_thrust_to_weight) & cold.bus_holds)),
                 _at_least("cold_day_endurance_short", cold.endurance_min, mission.min_endurance_min, "min"),
             ]
-        checks.append(_at_least("endurance_short", endurance_min, mission.min_endurance_min, "min"))
     return checks
 
 

@@ -20,7 +20,9 @@ from typing import Any
 
 import numpy as np
 
-from .constraints import REASON_TEXT, REASONS, Check, screen
+from server.physics.thermal import cell_resistance_factor
+
+from .constraints import REASON_TEXT, REASONS, Check, Screen, screen
 from .enumerate import PartVerdicts, batch_for, cost_of
 from .flight_report import flight_report, hover_of, hover_state
 from .library import MissionSpec, PartsLibrary
@@ -78,6 +80,27 @@ def _from_check(check: Check, detail: str = "") -> Verdict:
 FLIES = {"hover": "hovers", "cruise": "cruises", "forward_flight": "flies forward as a multirotor"}
 
 
+def _temperature_detail(reason: str, sc: Screen, mission: MissionSpec) -> str:
+    """The heat and cold checks' numbers in words (docs/model-reference.md#heat, #cold)."""
+    heat, cold = sc.heat, sc.cold_day
+    if reason == "winding_over_temperature" and heat is not None:
+        cruise, burst = _num(heat.cruise_winding_c), _num(heat.burst_winding_c)
+        if cruise is None:
+            return (f"thermal runaway at the cruise point in {heat.air_temperature_c:.1f} °C air: the copper loss "
+                    "rises faster with temperature than the air carries it away")
+        text = f"{cruise:.1f} °C at the cruise point in {heat.air_temperature_c:.1f} °C air"
+        if mission.burst_s > 0 and burst is not None:
+            text += f", {burst:.1f} °C after the {mission.burst_s:g} s full-throttle burst"
+        return text
+    if reason in ("cold_day_thrust_short", "cold_day_endurance_short") and cold is not None:
+        factor = float(cell_resistance_factor(cold.air_temperature_c))
+        text = f"at {cold.air_temperature_c:g} °C: cell resistance × {factor:.2f} of its 25 °C value"
+        if reason == "cold_day_thrust_short" and not bool(np.ravel(cold.bus_holds)[0]):
+            text += "; the pack voltage collapses at full throttle"
+        return text
+    return ""
+
+
 def _part_verdicts(library: PartsLibrary, mission: MissionSpec, v: PartVerdicts, p: int, e: int, m: int,
                    q: int) -> list[Verdict]:
     packs, escs, motors, props = library.packs, library.escs, library.motors, library.propellers
@@ -132,7 +155,7 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
         by_reason = {c.reason: c for c in sc.checks}
         for reason in REASONS[len(checks):]:
             if reason in by_reason:
-                checks.append(_from_check(by_reason[reason]))
+                checks.append(_from_check(by_reason[reason], _temperature_detail(reason, sc, mission)))
             else:  # a limit the mission does not set (e.g. no maximum all-up mass)
                 checks.append(Verdict(reason, True, text=REASON_TEXT[reason], detail="the mission sets no limit"))
         cs = CandidateSet(index[0], index[1], index[2], index[3], index[4],
@@ -149,14 +172,15 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
             refined = cs.replace_endurance(minutes)
             row = build_rows(library, mission, model, refined, reasons, np.ones(1, dtype=bool),
                              cs.endurance_min)[0]
+            at = next(i for i, c in enumerate(checks) if c.reason == "endurance_short")
             if not minutes[0] >= mission.min_endurance_min:
-                checks[-1] = Verdict("endurance_short", False, _num(minutes[0]), _num(mission.min_endurance_min),
+                checks[at] = Verdict("endurance_short", False, _num(minutes[0]), _num(mission.min_endurance_min),
                                      "min", _num(minutes[0] - mission.min_endurance_min),
                                      REASON_TEXT["endurance_short"],
                                      f"the discharge simulation gives {minutes[0]:.1f} min (screening estimate "
                                      f"{float(cs.endurance_min[0]):.1f} min)")
             else:
-                checks[-1] = Verdict("endurance_short", True, _num(minutes[0]), _num(mission.min_endurance_min),
+                checks[at] = Verdict("endurance_short", True, _num(minutes[0]), _num(mission.min_endurance_min),
                                      "min", _num(minutes[0] - mission.min_endurance_min),
                                      REASON_TEXT["endurance_short"], "discharge simulation")
         elif sc.cruise.reachable.ravel()[0]:

@@ -117,7 +117,8 @@ def drawn_values(system: PowerSystem, samples: int = uncertainty.DEFAULT_SAMPLES
     shows what each kind of value contributes.
     """
     rng = uncertainty.generator(seed)
-    m = _part_draws(system.motor, MOTOR_FIELDS, samples, rng, vary,
+    # the heat model's values are not drawn (taken as they are; docs/model-reference.md#heat)
+    m = _part_draws(system.motor, [f for f in MOTOR_FIELDS if f not in priors.THERMAL_PRIORS], samples, rng, vary,
                     frozenset({"kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh"}))
     e = _part_draws(system.esc, ESC_LOSS_FIELDS, samples, rng, vary, frozenset(priors.ESC_PRIORS))
     b = _part_draws(system.battery, ["cell_resistance_mohm", "capacity_mah"], samples, rng, vary,

@@ -14,7 +14,8 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput, NotFound
 from server.models import BenchRun, Calibration, Esc, Motor, Propeller
-from server.physics import ENGINE_VERSION
+from server.physics import ENGINE_VERSION, thermal
+from server.physics._types import RAD_S_PER_RPM
 from server.physics.calibrate import JointFit, MotorPrior, RunData, fit_joint
 from server.services import parts as parts_service
 from server.services import power_system as ps
@@ -105,7 +106,9 @@ def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, A
     before = {(c.part_kind, c.part_id): c for c in pool_latest(session, team_id, esc_id)}
     stored = [_store_esc(session, team_id, esc, fit, run_ids)]
     for motor_key, mfit in fit.motors.items():
-        stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids))
+        heat = _thermal_resistance(mfit, fit.esc.value("on_path_resistance_ohm") if fit.esc else 0.0,
+                                   [run for run, _ in data if run.motor_id == int(motor_key)])
+        stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids, heat))
     for prop_id, pfit in fit.propellers.items():
         stored.append(_store_propeller(session, team_id, int(prop_id), pfit, run_ids))
     session.flush()
@@ -147,8 +150,40 @@ def _store_esc(session: Session, team_id: int, esc: Esc, fit: JointFit, run_ids:
                                                    "on_path_resistance_ohm": "r_on_path_ohm"}))
 
 
+MIN_TEMPERATURE_SAMPLES = 3
+"""Bench samples with a winding temperature (and a run air temperature) needed to fit R_th."""
+
+
+def _thermal_resistance(mfit: Any, on_path_ohm: float, runs: list[BenchRun]) -> dict[str, Any] | None:
+    """R_th ± standard error from the motor's bench samples that carry ``temperature_c`` (settled steps assumed),
+    with the loss from the motor's fitted Kv, winding R (the fit's R less the ESC's conduction path, taken as the
+    20 °C value) and I0 (docs/model-reference.md#heat); None without such samples."""
+    rise, loss = [], []
+    kv, resistance, no_load = (mfit.value(n) for n in ("kv_rpm_per_v", "resistance_ohm", "no_load_current_a"))
+    resistance -= on_path_ohm
+    for run in runs:
+        if run.air_temperature_c is None:
+            continue
+        samples = [s for s in run.samples if s.flag is None and s.temperature_c is not None]
+        if not samples:
+            continue
+        duty = np.clip(run.throttle_offset + run.throttle_scale * np.array([s.throttle for s in samples]), 0.0, 1.0)
+        keep = duty >= thermal.BENCH_MIN_DUTY
+        temperature = np.array([s.temperature_c for s in samples])[keep]
+        loss.append(thermal.bench_winding_loss_w(
+            np.array([s.bus_current_a for s in samples])[keep], duty[keep],
+            np.array([s.rpm for s in samples])[keep] * RAD_S_PER_RPM, kv, resistance, no_load, temperature))
+        rise.append(temperature - run.air_temperature_c)
+    if not rise or sum(len(r) for r in rise) < MIN_TEMPERATURE_SAMPLES:
+        return None
+    value, stderr = thermal.fit_thermal_resistance(np.concatenate(rise), np.concatenate(loss))
+    if not (math.isfinite(value) and value > 0):
+        return None
+    return {"value": value, "stderr": _clean(stderr), "status": "identified", "unit": "K/W", "source": "fit"}
+
+
 def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, mfit: Any,
-                 run_ids: list[int]) -> Calibration:
+                 run_ids: list[int], heat: dict[str, Any] | None = None) -> Calibration:
     assert fit.esc is not None
     on_path = fit.esc.value("on_path_resistance_ohm")
     p = mfit.parameters
@@ -160,8 +195,12 @@ def _store_motor(session: Session, team_id: int, motor_id: int, fit: JointFit, m
     for value in params.values():
         if value["source"] == "start":  # a starting guess is not a measurement
             value["status"] = "fixed"
+    notes = plain_notes(mfit.notes)
+    if heat is not None:
+        params["thermal_resistance_k_per_w"] = heat
+        notes += "; thermal resistance fitted to the winding temperatures of the bench runs"
     return _store(session, team_id=team_id, kind="motors", part_id=motor_id, parameters=params, fit=mfit,
-                  run_ids=run_ids, notes=plain_notes(mfit.notes),
+                  run_ids=run_ids, notes=notes,
                   covariance=_covariance(mfit, {"resistance_ohm": "winding_resistance_ohm"}))
 
 

@@ -22,15 +22,17 @@ from sqlalchemy.orm import Session
 
 from server.errors import FieldError, InvalidInput, NotFound
 from server.models import Battery, Calibration, Esc, Mission, Motor, Propeller
-from server.physics import ENGINE_VERSION, drive, endurance, fast, sizing
+from server.physics import ENGINE_VERSION, drive, endurance, fast, priors, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams
 from server.physics.forward_flight import FlightState
+from server.physics.motor import MotorParams
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.selection.flight_report import flight_report, hover_of, hover_state
+from server.selection.library import MissionSpec
+from server.services import candidate_temperature, ranking_bands
 from server.services import parts as parts_service
 from server.services import power_system as ps
-from server.services import ranking_bands
 from server.services.ranking_inputs import mission_spec_of
 
 G0 = STANDARD_GRAVITY_M_S2
@@ -67,8 +69,13 @@ class Candidate:
     cost: float | None
     sources: dict[str, dict[str, str]]
     pack_nominal_voltage_v: float
+    spec: MissionSpec
+    thermal_values: tuple[float, float, float]
+    """The motor's R_th [K/W], tau [s] and highest winding temperature [°C] (stated, calibrated or priors)."""
     flight: FlightState | None = None
     """Multirotor flight state of the cruise point (forward flight, climb, coaxial); None: static hover/cruise."""
+    full_motor: MotorParams | None = None
+    """The motor of the full-throttle points when it differs from the cruise point's (a hot winding)."""
 
     def point_at_soc(self, soc: float, **kw: Any) -> dict[str, Any]:
         return {
@@ -110,9 +117,32 @@ def load(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds)
         "density_kg_m3": spec.density_kg_m3,
         "airspeed_m_s": spec.airspeed_m_s,
     }
+    v = system.motor.values
+    r_th, tau, t_max = priors.thermal_defaults(motor.mass_g / 1000, *(np.nan if v.get(name) is None else v[name]
+                                                                      for name in priors.THERMAL_PRIORS))
     return Candidate(mission, ids, battery, esc, motor, prop, kwargs, pack, float(spec.thrust_per_rotor_n(mass_kg)),
-                     1000.0 * mass_kg, cost, system.sources(), system.nominal_voltage_v,
-                     spec.flight_state(mass_kg, table.diameter_m))
+                     1000.0 * mass_kg, cost, system.sources(), system.nominal_voltage_v, spec,
+                     (float(r_th), float(tau), float(t_max)), spec.flight_state(mass_kg, table.diameter_m))
+
+
+def _temperatures(c: Candidate) -> dict[str, Any]:
+    """With the mission's temperature effects: the cruise motor and pack at temperature on ``c`` (used by every
+    point, the discharge and the curves), the full-throttle motor hot after the burst; the heat block. With a cold
+    day: its re-check. Empty without either (reference model v1)."""
+    spec = c.spec
+    out: dict[str, Any] = {}
+    base_kwargs, base_pack = dict(c.kwargs), c.pack
+    if spec.cold_day_temperature_c is not None:
+        out["cold_day"] = candidate_temperature.cold_day(base_kwargs, base_pack, spec, c.thermal_values,
+                                                         c.all_up_mass_g / 1000,
+                                                         float(np.ravel(c.kwargs["propeller"].diameter_m)[0]))
+    if spec.temperature_effects:
+        cruise_motor, full_motor, pack, heat = candidate_temperature.at_temperature(
+            base_kwargs, base_pack, spec, c.thermal_values, c.thrust_required_n, spec.air_temperature_c,
+            spec.cruise_state_of_charge, flight=c.flight)
+        c.kwargs, c.pack, c.full_motor = {**c.kwargs, "motor": cruise_motor}, pack, full_motor
+        out["heat"] = heat
+    return out
 
 
 def _losses(op: OperatingPoint) -> dict[str, float | None]:
@@ -175,10 +205,12 @@ def _evaluate(
     session: Session, *, team_id: int, mission: Mission, ids: CandidateIds, with_curves: bool = False
 ) -> dict[str, Any]:
     c = load(session, team_id=team_id, mission=mission, ids=ids)
+    temperatures = _temperatures(c)
     rotors = c.mission.airframe.rotor_count
+    full_motor = {} if c.full_motor is None else {"motor": c.full_motor}
     cruise = drive.for_thrust(c.thrust_required_n, **c.point_at_soc(mission.cruise_state_of_charge), flight=c.flight)
-    low = drive.full_throttle(**c.point_at_soc(1 - mission.usable_fraction))
-    peak = drive.full_throttle(**c.point_at_soc(1.0))
+    low = drive.full_throttle(**c.point_at_soc(1 - mission.usable_fraction, **full_motor))
+    peak = drive.full_throttle(**c.point_at_soc(1.0, **full_motor))
     discharge = _discharge(c)
     weight_n = c.all_up_mass_g / 1000 * G0
     motor_current = _f(peak.motor_current_a)
@@ -237,6 +269,7 @@ def _evaluate(
             "pack_allowed_current_a": allowed_pack,
         },
         "sources": c.sources,
+        **temperatures,
     }
     if c.flight is not None:
         metrics["flight"] = _flight(c, cruise)

@@ -48,9 +48,11 @@ UNITS = {
     "cells_parallel": "cells", "capacity_mah": "mAh", "cell_resistance_mohm": "mΩ", "max_continuous_c": "C",
     "supply_voltage_v": "V", "chemistry": "", "wiring_resistance_ohm": "Ω", "packs_in_parallel": "packs",
     "state_of_charge": "", "blades": "blades", "static_table": "", "forward_table": "",
+    "thermal_resistance_k_per_w": "K/W", "thermal_time_constant_s": "s", "max_winding_temperature_c": "°C",
 }
 ESC_FIELDS = [*ESC_LOSS_FIELDS, "continuous_current_a"]
-MOTOR_FIELDS = ["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh", "max_current_a"]
+MOTOR_FIELDS = ["kv_rpm_per_v", "winding_resistance_ohm", "no_load_current_a", "inductance_uh", "max_current_a",
+                *priors.THERMAL_PRIORS]
 PROP_FIELDS = ["diameter_in", "pitch_in", "blades", "ct", "cp", "static_table", "forward_table"]
 BATTERY_FIELDS = ["chemistry", "cells_series", "cells_parallel", "capacity_mah", "cell_resistance_mohm",
                   "max_continuous_c"]

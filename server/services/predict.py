@@ -16,7 +16,7 @@ from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_valu
 from server.physics.propeller import PropellerTable, disk_area_m2, tip_mach_number
 from server.schemas.predict import PredictRequest
 from server.selection.flight_report import flight_report
-from server.services import bands
+from server.services import bands, winding
 from server.services import power_system as ps
 
 TIP_MACH_LIMIT = 0.7  # common practice, no source (docs/model-reference.md#propeller-typical-values)
@@ -348,6 +348,10 @@ def predict(session: Session | None, team_id: int | None, request: PredictReques
     result = _endurance(system)
     if result is not None:
         result["minutes_band"] = endurance_band(system, d)
+    heat = None
+    if request.heat is not None:
+        heat = winding.heat(system, op, request.heat.burst_s, request.heat.motor_mass_g, session, team_id)
+        warnings = sorted(set(warnings) | set(winding.warnings(heat)))
     return {
         "air_density_kg_m3": system.density,
         "points": points,
@@ -356,6 +360,7 @@ def predict(session: Session | None, team_id: int | None, request: PredictReques
         "assumed": {kind: r.assumed for kind, r in (("battery", system.battery), ("esc", system.esc),
                                                     ("motor", system.motor), ("propeller", system.prop))},
         "warnings": warnings,
+        **({} if heat is None else {"heat": heat}),
     }
 
 
@@ -383,4 +388,14 @@ def chart_data(system: System, result: dict[str, Any]) -> dict[str, Any]:
                    for p in result["points"] if p["thrust_n"] is not None],
         "losses": [{"label": f"{k} {v:g}", **p["losses"]} for p in result["points"] for k, v in p["request"].items()],
         "loss_terms": [{"name": name, "label": label} for name, _, label in LOSS_TERMS],
+        "winding": _winding_chart(result.get("heat")),
     }
+
+
+def _winding_chart(heat: dict[str, Any] | None) -> dict[str, Any] | None:
+    """The burst's winding temperature against time, with the motor's maximum (None without a burst)."""
+    if not heat or not heat.get("burst"):
+        return None
+    curve = heat["burst"]["curve"]
+    return {"t_s": curve["t_s"], "temperature_c": curve["temperature_c"], "limit_c": heat["max_winding_temperature_c"],
+            "air_c": heat["air_temperature_c"]}

@@ -51,6 +51,9 @@ PART_FIELDS = {
         "inductance_uh",
         "max_current_a",
         "max_cells",
+        "thermal_resistance_k_per_w",
+        "thermal_time_constant_s",
+        "max_winding_temperature_c",
     ],
     "propellers": [
         "name",
@@ -86,6 +89,9 @@ MISSION_FIELDS = [
     "max_all_up_mass_g",
     "min_thrust_to_weight_motor_out",
     "climb_rate_m_s",
+    "temperature_effects",
+    "burst_s",
+    "cold_day_temperature_c",
 ]
 AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel",
                    "drag_area_m2", "coaxial"]
@@ -195,6 +201,10 @@ LIBRARY_COLUMNS: dict[str, dict[str, tuple[str, float, float]]] = {
         "no_load_current_a": ("no_load_current_a", 1.0, np.nan), "inductance_h": ("inductance_uh", 1e-6, np.nan),
         "max_current_a": ("max_current_a", 1.0, INF), "max_cells": ("max_cells", 1.0, INF),
         "mass_kg": ("mass_g", 1e-3, np.nan), "cost": ("unit_cost", 1.0, np.nan),
+        # NaN: the priors of server.physics.priors.thermal_defaults (older snapshots have none of them)
+        "thermal_resistance_k_per_w": ("thermal_resistance_k_per_w", 1.0, np.nan),
+        "thermal_time_constant_s": ("thermal_time_constant_s", 1.0, np.nan),
+        "max_winding_temperature_c": ("max_winding_temperature_c", 1.0, np.nan),
     },
 }
 """Library array <- (part field, scale to SI, value when the part has none), per part kind."""
@@ -260,6 +270,9 @@ def mission_spec(ms: dict[str, Any], af: dict[str, Any]) -> MissionSpec:
         climb_rate_m_s=float(ms.get("climb_rate_m_s") or 0.0),  # absent in older snapshots: level
         drag_area_m2=_num(af.get("drag_area_m2"), 0.0),  # not stated: no airframe drag
         coaxial=bool(af.get("coaxial") or False),
+        temperature_effects=bool(ms.get("temperature_effects") or False),
+        burst_s=float(ms.get("burst_s") or 0.0),
+        cold_day_temperature_c=ms.get("cold_day_temperature_c"),
     )
 
 

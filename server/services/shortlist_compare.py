@@ -43,6 +43,11 @@ COMPARE_ROWS: list[tuple[str, str, str, str, str | None]] = [
     ("Full throttle", "margins.motor_current_ratio", "Motor current ÷ its rating", "", "low"),
     ("Full throttle", "margins.esc_rating_ratio", "ESC rating ÷ motor current", "", "high"),
     ("Full throttle", "margins.pack_current_ratio", "Pack current ÷ allowed", "", "low"),
+    ("Heat and cold", "heat.cruise_winding_c", "Winding temperature at the cruise point", "°C", "low"),
+    ("Heat and cold", "heat.burst_winding_c", "Winding temperature after the full-throttle burst", "°C", "low"),
+    ("Heat and cold", "heat.max_winding_temperature_c", "Highest allowed winding temperature", "°C", None),
+    ("Heat and cold", "cold_day.thrust_to_weight", "Thrust-to-weight on the cold day", "", "high"),
+    ("Heat and cold", "cold_day.endurance_min", "Endurance on the cold day (screening)", "min", "high"),
     ("Endurance", "endurance_min", "Endurance", "min", "high"),
     ("Endurance", "endurance_stop_reason", "Stops at", "", None),
     ("Cost", "cost", "Parts cost per airframe", "", "low"),
@@ -127,7 +132,10 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
     has_flight = any(e["metrics"].get("flight") for e in entries)
     at = next(i for i, r in enumerate(COMPARE_ROWS) if r[0] == "Full throttle")
     table = COMPARE_ROWS[:at] + FLIGHT_ROWS + COMPARE_ROWS[at:] if has_flight else COMPARE_ROWS
+    asked = {"heat": mission.temperature_effects, "cold_day": mission.cold_day_temperature_c is not None}
     for group, key, label, unit, better in table:
+        if not asked.get(key.split(".")[0], True):  # heat and cold rows only for missions that ask for them
+            continue
         values = [lookup(e["metrics"], key) for e in entries]
         rows.append({"group": group, "key": key, "label": label, "unit": unit, "better": better,
                      "values": values, "best": _best(values, better, flying)})
@@ -141,6 +149,9 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
             "min_thrust_to_weight": mission.min_thrust_to_weight,
             "cruise_state_of_charge": mission.cruise_state_of_charge,
             "esc_current_margin": mission.esc_current_margin,
+            "temperature_effects": mission.temperature_effects,
+            "burst_s": mission.burst_s,
+            "cold_day_temperature_c": mission.cold_day_temperature_c,
         },
         "required_thrust_per_rotor_n": [e["metrics"]["thrust_required_n"] for e in entries],
         "engine_version": ENGINE_VERSION,

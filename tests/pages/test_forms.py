@@ -180,3 +180,29 @@ def test_a_mission_edit_conflict_names_both_values(app: FastAPI, client: TestCli
     rows = [[c.text for c in r.select("th, td")] for r in page.select("#conflict-fields tbody tr")]
     assert rows == [["Minimum thrust-to-weight", "2.5", "1.8"]]
     assert client.get(f"/api/v1/missions/{mission}", headers=h).json()["min_thrust_to_weight"] == 1.8
+
+
+def test_heat_and_cold_fields_on_the_mission_and_motor_forms(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    login(client, team.owner_email)
+    page = soup(client.get("/missions").text)
+    airframe = form_of(page, "form[action='/airframes']") | {"name": "Q", "rotor_count": "4", "frame_mass_g": "800"}
+    assert client.post("/airframes", data=airframe, follow_redirects=False).status_code == 303
+    page = soup(client.get("/missions").text)
+    effects = page.select_one("form[action='/missions'] select[name=temperature_effects]")
+    assert [o["value"] for o in effects.select("option")] == ["false", "true"]
+    assert effects.select_one("option[selected]")["value"] == "false"  # the default, shown
+    assert [o.text for o in effects.select("option")] == ["no", "yes"]
+    assert "blank: 0 s" in page.select_one("#m-burst_s-help").text
+    mission = form_of(page, "form[action='/missions']") | {"name": "Hot", "temperature_effects": "true",
+                                                             "burst_s": "30", "cold_day_temperature_c": "-10"}
+    saved = client.post("/missions", data=mission, follow_redirects=False)
+    assert saved.status_code == 303, soup(saved.text).select(".error")
+    stored = client.get("/api/v1/missions", headers=team.headers()).json()[0]
+    assert (stored["temperature_effects"], stored["burst_s"], stored["cold_day_temperature_c"]) == (True, 30.0, -10.0)
+    # a burst without temperature effects is refused with our message, beside the field
+    bad = client.post("/missions", data=mission | {"name": "Bad", "temperature_effects": "false"})
+    assert bad.status_code == 422 and "temperature_effects" in bad.text
+    motor_form = soup(client.get("/parts/motors").text)
+    for name in ("thermal_resistance_k_per_w", "thermal_time_constant_s", "max_winding_temperature_c"):
+        assert motor_form.select_one(f"input[name={name}]") is not None, name

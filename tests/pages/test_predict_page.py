@@ -56,3 +56,29 @@ def test_predict_page_lists_missing_values(app: FastAPI, client: TestClient) -> 
     assert page.status_code == 422
     errors = BeautifulSoup(page.text, "html.parser").select_one("ul.errors").text
     assert "motor.winding_resistance_ohm" in errors
+
+
+def test_predict_page_shows_winding_temperatures_and_the_burst_chart(app: FastAPI, client: TestClient) -> None:
+    team = make_team(app)
+    h = team.headers()
+    ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
+           for kind in ("batteries", "escs", "motors", "propellers")}
+    login(client, team.owner_email)
+    params = {"submitted": "1", "battery_id": ids["batteries"], "esc_id": ids["escs"], "motor_id": ids["motors"],
+              "propeller_id": ids["propellers"], "rotor_count": "4", "thrusts": "4", "throttles": "",
+              "temperature_offset_c": "25", "heat": "on", "burst_s": "20"}
+    page = client.get("/predict", params=params)
+    assert page.status_code == 200, BeautifulSoup(page.text, "html.parser").select("ul.errors")
+    soup = BeautifulSoup(page.text, "html.parser")
+    api = client.post("/api/v1/predict", json={
+        "battery": {"id": ids["batteries"]}, "esc": {"id": ids["escs"]}, "motor": {"id": ids["motors"]},
+        "propeller": {"id": ids["propellers"]}, "rotor_count": 4, "conditions": {"temperature_offset_c": 25},
+        "points": [{"thrust_n": 4}], "heat": {"burst_s": 20}}, headers=h).json()["heat"]
+    cell = soup.select_one("#winding-points tbody tr").select("td")[1].text.strip()
+    assert cell == f"{api['points'][0]['winding_temperature_c']:.3g}"
+    assert f"{api['burst']['after_c']:.3g}" in soup.select_one("#burst").text
+    assert "assumed" in soup.select_one("#predict-results").text  # the test motor states no thermal data: priors
+    assert soup.select_one("#chart-winding") is not None
+    # off: no winding section, no chart
+    plain = BeautifulSoup(client.get("/predict", params={**params, "heat": ""}).text, "html.parser")
+    assert plain.select_one("#winding-points") is None and plain.select_one("#chart-winding") is None

@@ -267,9 +267,9 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             ("esc_over_current", not float(es.continuous_current_a[e]) >= mission.esc_current_margin * i_full),
             ("pack_over_current", not n_r * i_full <= mission.pack_current_fraction * float(
                 pk.max_continuous_c[p]) * capacity),
+            ("endurance_short", not screening_endurance >= mission.min_endurance_min),
             ("cold_day_thrust_short", not cold_ok),
             ("cold_day_endurance_short", not cold_endurance_ok),
-            ("endurance_short", not screening_endurance >= mission.min_endurance_min),
         ]
         reason = next((name for name, bad in checks if bad), None)
         if reason is not None:

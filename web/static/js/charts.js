@@ -45,6 +45,23 @@
         label: t.label + " [W]", data: data.losses.map((l) => l[t.name]), backgroundColor: PALETTE[i % PALETTE.length] })) },
       options: { scales: { x: { stacked: true }, y: { stacked: true, title: { display: true, text: "loss per rotor [W]" } } } },
     });
+    windingChart(data);
+  }
+
+  function windingChart(data) {
+    const w = data.winding;
+    if (!w) return;
+    const line = (ys) => w.t_s.map((t, i) => ({ x: t, y: ys[i] }));
+    draw("chart-winding", {
+      type: "scatter",
+      data: { datasets: [
+        { label: "winding temperature [°C]", data: line(w.temperature_c), showLine: true, pointRadius: 0, borderColor: PALETTE[4] },
+        { label: "highest allowed [°C]", data: [{ x: 0, y: w.limit_c }, { x: w.t_s[w.t_s.length - 1], y: w.limit_c }], showLine: true, pointRadius: 0, borderColor: PALETTE[6], borderDash: [6, 3] },
+        { label: "air [°C]", data: [{ x: 0, y: w.air_c }, { x: w.t_s[w.t_s.length - 1], y: w.air_c }], showLine: true, pointRadius: 0, borderColor: PALETTE[5], borderDash: [2, 3] },
+      ] },
+      options: { scales: { x: { title: { display: true, text: "time at full throttle [s]" } },
+        y: { title: { display: true, text: "temperature [°C]" } } } },
+    });
   }
 
   function requiredLine(x, ys, axis) {
