@@ -152,11 +152,13 @@ class EnduranceIn(BaseModel):
 
 
 class HeatIn(BaseModel):
-    """Ask for winding temperatures: each point's steady temperature and a full-throttle burst from the first."""
+    """Ask for winding temperatures: each point's steady temperature and a full-throttle burst from the hover point."""
 
     model_config = ConfigDict(extra="forbid")
 
-    burst_s: ranged(float, 0, 3600, "s", description="Full-throttle burst from the first point's temperature") = 0.0  # type: ignore[valid-type]  # noqa: E501
+    burst_s: ranged(  # type: ignore[valid-type]
+        float, 0, 3600, "s", description="Full-throttle burst from the temperature of the first point by thrust (else "
+                                         "the first point)") = 0.0
     motor_mass_g: ranged(  # type: ignore[valid-type]
         float, 1, 100_000, "g", description="For the assumed thermal resistance of a motor given without one (a saved "
                                             "motor's own mass otherwise)") | None = None
@@ -253,7 +255,9 @@ class BurstCurve(BaseModel):
 
 
 class BurstOut(BaseModel):
-    from_c: float | None = Field(description="Winding temperature at the start (the first point's) [°C]")
+    from_point: int = Field(description="The point (1-based, request order) the burst starts from: the first by "
+                                        "thrust (the hover or cruise point), else the first")
+    from_c: float | None = Field(description="Winding temperature at the start (that point's) [°C]")
     after_c: float | None = Field(description="Winding temperature at the end of the burst [°C]")
     full_throttle_current_a: float | None = Field(description="Motor current at full throttle (R as stated) [A]")
     over_limit: bool

@@ -350,7 +350,7 @@ def predict(session: Session | None, team_id: int | None, request: PredictReques
         result["minutes_band"] = endurance_band(system, d)
     heat = None
     if request.heat is not None:
-        heat = winding.heat(system, op, request.heat.burst_s, request.heat.motor_mass_g, session, team_id)
+        heat = winding.heat(system, op, kinds, request.heat.burst_s, request.heat.motor_mass_g, session, team_id)
         warnings = sorted(set(warnings) | set(winding.warnings(heat)))
     return {
         "air_density_kg_m3": system.density,

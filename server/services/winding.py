@@ -3,7 +3,8 @@
 The points are solved with R as stated (predict's rule); each point's steady temperature is the coupled solve of
 :func:`server.physics.thermal.steady_winding_temperature_c` at the point's motor current (exact for points by
 thrust, whose current does not depend on R; for points by duty or rpm the current at the stated R). The burst
-starts from the first point's temperature at the full-throttle current (docs/model-reference.md#heat).
+starts from the temperature of the first point requested by thrust (the hover or cruise point; the first point
+when none is) at the full-throttle current (docs/model-reference.md#heat).
 """
 
 from __future__ import annotations
@@ -46,8 +47,8 @@ def thermal_values(session: Session | None, team_id: int | None, motor: Any, val
     return {name: float(v) for name, v in zip(stated, filled, strict=True)}, sources
 
 
-def heat(system: Any, op: OperatingPoint, burst_s: float, mass_g: float | None, session: Session | None,
-         team_id: int | None) -> dict[str, Any]:
+def heat(system: Any, op: OperatingPoint, kinds: list[str], burst_s: float, mass_g: float | None,
+         session: Session | None, team_id: int | None) -> dict[str, Any]:
     """The ``heat`` block of a prediction: steady winding temperature per point, and the burst."""
     values, sources = thermal_values(session, team_id, system.request.motor, system.motor.values, mass_g)
     r_th, tau, t_max = (values[k] for k in priors.THERMAL_PRIORS)
@@ -62,7 +63,8 @@ def heat(system: Any, op: OperatingPoint, burst_s: float, mass_g: float | None, 
     out: dict[str, Any] = {"air_temperature_c": air_c, "burst_s": burst_s, "points": points,
                            "thermal_resistance_k_per_w": r_th, "thermal_time_constant_s": tau,
                            "max_winding_temperature_c": t_max, "sources": sources, "burst": None}
-    start = points[0]["winding_temperature_c"] if points else None
+    first = next((i for i, kind in enumerate(kinds) if kind == "thrust_n"), 0)
+    start = points[first]["winding_temperature_c"] if points else None
     if burst_s > 0 and start is not None:
         full = drive.full_throttle(**system.solve_kwargs())
         current = float(np.ravel(full.motor_current_a)[0])
@@ -71,8 +73,8 @@ def heat(system: Any, op: OperatingPoint, burst_s: float, mass_g: float | None, 
         curve = thermal.winding_temperature_after_c(start, times, air_c, current, motor.resistance_ohm, no_load,
                                                     r_th, tau)
         end = _f(curve[-1])
-        out["burst"] = {"from_c": start, "after_c": end, "full_throttle_current_a": _f(current),
-                        "over_limit": end is None or end > t_max,
+        out["burst"] = {"from_point": first + 1, "from_c": start, "after_c": end,
+                        "full_throttle_current_a": _f(current), "over_limit": end is None or end > t_max,
                         "curve": {"t_s": [float(t) for t in times], "temperature_c": [_f(v) for v in curve]}}
     return out
 
