@@ -80,7 +80,7 @@ class MissionCreate(BaseModel):
     temperature_effects: bool = Field(
         default=False, description="Heat and cold at the mission's air temperature: motor windings at their "
                                    "temperature (and checked against their maximum), the pack at the air temperature; "
-                                   "false: every part at the temperature its values are stated at")
+                                   "no (false): every part at the temperature its values are stated at")
     burst_s: ranged(  # type: ignore[valid-type]
         float, 0, 3600, "s", description="Full-throttle burst from the hover/cruise winding temperature, checked "
                                          "against the motor's maximum (with temperature effects)") = 0.0

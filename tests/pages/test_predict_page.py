@@ -9,12 +9,18 @@ from fastapi.testclient import TestClient
 from tests.factories import login, make_team, part_payload
 
 
-def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
+def _parts_logged_in(app: FastAPI, client: TestClient) -> tuple[dict[str, str], dict[str, int]]:
+    """A team with one part of each kind, logged in: its API headers and the parts' ids."""
     team = make_team(app)
     h = team.headers()
     ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
            for kind in ("batteries", "escs", "motors", "propellers")}
     login(client, team.owner_email)
+    return h, ids
+
+
+def test_predict_page_matches_the_api(app: FastAPI, client: TestClient) -> None:
+    h, ids = _parts_logged_in(app, client)
     params = {"submitted": "1", "battery_id": ids["batteries"], "esc_id": ids["escs"], "motor_id": ids["motors"],
               "propeller_id": ids["propellers"], "rotor_count": "4", "throttles": "1.0, 0.6", "thrusts": "4"}
     page = client.get("/predict", params=params)
@@ -59,11 +65,7 @@ def test_predict_page_lists_missing_values(app: FastAPI, client: TestClient) -> 
 
 
 def test_predict_page_shows_winding_temperatures_and_the_burst_chart(app: FastAPI, client: TestClient) -> None:
-    team = make_team(app)
-    h = team.headers()
-    ids = {kind: client.post(f"/api/v1/parts/{kind}", json=part_payload(kind), headers=h).json()["id"]
-           for kind in ("batteries", "escs", "motors", "propellers")}
-    login(client, team.owner_email)
+    h, ids = _parts_logged_in(app, client)
     params = {"submitted": "1", "battery_id": ids["batteries"], "esc_id": ids["escs"], "motor_id": ids["motors"],
               "propeller_id": ids["propellers"], "rotor_count": "4", "thrusts": "4", "throttles": "",
               "temperature_offset_c": "25", "heat": "on", "burst_s": "20"}
