@@ -78,7 +78,7 @@ def glauert_inflow_ratio(edgewise_ratio: ArrayLike, through_ratio: ArrayLike) ->
         # Every root lies below 1/sqrt(m^2 + x^2) for x >= 0 (lam < 1/sqrt(m^2 + (x + lam)^2)), below 1/m, and below
         # max(0, -x) + 1; from that upper bound Newton descends monotonically where g is convex (x >= 0).
         hi = np.minimum(np.maximum(0.0, -x) + 1.0, 1.0 / np.sqrt(m2 + np.maximum(x, 0.0) ** 2))
-    lam = hi.copy()
+    lam: FloatArray = hi.copy()
     if not lam.size:
         return lam
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
