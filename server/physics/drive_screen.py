@@ -27,6 +27,7 @@ import numpy as np
 
 from . import esc as esc_model
 from . import forward_flight
+from .motor import MotorParams
 from .propeller_segments import PropModel
 
 BUS_RTOL = 1e-14
@@ -96,6 +97,27 @@ class Batch:
         """The candidates where ``mask`` (batch shape) is true, as a flat batch."""
         shape = self.shape
         return Batch(**{f.name: np.broadcast_to(getattr(self, f.name), shape)[mask] for f in fields(self)})
+
+
+def batch_of(motor: MotorParams, esc: esc_model.EscParams, *, open_circuit_voltage_v: np.ndarray,
+             pack_resistance_ohm: np.ndarray, q: np.ndarray) -> Batch:
+    """A batch from the physics engine's own parameter objects (one system, or draws of one), for the operating points.
+
+    The fields only the ranking reads (low/full-charge voltages, capacity, current limits, mass, heat) are NaN;
+    ``open_circuit_voltage_v`` is the cruise field :func:`cruise_point` reads. Every argument broadcasts.
+    """
+    constants = esc_model.EscConstants.of(esc)
+    nan = np.full((), np.nan)
+    return Batch(voc_cruise_v=np.asarray(open_circuit_voltage_v, dtype=np.float64), voc_low_v=nan, voc_full_v=nan,
+                 pack_resistance_ohm=np.asarray(pack_resistance_ohm, dtype=np.float64), capacity_ah=nan,
+                 pack_limit_a=nan, r_on_ohm=constants.on_path_resistance_ohm,
+                 switching_coef=constants.switching_per_v_a, dead_time_coef_v=constants.dead_time_v,
+                 ripple_coef_s2=constants.ripple_s2, esr_ohm=constants.input_esr_ohm,
+                 k_pwm=constants.pwm_loss_coefficient, esc_rating_a=nan, kv_si=motor.kv_rad_s_per_v,
+                 motor_resistance_ohm=motor.resistance_ohm, no_load_current_a=motor.no_load_current_a,
+                 inductance_h=motor.inductance_h, motor_rating_a=nan, thermal_resistance_k_per_w=nan,
+                 thermal_time_constant_s=nan, max_winding_temperature_c=nan, q=np.asarray(q, dtype=np.intp),
+                 mass_kg=nan)
 
 
 @dataclass(frozen=True)

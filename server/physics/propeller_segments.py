@@ -64,6 +64,9 @@ class PropModel:
         Static (hover) or forward (cruise) table.
     valid : ndarray of bool, shape (Q,)
         Propellers whose table exists and is usable (monotone thrust and torque, FM <= 1 at static knots).
+    solvable : ndarray of bool, shape (Q,)
+        Propellers whose segments the solvers can use (``valid`` without the momentum bound: a table above it
+        has wrong data, which the ranking refuses, but its points are still the reference interpolation's).
     has_table : ndarray of bool, shape (Q,)
         Propellers that have any table of this axis at all.
     """
@@ -90,6 +93,7 @@ class PropModel:
     valid: np.ndarray
     has_table: np.ndarray
     table: PropellerTable
+    solvable: np.ndarray
 
     @property
     def width(self) -> int:
@@ -151,7 +155,7 @@ class PropModel:
                 # Momentum bound at the knots (docs/model-reference.md#reference-model-v1 item 8): FM > 1 means the
                 # data are wrong.
                 physical = momentum_limit_ratio(ct, cp) <= 1.0  # FM <= 1 (docs/model-reference.md, item 8)
-                ok &= np.all(~present | physical, axis=1)
+                within_momentum = np.all(~present | physical, axis=1)
                 thrust_knots = np.where(present, ct * xs * xs, np.nan)
                 speed_knots = xs
                 torque_knots = np.where(present, cp * xs * xs, np.nan)
@@ -160,7 +164,7 @@ class PropModel:
                 kq = rho * diameter**5 / (2.0 * math.pi)
                 ok &= (ct[:, 0] > 0) & np.all(~present | (xs >= 0), axis=1)
                 # Efficiency at every measured J at most the Froude (momentum) limit at that thrust loading.
-                ok &= np.all(~present | (momentum_limit_ratio(ct, cp, xs) <= 1.0), axis=1)
+                within_momentum = np.all(~present | (momentum_limit_ratio(ct, cp, xs) <= 1.0), axis=1)
                 # J^2/CT must rise with J while CT > 0 (2 a + b J > 0), and CP(J) n^2 with n (2 CP - (-b) J > 0).
                 ends_lo = xs[:, :-1]
                 ends_hi = xs[:, 1:]
@@ -180,13 +184,14 @@ class PropModel:
         root_t = np.sqrt(np.where(np.isfinite(thrust_knots) & (thrust_knots > 0), thrust_knots, np.nan))
         seg_root_thrust_lo = np.concatenate([np.zeros((n, 1)), root_t], axis=1)
         seg_root_thrust_hi = np.concatenate([root_t, np.full((n, 1), np.nan)], axis=1)
-        valid = ok & np.isfinite(diameter) & (diameter > 0)
+        solvable = ok & np.isfinite(diameter) & (diameter > 0)
+        valid = solvable & within_momentum
         return cls(seg_lo=seg_lo, seg_hi=seg_hi, seg_root_thrust_lo=seg_root_thrust_lo,
                    seg_root_thrust_hi=seg_root_thrust_hi,
                    axis="advance_ratio" if forward else "rpm", density_kg_m3=rho, airspeed_m_s=speed,
                    diameter_m=diameter, kt=kt, kq=kq, n_valid=n_valid.astype(np.intp), ct_a=ct_a, ct_b=ct_b,
                    cp_a=cp_a, cp_b=cp_b, cp_mid=cp_mid, thrust_knots=thrust_knots, speed_knots=speed_knots,
-                   torque_knots=torque_knots, valid=valid, has_table=has_table, table=table)
+                   torque_knots=torque_knots, valid=valid, has_table=has_table, table=table, solvable=solvable)
 
     # --- segment lookups -------------------------------------------------------------------------------
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from dataclasses import fields
 from typing import Any
 
 import numpy as np
@@ -11,9 +12,12 @@ from sqlalchemy.orm import Session
 from server.errors import FieldError, InvalidInput
 from server.physics import atmosphere, drive, endurance, fast, forward_flight, uncertainty
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status, as_float_array
-from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
+from server.physics.battery import PackParams
+from server.physics.esc import EscParams
+from server.physics.motor import MotorParams
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.physics.propeller import PropellerTable, disk_area_m2, tip_mach_number
+from server.physics.system_batch import SystemBatch
 from server.schemas.predict import PredictRequest
 from server.selection.flight_report import flight_report
 from server.services import bands, winding
@@ -239,12 +243,9 @@ def _endurance(system: System) -> dict[str, Any] | None:
         end = {"bus_voltage_v": _f(np.ravel(result.end_voltage_v)[0]),
                "bus_current_a": _f(np.ravel(result.end_current_a)[0])}
     else:
-        kwargs = system.solve_kwargs()
-        for key in ("open_circuit_voltage_v", "pack_resistance_ohm"):
-            kwargs.pop(key)
         assert spec.thrust_n is not None  # EnduranceIn: exactly one of thrust_n and power_w is given
-        result = endurance.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc,
-                                           flight=system.flight(spec.thrust_n), **kwargs)
+        result = fast.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc,
+                                      **_flight_kwargs(system, spec.thrust_n))
         start, end = _state(result.start), _state(result.end)
     seconds = _f(np.ravel(result.time_s)[0])
     return {
@@ -257,7 +258,15 @@ def _endurance(system: System) -> dict[str, Any] | None:
     }
 
 
-def _state(point: OperatingPoint) -> dict[str, float | None]:
+def _flight_kwargs(system: System, thrust_n: float) -> dict[str, Any]:
+    """The arguments of :func:`server.physics.fast.constant_thrust` besides the thrust, pack and initial SOC."""
+    return {"motor": system.motor_params, "esc": system.esc_params, "propeller": system.table,
+            "rotor_count": float(system.request.rotor_count), "density_kg_m3": system.density,
+            "airspeed_m_s": float(system.airspeed), "flight": system.flight(thrust_n)}
+
+
+def _state(point: fast.DischargePoint | None) -> dict[str, float | None]:
+    assert point is not None  # fast.constant_thrust always reports its start and end
     return {"duty": _f(np.ravel(point.duty)[0]), "bus_voltage_v": _f(np.ravel(point.bus_voltage_v)[0]),
             "bus_current_a": _f(np.ravel(point.pack_current_a)[0]),
             "motor_current_a": _f(np.ravel(point.motor_current_a)[0])}
@@ -274,20 +283,50 @@ def _drawn_kwargs(system: System, d: bands.Draws) -> dict[str, Any]:
     return kwargs
 
 
+def _flat_draws(system: System, d: bands.Draws) -> dict[str, Any]:
+    """The motor, ESC and table of the draws on one flat sample axis (what :mod:`server.physics.system_batch` and
+    :func:`server.physics.fast.constant_thrust` take)."""
+    table = d.forward if system.airspeed > 0 else d.static
+    assert table is not None  # System has resolved the table of this airspeed
+    k = table.axis_values.shape[-1]
+    return {"motor": MotorParams(*(np.ravel(getattr(d.motor, f.name)) for f in fields(MotorParams))),
+            "esc": EscParams(*(np.ravel(getattr(d.esc, f.name)) for f in fields(EscParams))),
+            "propeller": PropellerTable(table.diameter_m, np.reshape(table.axis_values, (-1, k)),
+                                        np.reshape(table.thrust_coefficient, (-1, k)),
+                                        np.reshape(table.power_coefficient, (-1, k)), table.axis)}
+
+
 def point_bands(system: System, kinds: list[str], values: np.ndarray, d: bands.Draws) -> list[dict[str, Any]]:
-    """The 80 % band of electrical power, thrust and motor current (per rotor) at every requested point."""
+    """The 80 % band of electrical power, thrust and motor current (per rotor) at every requested point.
+
+    Thrust points and full throttle go through the screening solver of every draw at once
+    (:class:`server.physics.system_batch.SystemBatch`, equal to the reference to rounding); other duties and speeds
+    through the reference solver."""
     kinds_arr = np.array(kinds)
     kwargs = _drawn_kwargs(system, d)
+    common = {k: v for k, v in _flight_kwargs(system, 0.0).items() if k != "flight"}
+    screen = SystemBatch(**common | _flat_draws(system, d), pack_resistance_ohm=np.ravel(kwargs["pack_resistance_ohm"]),
+                         batch_shapes=((d.samples,),))
+    discrepancy = d.discrepancy.reshape(-1, 1)
+    full = (kinds_arr == "throttle") & (values == 1.0)
     out: list[dict[str, Any]] = [{} for _ in kinds]
-    for kind, fn in (("throttle", drive.at_duty), ("thrust_n", drive.for_thrust), ("rpm", drive.at_rpm)):
-        mask = np.flatnonzero(kinds_arr == kind)
+    for kind, fn in (("full", None), ("throttle", drive.at_duty), ("thrust_n", None), ("rpm", drive.at_rpm)):
+        mask = np.flatnonzero(full if kind == "full" else (kinds_arr == kind) & ~full)
         if not mask.size:
             continue
-        extra: dict[str, Any] = {"flight": system.flight(values[mask][None, :])} if kind == "thrust_n" else {}
-        op = fn(values[mask][None, :], **kwargs, **extra)
-        solved = np.isin(op.status, [Status.OK, Status.OVER_CURRENT])
-        for name, array in (("electrical_power_w", op.electrical_power_w * d.discrepancy),
-                            ("thrust_n", op.thrust_n), ("motor_current_a", op.motor_current_a)):
+        if fn is None:
+            pts = (screen.full_throttle(np.full((1, mask.size), system.open_circuit_v)) if kind == "full" else
+                   screen.for_thrust(values[mask][None, :], system.open_circuit_v,
+                                     flight=system.flight(values[mask][None, :])))
+            solved = pts.reachable & ~pts.data_error
+            arrays = (pts.electrical_power_w, pts.thrust_n, pts.motor_current_a)
+        else:
+            op = fn(values[mask][None, :], **kwargs)
+            solved = np.isin(op.status, [Status.OK, Status.OVER_CURRENT])
+            arrays = (op.electrical_power_w, op.thrust_n, op.motor_current_a)
+        for name, array in zip(("electrical_power_w", "thrust_n", "motor_current_a"), arrays, strict=True):
+            if name == "electrical_power_w":
+                array = array * discrepancy
             lo, hi = uncertainty.band(np.where(solved, array, np.nan), axis=0)
             for j, i in enumerate(mask):
                 out[i][name] = [_f(lo[j]), _f(hi[j])]
@@ -319,15 +358,9 @@ def endurance_band(system: System, d: bands.Draws) -> list[float | None] | None:
         minutes = endurance.constant_power(spec.power_w, pack=pack, initial_state_of_charge=start_soc).time_s / 60
     else:
         assert spec.thrust_n is not None
-        nodes = fast.constant_thrust_nodes(start_soc, pack, (samples,), BAND_SOC_STEP)
-        voc = pack.cells_series[:, None] * open_circuit_voltage_per_cell_v(nodes, pack.full_voltage_per_cell_v)
-        kwargs = _drawn_kwargs(system, d) | {"open_circuit_voltage_v": voc}
-        kwargs["pack_resistance_ohm"] = np.asarray(pack.resistance_ohm)[:, None]
-        op = drive.for_thrust(spec.thrust_n, **kwargs, flight=system.flight(spec.thrust_n))
-        reachable = ~np.isin(op.status, [Status.INFEASIBLE_THRUST, Status.NO_SOLUTION, Status.POWER_LIMIT])
-        result = fast.march_constant_thrust(nodes, op.pack_current_a * d.discrepancy, op.bus_voltage_v, op.duty,
-                                            reachable, op.status == Status.NON_FINITE, pack=pack,
-                                            soc_step=BAND_SOC_STEP)
+        result = fast.constant_thrust(spec.thrust_n, pack=pack, initial_state_of_charge=start_soc,
+                                      soc_step=BAND_SOC_STEP, current_factor=d.discrepancy.ravel(),
+                                      **_flight_kwargs(system, spec.thrust_n) | _flat_draws(system, d))
         minutes = result.time_s / 60
     lo, hi = uncertainty.band(minutes, axis=0)
     return [_f(lo), _f(hi)]
