@@ -174,3 +174,51 @@ def test_fit_motor_with_torque_and_fit_esc_with_known_parts() -> None:
     k = esc_fit.parameters["pwm_loss_coefficient"]
     assert k.status == "identified" and abs(k.value - 0.3) <= 3 * k.standard_error
     assert esc_fit.samples_used == 12 * int(np.sum(DUTIES < 1.0))
+
+
+def _problem_of(runs: list[RunData], monkeypatch: pytest.MonkeyPatch, **kwargs: object) -> object:
+    """The pooled problem fit_joint builds, with the free parameters of its first solve."""
+    from server.physics.calibrate import drive_problem
+
+    captured: list[tuple[drive_problem._PooledProblem, list[bool]]] = []
+    solve = drive_problem._PooledProblem.solve
+
+    def capture(self: drive_problem._PooledProblem, method: str = "analytic") -> object:
+        if not captured:
+            captured.append((self, [q.free for q in self.params]))
+        return solve(self, method)
+
+    monkeypatch.setattr(drive_problem._PooledProblem, "solve", capture)
+    fit_joint(runs, **kwargs)  # type: ignore[arg-type]
+    problem, free = captured[0]
+    for q, was_free in zip(problem.params, free, strict=True):
+        q.free = was_free
+    return problem
+
+
+@pytest.mark.parametrize("fixed", [False, True])
+def test_closed_form_jacobian_equals_finite_differences(fixed: bool, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The fit's analytic Jacobian (every residual kind: power at guessed and at trusted duties, full-throttle voltage,
+    torque, priors; a fixed motor with the ESC's R_on free) against central differences away from the optimum."""
+    from dataclasses import replace
+
+    runs = synthetic_runs(torque=False)[:6]
+    runs[1] = replace(runs[1], duty_trusted=True)
+    runs[2] = replace(runs[2], torque_nm=runs[2].rpm * 1e-5)
+    extra: dict[str, object] = {"motor_priors": {r.motor_id: MotorPrior(900.0, 0.1, 0.5) for r in runs}}
+    if fixed:
+        extra = {"fixed_motors": {runs[0].motor_id: MotorParams(920.0, 0.09, 0.5)}, "fit_on_path_resistance": True}
+    problem = _problem_of(runs, monkeypatch, esc=EscParams(pwm_loss_coefficient=0.2), **extra)
+    free = [q for q in problem.params if q.free]  # type: ignore[attr-defined]
+    assert any(q.name == "esc:on_path_resistance_ohm" for q in free) == fixed
+    x = np.array([q.value for q in free]) * (1 + 0.05 * np.random.default_rng(3).standard_normal(len(free)))
+    analytic = problem.jacobian(x)  # type: ignore[attr-defined]
+    numeric = np.empty_like(analytic)
+    for c in range(x.size):
+        h = 1e-6 * max(abs(x[c]), 1e-3)
+        up, down = x.copy(), x.copy()
+        up[c] += h
+        down[c] -= h
+        numeric[:, c] = (problem.residuals(up) - problem.residuals(down)) / (2 * h)  # type: ignore[attr-defined]
+    scale = np.max(np.abs(numeric), axis=0) + 1e-12
+    assert np.max(np.abs(analytic - numeric) / scale) < 1e-6

@@ -203,7 +203,9 @@ def _covariance(jac: FloatArray, resid: FloatArray, p: int,
     # column-normalise so that the rank test does not depend on the parameters' units
     norms = np.linalg.norm(j, axis=0)
     scaled = j / np.where(norms > 0.0, norms, 1.0)
-    _, sv, vt = np.linalg.svd(scaled, full_matrices=True)
+    # Only V is needed (its rows beyond the rank span the null space): the thin SVD has all of V whenever J has at
+    # least as many rows as columns, without the m x m U of the full one (seconds for a pooled fit's 10^4 rows).
+    _, sv, vt = np.linalg.svd(scaled, full_matrices=j.shape[0] < j.shape[1])
     sv_full = np.zeros(j.shape[1])
     sv_full[: sv.size] = sv
     null = vt[sv_full <= 1e-9 * max(float(sv_full.max()), 1e-300)]

@@ -8,6 +8,7 @@ from dataclasses import replace
 
 import numpy as np
 import scipy.linalg
+from threadpoolctl import threadpool_limits
 
 from .._types import FloatArray
 from ..esc import EscParams
@@ -44,7 +45,7 @@ def _relative_rms(model: FloatArray, measured: FloatArray) -> float:
 def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mapping[str, MotorPrior],
                 fixed_motors: Mapping[str, MotorParams], fixed_propellers: Mapping[str, PropellerTable],
                 fit_pwm_loss: bool, fit_on_path_resistance: bool, knot_count: int,
-                inductance_h: Mapping[str, float]) -> JointFit:
+                inductance_h: Mapping[str, float], solver: str = "analytic") -> JointFit:
     runs = [r for r in runs if r.rpm.size]
     if not runs:
         raise ValueError("no usable samples to fit")
@@ -76,7 +77,7 @@ def _pooled_fit(runs: Sequence[RunData], *, esc: EscParams, motor_priors: Mappin
     cov = np.zeros((len(problem.params), len(problem.params)))
     for _ in range(len(problem.params)):
         free = [k for k, q in enumerate(problem.params) if q.free]
-        x, jac, fun = problem.solve()
+        x, jac, fun = problem.solve(solver)
         for k, value in zip(free, x, strict=True):
             problem.params[k].value = float(value)
         n_prior = fun.size - problem.rpm.size - int(np.sum(problem.known_duty)) - int(np.sum(np.isfinite(
@@ -183,7 +184,7 @@ def fit_joint(runs: Sequence[RunData], *, esc: EscParams | None = None,
               fixed_motors: Mapping[str, MotorParams] | None = None,
               fixed_propellers: Mapping[str, PropellerTable] | None = None, fit_pwm_loss: bool = True,
               fit_on_path_resistance: bool = False, knot_count: int = 5,
-              inductance_h: Mapping[str, float] | None = None) -> JointFit:
+              inductance_h: Mapping[str, float] | None = None, solver: str = "analytic") -> JointFit:
     """Pooled fit over runs sharing parts: per-propeller CT(rpm)/CP(rpm), per-motor Kv/R'/I0, the ESC's k_pwm.
 
     Parameters
@@ -205,15 +206,22 @@ def fit_joint(runs: Sequence[RunData], *, esc: EscParams | None = None,
         rpm knots of each propeller's CT/CP table.
     inductance_h : mapping motor id -> float, optional
         Motor line-to-line inductance for the ripple term (default 30 µH). [H]
+    solver : {"analytic", "reference"}, default "analytic"
+        The least-squares Jacobian: closed form with the exact trust-region solver, or the sparse finite
+        differences with the iterative solver the fit first used (same minimum: ``tests/physics/test_calibrate.py``).
 
     Returns
     -------
     JointFit
     """
-    return _pooled_fit(runs, esc=esc or EscParams(), motor_priors=motor_priors or {}, fixed_motors=fixed_motors or {},
-                       fixed_propellers=fixed_propellers or {}, fit_pwm_loss=fit_pwm_loss,
-                       fit_on_path_resistance=fit_on_path_resistance, knot_count=knot_count,
-                       inductance_h=inductance_h or {})
+    # One BLAS thread: the fit's linear algebra is a few SVDs of (samples x parameters) matrices, too small to share
+    # out, and OpenBLAS threads spinning against other work on a busy machine made the 50-run refit of
+    # benchmarks/refit.py 7x slower (5.8 s against 0.8 s with two other busy processes on the 2-core machine).
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _pooled_fit(runs, esc=esc or EscParams(), motor_priors=motor_priors or {},
+                           fixed_motors=fixed_motors or {}, fixed_propellers=fixed_propellers or {},
+                           fit_pwm_loss=fit_pwm_loss, fit_on_path_resistance=fit_on_path_resistance,
+                           knot_count=knot_count, inductance_h=inductance_h or {}, solver=solver)
 
 
 def fit_motor(runs: Sequence[RunData], *, prior: MotorPrior | None = None, esc: EscParams | None = None,
