@@ -50,7 +50,7 @@ def synthetic_runs(count: int, samples: int, seed: int = 1) -> list[RunData]:
                            open_circuit_voltage_v=voltage, pack_resistance_ohm=0.02)
         ok = np.isfinite(op.rpm)
 
-        def noisy(a: np.ndarray, rel: float = 0.005) -> np.ndarray:
+        def noisy(a: np.ndarray, rel: float = 0.005, ok: np.ndarray = ok) -> np.ndarray:
             return a[ok] * (1 + rel * rng.standard_normal(int(ok.sum())))
 
         runs.append(RunData(mid, pid, PROPS[pid][0], 1.225, noisy(op.bus_voltage_v, 0.001),
