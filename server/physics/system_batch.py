@@ -10,6 +10,9 @@ system, or the draws of its uncertain parameters):
 
 - :meth:`SystemBatch.for_thrust`: the point that gives a thrust per rotor (:func:`.drive_screen.cruise_point`),
 - :meth:`SystemBatch.full_throttle`: the point at duty 1 (:func:`.drive_screen.full_throttle`),
+- :func:`operating_points`: one system's full :class:`.operating_point.OperatingPoint` at several thrusts (or at full
+  throttle), the speed and bus voltage from the screening solver, everything else from the reference's own
+  :func:`.operating_point.assemble` (what :func:`.drive.for_thrust` reports, without its root finding),
 
 each at open-circuit voltages of shape ``(n, m)``. A system whose table the segment model cannot solve
 (:attr:`.propeller_segments.PropModel.solvable`: not monotone, NaN inside) or whose parameters are not finite is
@@ -25,12 +28,13 @@ from typing import Any
 import numpy as np
 
 from . import drive, forward_flight
+from ._problem import build_problem
 from ._types import ArrayLike, FloatArray, Status, as_float_array
 from .drive_screen import Batch, batch_of, cruise_point
 from .drive_screen import full_throttle as screen_full_throttle
 from .esc import EscParams
 from .motor import MotorParams
-from .operating_point import OperatingPoint
+from .operating_point import OperatingPoint, assemble, motor_side
 from .propeller import PropellerTable
 from .propeller_segments import PropModel
 
@@ -45,6 +49,7 @@ class Points:
     """
 
     thrust_n: FloatArray
+    omega_rad_s: FloatArray
     duty: FloatArray
     bus_voltage_v: FloatArray
     bus_current_a: FloatArray
@@ -60,7 +65,7 @@ class Points:
         return power
 
 
-_VALUES = ("thrust_n", "duty", "bus_voltage_v", "bus_current_a", "motor_current_a")
+_VALUES = ("thrust_n", "omega_rad_s", "duty", "bus_voltage_v", "bus_current_a", "motor_current_a")
 
 
 class SystemBatch:
@@ -140,7 +145,7 @@ class SystemBatch:
         if self._screen.q.size:
             ft = screen_full_throttle(self._screen, self.model, self.rotor_count, voc[self.screened])
             reachable = np.isfinite(ft.bus_voltage_v)
-            values = {"thrust_n": ft.thrust_n, "duty": np.where(reachable, 1.0, np.nan),
+            values = {"thrust_n": ft.thrust_n, "omega_rad_s": ft.omega_rad_s, "duty": np.where(reachable, 1.0, np.nan),
                       "bus_voltage_v": ft.bus_voltage_v, "bus_current_a": ft.motor_current_a,
                       "motor_current_a": ft.motor_current_a}
             self._scatter(out, self.screened, reachable, values, ft.momentum_ratio > 1.0)
@@ -192,3 +197,67 @@ class SystemBatch:
         out["reachable"][rows] = ok
         out["invalid"][rows] |= status == Status.NON_FINITE
         out["data_error"][rows] = status == Status.DATA_ERROR
+
+
+def operating_points(kind: str, values: FloatArray, *, motor: MotorParams, esc: EscParams, propeller: PropellerTable,
+                     open_circuit_voltage_v: float, pack_resistance_ohm: float = 0.0, rotor_count: float = 1.0,
+                     density_kg_m3: float = 1.225, airspeed_m_s: float = 0.0,
+                     flight: forward_flight.FlightState | None = None) -> OperatingPoint:
+    """:func:`.drive.for_thrust` (``kind="thrust_n"``) or :func:`.drive.at_duty` (``kind="throttle"``) of one system
+    at the 1-D ``values`` (thrust per rotor [N] or duty [-]), the same :class:`.operating_point.OperatingPoint`.
+
+    Where the screening solver finds the point strictly below full throttle (a thrust) or at duty 1 (full throttle),
+    its speed and bus voltage go through the reference's :func:`.operating_point.assemble` (every reported value,
+    loss term, status, over-current and momentum check as the reference computes them; at duty 1 the bus is the
+    motor voltage, as :func:`.drive.at_duty` sets it). Every other value (a partial duty, an unreachable thrust, the
+    thin band just below full throttle, a table the segments cannot solve) is the reference solver's own.
+    """
+    values = np.asarray(values, dtype=np.float64).ravel()
+    common: dict[str, Any] = {"motor": motor, "esc": esc, "propeller": propeller,
+              "open_circuit_voltage_v": open_circuit_voltage_v,
+              "pack_resistance_ohm": pack_resistance_ohm, "rotor_count": rotor_count, "density_kg_m3": density_kg_m3,
+              "airspeed_m_s": airspeed_m_s}
+    if kind not in ("thrust_n", "throttle"):
+        raise ValueError(f"unknown kind {kind!r}")
+    batch = SystemBatch(motor=motor, esc=esc, propeller=propeller, pack_resistance_ohm=pack_resistance_ohm,
+                        rotor_count=rotor_count, density_kg_m3=density_kg_m3, airspeed_m_s=airspeed_m_s)
+    if batch.n != 1:
+        raise ValueError("operating_points solves one system")
+
+    def flight_of(mask: np.ndarray) -> forward_flight.FlightState | None:
+        if flight is None:
+            return None
+        return forward_flight.FlightState(**{name: np.broadcast_to(value, values.shape)[mask]
+                                             for name, value in vars(flight).items()})
+
+    if kind == "thrust_n":
+        pts = batch.for_thrust(values[np.newaxis, :], open_circuit_voltage_v, flight)
+        fast = pts.reachable[0] & (pts.duty[0] < 1.0)
+    else:
+        pts = batch.full_throttle(np.full((1, values.size), float(open_circuit_voltage_v)))
+        fast = pts.reachable[0] & (values == 1.0)
+    fast &= bool(batch.screened[0]) & np.isfinite(values)
+    parts: list[tuple[np.ndarray, OperatingPoint]] = []
+    if fast.any():
+        p, _ = build_problem(motor, esc, propeller, open_circuit_voltage_v, pack_resistance_ohm, rotor_count,
+                             density_kg_m3, airspeed_m_s, values[fast], flight=flight_of(fast))
+        omega = pts.omega_rad_s[0][fast]
+        bus = pts.bus_voltage_v[0][fast] if kind == "thrust_n" else motor_side(p, omega)[3]
+        parts.append((fast, assemble(p, omega, bus, np.full(int(fast.sum()), Status.OK, dtype=np.int8))))
+    if not fast.all():
+        rest = ~fast
+        if kind == "thrust_n":
+            op = drive.for_thrust(values[rest], **common, flight=flight_of(rest))
+        else:
+            op = drive.at_duty(values[rest], **common)
+        parts.append((rest, op))
+    first = parts[0][1]
+    merged = first.map(lambda a: np.zeros(values.size, dtype=np.asarray(a).dtype))
+    for mask, op in parts:
+        def scatter(full: np.ndarray, part: np.ndarray, mask: np.ndarray = mask) -> np.ndarray:
+            out = np.array(full)
+            out[mask] = np.ravel(part)
+            return out
+
+        merged = merged.map(scatter, op)
+    return merged

@@ -17,7 +17,7 @@ from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
 from server.physics.operating_point import LOSS_TERMS, OperatingPoint, loss_value
 from server.physics.propeller import PropellerTable, disk_area_m2, tip_mach_number
-from server.physics.system_batch import SystemBatch
+from server.physics.system_batch import SystemBatch, operating_points
 from server.schemas.predict import PredictRequest
 from server.selection.flight_report import flight_report
 from server.services import bands, winding
@@ -99,16 +99,23 @@ class System:
 
 
 def solve_points(system: System, kinds: list[str], values: np.ndarray) -> OperatingPoint:
-    """All requested points in one vectorised call per kind; results in request order."""
+    """All requested points in one vectorised call per kind; results in request order.
+
+    Thrust points and full throttle take their speed and bus voltage from the screening solver and everything else
+    from the reference's own assembly (:func:`server.physics.system_batch.operating_points`: the reference's numbers
+    without its root-finding overhead); partial duties and speeds are the reference solver's."""
     n = len(kinds)
     kinds_arr = np.array(kinds)
     merged: OperatingPoint | None = None
-    for kind, fn in (("throttle", drive.at_duty), ("thrust_n", drive.for_thrust), ("rpm", drive.at_rpm)):
+    for kind in ("throttle", "thrust_n", "rpm"):
         mask = kinds_arr == kind
         if not mask.any():
             continue
-        extra: dict[str, Any] = {"flight": system.flight(values[mask])} if kind == "thrust_n" else {}
-        op = fn(values[mask], **system.solve_kwargs(), **extra)
+        if kind == "rpm":
+            op = drive.at_rpm(values[mask], **system.solve_kwargs())
+        else:
+            extra: dict[str, Any] = {"flight": system.flight(values[mask])} if kind == "thrust_n" else {}
+            op = operating_points(kind, values[mask], **system.solve_kwargs(), **extra)
         if merged is None:
             merged = op.map(lambda a: np.zeros(n, dtype=np.asarray(a).dtype) if np.asarray(a).dtype.kind in "ib"
                             else np.full(n, np.nan))

@@ -194,3 +194,39 @@ def test_system_batch_points_equal_the_reference_solvers() -> None:
     near = batch.for_thrust(thrusts, 15.6)
     assert not near.reachable[:, :9].all()  # the heaviest requests are out of reach
     assert np.any(near.duty[:, 9:] == 1.0) and np.any(near.duty[:, 9:] < 1.0)  # the band below full throttle: both
+
+
+@pytest.mark.parametrize("flight_speed", [None, 12.0])
+def test_operating_points_of_one_system_equal_the_reference(flight_speed: float | None) -> None:
+    """Every field and status of predict's points (system_batch.operating_points) against drive.for_thrust and
+    drive.at_duty: light to unreachable thrusts, the band just below full throttle, over-current, full throttle and
+    partial duties, on the UIUC table with every loss term, with and without a forward-flight state."""
+    from server.physics.esc import PartialThrottleLosses
+    from server.physics.system_batch import operating_points
+
+    table = _uiuc_static()
+    kwargs = {**_lossy(), "propeller": table, "open_circuit_voltage_v": 15.6, "pack_resistance_ohm": 0.03,
+              "rotor_count": 4.0, "density_kg_m3": 1.2}
+    full = drive.at_duty(1.0, **kwargs)  # type: ignore[arg-type]
+    thrusts = np.array([0.5, 2.0, 5.0, 9.0, float(full.thrust_n) * (1 - 1e-4), float(full.thrust_n) * (1 - 1e-13),
+                        float(full.thrust_n) * 1.01, 30.0])
+    flight = None
+    if flight_speed is not None:
+        weight = forward_flight.weight_for_rotor_thrust_n(thrusts, 4.0, 1.2, flight_speed, 0.0, 0.02)
+        flight = forward_flight.flight_state(weight, 4.0, disk_area_m2(table.diameter_m), 1.2, flight_speed, 0.0,
+                                             0.02)
+    cases = [("thrust_n", thrusts, drive.for_thrust(thrusts, **kwargs, flight=flight)),  # type: ignore[arg-type]
+             ("throttle", np.array([1.0, 0.4, 0.9, 1.0]), drive.at_duty(np.array([1.0, 0.4, 0.9, 1.0]),
+                                                                         **kwargs))]  # type: ignore[arg-type]
+    for kind, values, reference in cases:
+        ours = operating_points(kind, values, **kwargs, flight=flight if kind == "thrust_n" else None)  # type: ignore[arg-type]
+        assert ours.status.tolist() == reference.status.tolist()
+        assert {Status.OK, Status.OVER_CURRENT} & set(ours.status.tolist())
+        for f in fields(ours):
+            if f.name == "esc_terms":
+                for t in fields(PartialThrottleLosses):
+                    np.testing.assert_allclose(getattr(ours.esc_terms, t.name), getattr(reference.esc_terms, t.name),
+                                               rtol=REL, atol=1e-12, err_msg=t.name)
+            else:
+                np.testing.assert_allclose(getattr(ours, f.name), getattr(reference, f.name), rtol=REL, atol=1e-12,
+                                           err_msg=f.name)
