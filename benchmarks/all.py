@@ -72,7 +72,7 @@ def _uploads(out: str) -> tuple[str, str, str, bool]:
 def _api(out: str) -> tuple[str, str, str, bool]:
     readers = _number(r"readers ([\d.]+) req/s", out)
     errors = _number(r"readers [\d.]+ req/s \(p99 [\d.]+ ms, (\d+) errors\)", out)
-    trivial = _number(r"of the trivial endpoint \(([\d.]+) req/s\)", out)
+    trivial = _number(r"of the trivial endpoint \(([\d.]+) req/s", out)
     share = readers / trivial
     return (f"{readers:.0f} req/s, {errors:.0f} errors", f"trivial endpoint {trivial:.0f} req/s", f"{share:.0%}",
             share >= 0.5 and errors == 0)
