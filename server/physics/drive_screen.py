@@ -50,6 +50,8 @@ class Batch:
     L [H], rating [A], winding-to-air thermal resistance [K/W], thermal time constant [s], highest winding
     temperature [°C] (read only by the heat model, :mod:`server.selection.temperature`). ``q``: propeller index
     into the :class:`PropModel`. ``mass_kg``: all-up mass [kg].
+    ``cells_series`` and ``full_voltage_per_cell_v`` [V]: the pack's open-circuit voltage at any state of charge
+    (flight profiles).
     """
 
     voc_cruise_v: np.ndarray
@@ -75,6 +77,8 @@ class Batch:
     max_winding_temperature_c: np.ndarray
     q: np.ndarray
     mass_kg: np.ndarray
+    cells_series: np.ndarray
+    full_voltage_per_cell_v: np.ndarray
 
     @property
     def shape(self) -> tuple[int, ...]:

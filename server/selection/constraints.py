@@ -34,6 +34,8 @@ cold_day_thrust_short       at the cold-day air temperature (when set): thrust-t
                             bus collapses at full throttle (pack resistance and air density of that day)
 cold_day_endurance_short    at the cold-day air temperature: the screening endurance below the mission minimum,
                             or the cruise thrust out of reach
+profile_reserve_short       the mission's flight profile (:mod:`.profile`) does not complete with its reserve
+                            (usable capacity, the cut-off voltage or a segment's thrust runs out on the way)
 ==========================  ==================================================================================
 
 Each operating-point reason is a :class:`Check`: the quantity compared, its limit, its unit and whether it
@@ -50,10 +52,12 @@ import numpy as np
 from server.physics import motor_out
 from server.physics._types import STANDARD_GRAVITY_M_S2
 from server.physics.drive_screen import Batch, Cruise, FullThrottle, cruise_point, full_throttle_points
+from server.physics.profile import ProfileResult
 from server.physics.propeller_segments import PropModel
 
 from . import temperature
 from .library import MissionSpec
+from .profile import fly_batch, mission_energy_wh
 
 REASON_TEXT: dict[str, str] = {
     "missing_data": "missing part data (unknown resistance, coefficients…)",
@@ -77,6 +81,7 @@ REASON_TEXT: dict[str, str] = {
     "endurance_short": "endurance below the mission's minimum",
     "cold_day_thrust_short": "thrust-to-weight on the cold day below the mission's minimum (or the pack collapses)",
     "cold_day_endurance_short": "endurance on the cold day below the mission's minimum",
+    "profile_reserve_short": "flight profile does not complete with its reserve",
 }
 """A plain-language line per rejection reason (pages, explain)."""
 REASONS: tuple[str, ...] = tuple(REASON_TEXT)
@@ -151,6 +156,10 @@ class Screen:
     """The batch the cruise point was solved on (pack and winding resistance at temperature, when asked)."""
     heat: temperature.Heat | None = None
     cold_day: ColdDay | None = None
+    profile: ProfileResult | None = None
+    """The flight profile flown by every candidate (missions with segments)."""
+    profile_energy_wh: np.ndarray | float = np.nan
+    """Energy drawn over the profile's segments, reserve excluded (NaN without a profile). [Wh]"""
 
 
 @dataclass(frozen=True)
@@ -201,7 +210,8 @@ def cold_day(batch: Batch, model: PropModel, mission: MissionSpec) -> ColdDay:
 
 def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: FullThrottle, full: FullThrottle,
                      mass: np.ndarray, thrust_to_weight: np.ndarray, endurance_min: np.ndarray,
-                     heat: temperature.Heat | None = None, cold: ColdDay | None = None) -> list[Check]:
+                     heat: temperature.Heat | None = None, cold: ColdDay | None = None,
+                     profile: ProfileResult | None = None) -> list[Check]:
     """The operating-point reasons of :data:`REASONS`, in order, as :class:`Check` objects."""
     n_r = float(mission.rotor_count)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -239,6 +249,10 @@ def operating_checks(batch: Batch, mission: MissionSpec, cruise: Cruise, low: Fu
                       np.asarray((cold.thrust_to_weight >= mission.min_thrust_to_weight) & cold.bus_holds)),
                 _at_least("cold_day_endurance_short", cold.endurance_min, mission.min_endurance_min, "min"),
             ]
+        if profile is not None:
+            # The share of the profile (reserve included) flown before a stop; the whole of it must be flown.
+            checks.append(Check("profile_reserve_short", profile.completed_share, 1.0, "-", "min",
+                                np.asarray(profile.completed)))
     return checks
 
 
@@ -270,7 +284,9 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
         pack_current = n_r * cruise.bus_current_a
         specific = (1000.0 / STANDARD_GRAVITY_M_S2) * cruise.thrust_n / per_rotor_power
     tw, endurance = _metrics(batch, mission, cruise, low, mass)
-    checks = operating_checks(batch, mission, cruise, low, full, mass, tw, endurance, heat, cold)
+    # The profile is flown on the cruise point's batch: the pack and winding at the mission's temperature, if asked.
+    profile = fly_batch(batch, model, mission) if mission.has_profile else None
+    checks = operating_checks(batch, mission, cruise, low, full, mass, tw, endurance, heat, cold, profile)
     code = np.zeros(shape, dtype=np.uint8)
     violations = np.zeros(len(REASONS), dtype=np.int64)
     # Later reasons first, so that the earliest failing reason is the one left in ``code``.
@@ -281,4 +297,6 @@ def screen(batch: Batch, model: PropModel, mission: MissionSpec, *, all_violatio
             violations[CODE[check.reason] - 1] = np.count_nonzero(bad)
     return Screen(code=code, violations=violations, checks=tuple(checks), mass_kg=mass, cruise=cruise, low=low,
                   full=full, electrical_power_w=power, pack_current_a=pack_current, specific_thrust_g_per_w=specific,
-                  thrust_to_weight=tw, endurance_min=endurance, batch=batch, heat=heat, cold_day=cold)
+                  thrust_to_weight=tw, endurance_min=endurance, batch=batch, heat=heat, cold_day=cold,
+                  profile=profile,
+                  profile_energy_wh=mission_energy_wh(mission, profile) if profile is not None else np.nan)

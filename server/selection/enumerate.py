@@ -222,6 +222,8 @@ def batch_for(library: PartsLibrary, mission: MissionSpec, pack: np.ndarray, k: 
         max_winding_temperature_c=mo.max_winding_temperature_c[motor],  # type: ignore[index]
         q=np.asarray(prop, dtype=np.intp),
         mass_kg=mass,
+        cells_series=cells,
+        full_voltage_per_cell_v=full_v,
     )
 
 

@@ -163,7 +163,8 @@ def explain(library: PartsLibrary, mission: MissionSpec, *, pack: int, packs_in_
                           endurance_min=sc.endurance_min.ravel(),
                           specific_thrust_g_per_w=sc.specific_thrust_g_per_w.ravel(),
                           thrust_to_weight=sc.thrust_to_weight.ravel(), mass_kg=sc.mass_kg.ravel(),
-                          cost=cost_of(library, mission, *index))
+                          cost=cost_of(library, mission, *index),
+                          profile_energy_wh=np.broadcast_to(sc.profile_energy_wh, sc.code.shape).ravel())
         if mission.has_flight_state:
             flight = _flight(library, mission, model, batch, sc, prop)
         screened_ok = bool(sc.code.ravel()[0] == 0)

@@ -37,6 +37,9 @@ if TYPE_CHECKING:
 MissionKind = Literal["hover", "cruise", "forward_flight"]
 MISSION_KINDS: tuple[MissionKind, ...] = ("hover", "cruise", "forward_flight")
 """hover and forward_flight are multirotor flight (static tables, rotors lift); cruise is fixed-wing flight."""
+SegmentKind = Literal["hover", "climb", "descent", "forward", "cruise"]
+MULTIROTOR_SEGMENTS = ("hover", "climb", "descent", "forward")
+FIXED_WING_SEGMENTS = ("cruise",)
 PROP_APPLICATIONS = ("multirotor", "fixed_wing", "any")
 """What a propeller is made for; a multirotor propeller hovers, a fixed-wing one cruises, ``any`` does both."""
 INCH_M = 0.0254
@@ -356,6 +359,42 @@ class PartsLibrary:
 
 
 @dataclass(frozen=True)
+class Segment:
+    """One segment of a flight profile (:mod:`.profile`), in SI.
+
+    ``hover``: still air; ``climb``/``descent``: vertical at ``climb_rate_m_s`` (> 0; the kind gives the sign);
+    ``forward``: multirotor at ``airspeed_m_s``; ``cruise``: fixed-wing at the mission's airspeed, climbing at
+    ``climb_rate_m_s`` when it is set (negative: descending).
+    """
+
+    kind: SegmentKind
+    duration_s: float
+    airspeed_m_s: float = 0.0
+    climb_rate_m_s: float = 0.0
+    label: str = ""
+
+    def __post_init__(self) -> None:
+        if self.kind not in (*MULTIROTOR_SEGMENTS, *FIXED_WING_SEGMENTS):
+            raise ValueError(f"unknown segment kind {self.kind!r}")
+        if not (self.duration_s > 0.0 and np.isfinite(self.duration_s)):
+            raise ValueError("a segment needs a positive, finite duration")
+        if self.kind in ("climb", "descent") and not self.climb_rate_m_s > 0.0:
+            raise ValueError(f"a {self.kind} segment needs climb_rate_m_s > 0")
+        if self.kind == "forward" and not self.airspeed_m_s > 0.0:
+            raise ValueError("a forward segment needs airspeed_m_s > 0")
+
+    def flight_fields(self, mission: MissionSpec) -> dict[str, object]:
+        """The mission fields that make ``mission`` fly like this segment (see :func:`.profile.segment_mission`)."""
+        if self.kind == "cruise":
+            return {"kind": "cruise", "climb_rate_m_s": float(self.climb_rate_m_s)}
+        if self.kind == "forward":
+            return {"kind": "forward_flight", "cruise_airspeed_m_s": float(self.airspeed_m_s),
+                    "climb_rate_m_s": 0.0}
+        rate = {"hover": 0.0, "climb": 1.0, "descent": -1.0}[self.kind] * float(self.climb_rate_m_s)
+        return {"kind": "hover", "cruise_airspeed_m_s": 0.0, "climb_rate_m_s": rate}
+
+
+@dataclass(frozen=True)
 class MissionSpec:
     """One airframe's mission (field names follow ``server/models/missions.py`` in SI).
 
@@ -395,11 +434,16 @@ class MissionSpec:
     cold_day_temperature_c: float | None = None
     """A second, colder air temperature at which thrust-to-weight and endurance are re-checked; None: no check."""
     climb_rate_m_s: float = 0.0
-    """Climb rate of a multirotor (hover and forward_flight kinds; negative: descent) at the cruise point. [m/s]"""
+    """Vertical speed at the cruise point (negative: descent): of a multirotor (hover and forward_flight kinds), or
+    of a fixed wing's climbing cruise (a profile segment's; |ROC| below the airspeed). [m/s]"""
     drag_area_m2: float = 0.0
     """Airframe drag area C_D A (0: no airframe drag) of a multirotor in forward flight or climb. [m^2]"""
     coaxial: bool = False
     """Rotors stacked in coaxial pairs (induced power of the pair, :mod:`server.physics.forward_flight`)."""
+    segments: tuple[Segment, ...] = ()
+    """Flight profile flown in order (:mod:`.profile`); empty: a single-point mission."""
+    reserve_min: float = 0.0
+    """Hover (multirotor) or cruise (fixed-wing) still possible after the last segment. [min]"""
 
     def __post_init__(self) -> None:
         if self.kind not in MISSION_KINDS:
@@ -408,8 +452,8 @@ class MissionSpec:
             raise ValueError("a forward_flight mission needs cruise_airspeed_m_s > 0")
         if not (np.isfinite(self.climb_rate_m_s) and np.isfinite(self.drag_area_m2) and self.drag_area_m2 >= 0):
             raise ValueError("climb_rate_m_s must be finite and drag_area_m2 finite and >= 0")
-        if self.kind == "cruise" and self.climb_rate_m_s != 0:
-            raise ValueError("climb_rate_m_s applies to multirotor kinds (hover, forward_flight) only")
+        if self.kind == "cruise" and not abs(self.climb_rate_m_s) < self.cruise_airspeed_m_s:
+            raise ValueError("a fixed wing's climb_rate_m_s must stay below its airspeed")
         if self.coaxial and int(self.rotor_count) % 2:
             raise ValueError("a coaxial airframe has an even rotor_count (both rotors of every pair)")
         if int(self.rotor_count) < 1 or int(self.max_packs_in_parallel) < 1:
@@ -422,6 +466,18 @@ class MissionSpec:
             raise ValueError("frame and payload mass must be finite")
         if not (np.isfinite(self.burst_s) and self.burst_s >= 0.0):
             raise ValueError("burst_s must be a finite number of seconds, 0 or more")
+        allowed = FIXED_WING_SEGMENTS if self.kind == "cruise" else MULTIROTOR_SEGMENTS
+        for segment in self.segments:
+            if segment.kind not in allowed:
+                raise ValueError(f"a {self.kind} mission cannot fly a {segment.kind} segment "
+                                 f"(allowed: {', '.join(allowed)})")
+        if not (0.0 <= self.reserve_min < float("inf")):
+            raise ValueError("reserve_min must be finite and >= 0")
+
+    @property
+    def has_profile(self) -> bool:
+        """The mission is flown through a profile (its segments, then its reserve) as well as at its cruise point."""
+        return bool(self.segments)
 
     @property
     def air_temperature_c(self) -> float:
@@ -440,9 +496,16 @@ class MissionSpec:
 
     @property
     def thrust_per_weight(self) -> float:
-        """Required thrust over weight at the cruise point: 1 (hover) or 1/(L/D) (cruise); a flight state's thrust
-        (:attr:`has_flight_state`) comes from :meth:`thrust_per_rotor_n`. [-]"""
-        return 1.0 if self.kind == "hover" else 1.0 / float(self.lift_to_drag)
+        """Required thrust over weight at the cruise point: 1 (hover), 1/(L/D) (cruise), or a climbing (descending)
+        fixed wing's ``cos γ / (L/D) + sin γ``; a multirotor flight state's thrust (:attr:`has_flight_state`) comes
+        from :meth:`thrust_per_rotor_n`. [-]"""
+        if self.kind != "cruise":
+            return 1.0
+        if self.climb_rate_m_s != 0.0:  # T = W (cos γ / (L/D) + sin γ), sin γ = ROC/V (Anderson 1999); never < 0
+            thrust = sizing.fixed_wing_climb_thrust_n(1.0, float(self.lift_to_drag), float(self.climb_rate_m_s),
+                                                      float(self.cruise_airspeed_m_s))
+            return max(float(thrust), 0.0)
+        return 1.0 / float(self.lift_to_drag)
 
     def thrust_per_rotor_n(self, mass_kg: npt.ArrayLike, density_kg_m3: float | None = None) -> np.ndarray:
         """Thrust each rotor makes at the cruise point for all-up mass ``mass_kg`` (airframe drag in air of

@@ -9,9 +9,10 @@ import numpy as np
 
 from server.physics import ENGINE_VERSION
 
-Objective = Literal["cruise_power", "endurance", "specific_thrust", "mass", "cost"]
+Objective = Literal["cruise_power", "endurance", "specific_thrust", "mass", "cost", "profile_energy"]
 OBJECTIVES: tuple[str, ...] = get_args(Objective)
-"""The objectives a ranking may optimise (lowest cruise power, longest endurance, best g/W, lowest mass, cost)."""
+"""The objectives a ranking may optimise (lowest cruise power, longest endurance, best g/W, lowest mass, cost,
+least energy over the mission's flight profile)."""
 
 # Metric of each objective and its sense (+1: lower is better, -1: higher is better), in tie-break order.
 _METRIC_ORDER: tuple[tuple[str, str, float], ...] = (
@@ -21,6 +22,7 @@ _METRIC_ORDER: tuple[tuple[str, str, float], ...] = (
     ("thrust_to_weight", "thrust_to_weight", -1.0),
     ("mass", "mass_kg", 1.0),
     ("cost", "cost", 1.0),
+    ("profile_energy", "profile_energy_wh", 1.0),
 )
 
 
@@ -39,6 +41,12 @@ class CandidateSet:
     thrust_to_weight: np.ndarray
     mass_kg: np.ndarray
     cost: np.ndarray
+    profile_energy_wh: np.ndarray = None  # type: ignore[assignment]  # set to NaN in __post_init__
+    """Energy over the mission's flight profile, reserve excluded (NaN: the mission has no profile). [Wh]"""
+
+    def __post_init__(self) -> None:
+        if self.profile_energy_wh is None:
+            object.__setattr__(self, "profile_energy_wh", np.full(self.pack.shape[0], np.nan))
 
     def __len__(self) -> int:
         return int(self.pack.shape[0])
@@ -46,7 +54,7 @@ class CandidateSet:
     @classmethod
     def empty(cls) -> CandidateSet:
         ints = [np.empty(0, dtype=np.intp) for _ in range(5)]
-        return cls(*ints, *(np.empty(0) for _ in range(6)))
+        return cls(*ints, *(np.empty(0) for _ in range(7)))
 
     @classmethod
     def concat(cls, *sets: CandidateSet) -> CandidateSet:
@@ -107,6 +115,9 @@ class CandidateRow:
     margins: dict[str, float]
     pack_voltage_nominal_v: float
     cells_series: int
+    profile: dict[str, Any] | None = None
+    """The flight profile flown (per-segment energy, state of charge at each boundary, completion), when the
+    mission has one (:func:`server.selection.profile.summary`)."""
 
     def as_dict(self) -> dict[str, Any]:
         return asdict(self)

@@ -15,6 +15,7 @@ from server.physics.propeller_segments import PropModel
 from .constraints import screen
 from .enumerate import batch_for
 from .library import MissionSpec, PartsLibrary
+from .profile import summary as profile_summary
 from .result import CandidateRow, CandidateSet
 
 
@@ -101,5 +102,6 @@ def build_rows(library: PartsLibrary, mission: MissionSpec, model: PropModel, cs
                 "pack_current_ratio": n_r * i_full / float(pack_limit[i]),
             },
             pack_voltage_nominal_v=nominal, cells_series=int(cells),
+            profile=profile_summary(mission, sc.profile, i) if sc.profile is not None else None,
         ))
     return rows

@@ -16,6 +16,7 @@ import math
 import time
 from collections.abc import Callable, Iterable
 from dataclasses import fields
+from typing import Any
 
 import numpy as np
 
@@ -115,6 +116,13 @@ def dump_partial(partial: Partial) -> bytes:
     return buffer.getvalue()
 
 
+def _candidates(stored: Any, prefix: str) -> CandidateSet:
+    """A stored candidate set; a metric added after the shard was written (none stored) reads as NaN."""
+    n = len(stored[f"{prefix}.pack"])
+    return CandidateSet(**{name: stored[f"{prefix}.{name}"] if f"{prefix}.{name}" in stored.files
+                           else np.full(n, np.nan) for name in _CANDIDATE_FIELDS})
+
+
 def load_partial(data: bytes, prepared: Prepared) -> Partial:
     """The partial :func:`dump_partial` wrote, for the ranking ``prepared`` describes."""
     with np.load(io.BytesIO(data), allow_pickle=False) as stored:
@@ -122,8 +130,8 @@ def load_partial(data: bytes, prepared: Prepared) -> Partial:
         partial.counts = stored["counts"].astype(np.int64)
         partial.violations = stored["violations"].astype(np.int64)
         partial.evaluated = int(stored["evaluated"][0])
-        partial.pool = CandidateSet(**{name: stored[f"pool.{name}"] for name in _CANDIDATE_FIELDS})
-        partial.front.members = CandidateSet(**{name: stored[f"front.{name}"] for name in _CANDIDATE_FIELDS})
+        partial.pool = _candidates(stored, "pool")
+        partial.front.members = _candidates(stored, "front")
         partial.examples = Examples({int(name.split(".", 1)[1]): stored[name].astype(np.int64)
                                      for name in stored.files if name.startswith("examples.")},
                                     stored["threshold"].astype(np.int64))

@@ -86,6 +86,7 @@ def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, 
             thrust_to_weight=result.thrust_to_weight.ravel()[feasible],
             mass_kg=result.mass_kg.ravel()[feasible],
             cost=cost_of(library, mission, pack, k, esc, motor, prop),
+            profile_energy_wh=np.broadcast_to(result.profile_energy_wh, result.code.shape).ravel()[feasible],
         )
         partial.add_candidates(cs)
         partial.front.add(cs)

@@ -142,7 +142,7 @@ def _metrics(snap: dict[str, Any], systems: list[tuple[dict[str, dict[str, Any]]
     if refined.any():
         which = index[refined]
         zeros = np.zeros(which.size)
-        cs = CandidateSet(which, k_all[which], which, which, which, *(zeros for _ in range(6)))
+        cs = CandidateSet(which, k_all[which], which, which, which, *(zeros for _ in range(7)))
         endurance[which], _ = refine(library, mission, model, cs, soc_step=DRAW_SOC_STEP)
     out = []
     for i, d in enumerate(drawn):

@@ -10,18 +10,20 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from server.physics import atmosphere, drive, endurance, forward_flight, sizing
+from server.physics import atmosphere, drive, endurance, forward_flight, profile, sizing
 from server.physics._types import STANDARD_GRAVITY_M_S2, Status
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
 from server.physics.propeller import PropellerTable
 from server.selection import MissionSpec, PartsLibrary
+from server.selection.library import Segment
 
 G0 = STANDARD_GRAVITY_M_S2
 ESC_DEFAULTS = EscParams()
@@ -271,6 +273,12 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             ("cold_day_thrust_short", not cold_ok),
             ("cold_day_endurance_short", not cold_endurance_ok),
         ]
+        energy = math.nan
+        if mission.segments:
+            flown = _fly_profile(mission, mass, voc, common, capacity, cells, float(pr.diameter_m[q]))
+            checks.append(("profile_reserve_short", not bool(flown.completed)))
+            if bool(flown.completed):
+                energy = float(np.sum(flown.energy_wh[: len(mission.segments)]))
         reason = next((name for name, bad in checks if bad), None)
         if reason is not None:
             counts[reason] = counts.get(reason, 0) + 1
@@ -284,11 +292,53 @@ def evaluate(library: PartsLibrary, mission: MissionSpec) -> tuple[dict[str, int
             "bus_current_a": pack_current, "drive_efficiency": float(op.drive_efficiency[0]),
             "thrust_n": float(op.thrust_n[0]), "full_motor_current_a": i_full,
             "full_thrust_n": float(low.thrust_n[0]), "extra_loss_w": float(op.extra_loss_w[0]),
-            "cruise_thrust_n": thrust, "diameter_m": float(pr.diameter_m[q]),
+            "cruise_thrust_n": thrust, "diameter_m": float(pr.diameter_m[q]), "profile_energy_wh": energy,
             "cruise_winding_resistance_ohm": float(common["motor"].resistance_ohm)}, tie=tuple(  # type: ignore[arg-type]
                 0.0 if lib.assumed is None else float(lib.assumed[i])
                 for lib, i in ((pk, p), (es, e), (mo, m), (pr, q)))))
     return counts, feasible
+
+
+def _segment_point(mission: MissionSpec, segment: Segment, mass: float,
+                   diameter_m: float) -> tuple[float, forward_flight.FlightState | None]:
+    """Thrust per rotor and multirotor flight state of a profile segment, by hand: hover W/N; climb, descent and
+    forward flight from the flight-state physics directly (as the cruise point of such a mission); fixed-wing
+    climbing cruise W (cos γ / (L/D) + sin γ)/N, sin γ = ROC/V (Anderson 1999), never below 0 (a power-off glide)."""
+    weight = mass * G0
+    if segment.kind == "cruise":
+        sin_g = segment.climb_rate_m_s / mission.cruise_airspeed_m_s
+        return max(weight * (math.sqrt(1.0 - sin_g**2) / mission.lift_to_drag + sin_g), 0.0) / mission.rotor_count, None
+    rate = {"hover": 0.0, "climb": 1.0, "descent": -1.0, "forward": 0.0}[segment.kind] * segment.climb_rate_m_s
+    speed = segment.airspeed_m_s if segment.kind == "forward" else 0.0
+    if speed == 0.0 and rate == 0.0 and not mission.coaxial:
+        return weight / mission.rotor_count, None
+    state = forward_flight.flight_state(np.asarray(weight), float(mission.rotor_count),
+                                        math.pi * diameter_m**2 / 4.0, mission.density_kg_m3, speed, rate,
+                                        mission.drag_area_m2, coaxial=mission.coaxial)
+    return float(state.thrust_n), state
+
+
+def _fly_profile(mission: MissionSpec, mass: float, voc: Callable[[float], float], common: dict[str, object],
+                 capacity_ah: float, cells: float, diameter_m: float) -> profile.ProfileResult:
+    """The mission's segments and reserve flown with the physics engine's bracketed solver at every point."""
+    segments = list(mission.segments)
+    if mission.reserve_min > 0.0:
+        segments.append(Segment("cruise" if mission.kind == "cruise" else "hover", 60.0 * mission.reserve_min))
+    points = [_segment_point(mission, s, mass, diameter_m) for s in segments]
+
+    def state_at(i: int, soc: np.ndarray) -> profile.LegState:
+        thrust, flight = points[i]
+        v_oc = voc(float(soc))
+        if thrust == 0.0:
+            return profile.LegState(np.zeros(()), np.full((), v_oc), np.ones((), dtype=bool))
+        op = drive.for_thrust(thrust, open_circuit_voltage_v=v_oc, flight=flight, **common)  # type: ignore[arg-type]
+        ok = int(op.status[0]) in (Status.OK, Status.OVER_CURRENT, Status.DATA_ERROR)
+        return profile.LegState(np.asarray(float(op.pack_current_a[0])), np.asarray(float(op.bus_voltage_v[0])),
+                                np.asarray(ok))
+
+    pack = PackParams(cells, capacity_ah, 0.0, usable_fraction=mission.usable_fraction,
+                      cutoff_voltage_per_cell_v=mission.cutoff_v_per_cell)
+    return profile.fly([s.duration_s for s in segments], state_at, pack=pack, shape=())
 
 
 def refine(library: PartsLibrary, mission: MissionSpec, records: list[Record]) -> None:
@@ -321,7 +371,7 @@ def refine(library: PartsLibrary, mission: MissionSpec, records: list[Record]) -
 
 _SENSE = {"cruise_power": ("electrical_power_w", 1), "endurance": ("endurance_min", -1),
           "specific_thrust": ("specific_thrust_g_per_w", -1), "thrust_to_weight": ("thrust_to_weight", -1),
-          "mass": ("mass_kg", 1), "cost": ("cost", 1)}
+          "mass": ("mass_kg", 1), "cost": ("cost", 1), "profile_energy": ("profile_energy_wh", 1)}
 
 
 def sort_key(record: Record, objective: str, endurance_field: str = "endurance_min") -> tuple[object, ...]:
@@ -332,7 +382,7 @@ def sort_key(record: Record, objective: str, endurance_field: str = "endurance_m
     for name in order:
         metric, sense = _SENSE[name]
         value = record.metrics[endurance_field if metric == "endurance_min" else metric]
-        values.append(sense * value)
+        values.append(math.inf if math.isnan(value) else sense * value)
     p, k, e, m, q = record.key
     t = record.tie
     return (*values, t[0], record.ids[0], k, t[1], record.ids[1], t[2], record.ids[2], t[3], record.ids[3])

@@ -20,6 +20,7 @@ from server.selection import (
     PackLibrary,
     PartsLibrary,
     PropellerLibrary,
+    Segment,
     rank,
 )
 
@@ -87,6 +88,9 @@ CASES = {
     # the screening endurance falls from 16.25 to 16.18 min on a -20 °C day: below a 16.2 min floor
     "cold_day_endurance_short": ({}, {"cold_day_temperature_c": -20.0, "min_endurance_min": 16.2}),
     "endurance_short": ({}, {"min_endurance_min": 120.0}),
+    # a profile of two 10-minute hovers and a 5-minute reserve: longer than the pack can hover
+    "profile_reserve_short": ({}, {"segments": (Segment("hover", 600.0), Segment("hover", 600.0)),
+                                   "reserve_min": 5.0}),
 }
 
 

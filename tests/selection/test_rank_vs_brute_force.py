@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from server.selection import REASONS, rank
-from server.selection.library import MissionSpec
+from server.selection.library import MissionSpec, Segment
 
 from . import brute, parts
 
@@ -34,6 +34,17 @@ MISSIONS = {
     "forward_hot_cold": parts.hover_mission(kind="forward_flight", cruise_airspeed_m_s=12.0, drag_area_m2=0.03,
                                             temperature_effects=True, temperature_offset_c=30.0, burst_s=30.0,
                                             cold_day_temperature_c=-15.0, min_thrust_to_weight=1.6),
+    # A two-leg hover profile with a 3-minute reserve that about half of the feasible hover systems complete.
+    "hover_profile": parts.hover_mission(segments=(Segment("hover", 600.0), Segment("hover", 300.0)), reserve_min=3.0),
+    # Climb, level cruise and a power-off glide, then a 5-minute reserve.
+    "cruise_profile": parts.cruise_mission(duty_max=0.99, min_thrust_to_weight=0.25, segments=(
+        Segment("cruise", 300.0, climb_rate_m_s=3.0), Segment("cruise", 1500.0),
+        Segment("cruise", 200.0, climb_rate_m_s=-3.0)), reserve_min=5.0),
+    # A mapping flight: take-off, climb, transit and survey in forward flight, descent, landing, 2-minute reserve.
+    "mapping_profile": parts.hover_mission(drag_area_m2=0.03, segments=(
+        Segment("hover", 30.0), Segment("climb", 24.0, climb_rate_m_s=2.5),
+        Segment("forward", 300.0, airspeed_m_s=12.0), Segment("forward", 240.0, airspeed_m_s=8.0),
+        Segment("descent", 40.0, climb_rate_m_s=1.5), Segment("hover", 30.0)), reserve_min=2.0),
 }
 
 
@@ -56,9 +67,11 @@ def _brute_key(record: brute.Record) -> tuple[object, ...]:
     return (*record.ids, record.key[1])
 
 
-@pytest.mark.parametrize("objective", ["cruise_power", "endurance", "specific_thrust", "mass", "cost"])
+@pytest.mark.parametrize("objective", ["cruise_power", "endurance", "specific_thrust", "mass", "cost",
+                                       "profile_energy"])
 @pytest.mark.parametrize("kind", ["hover", "cruise", "hexa_motor_out", "hot_burst", "cold_day", "forward_flight",
-                                  "climb", "coaxial_descent", "forward_hot_cold"])
+                                  "climb", "coaxial_descent", "forward_hot_cold", "hover_profile", "cruise_profile",
+                                  "mapping_profile"])
 def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objective: str) -> None:
     mission: MissionSpec = MISSIONS[kind]
     counts, feasible = reference[kind]
@@ -86,6 +99,11 @@ def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objecti
         assert row.screening_endurance_min == pytest.approx(m["endurance_min"], rel=REL)
         assert row.endurance_min == pytest.approx(m["refined_endurance_min"], rel=REL)
         assert row.endurance_refined
+        if mission.segments:
+            assert row.profile is not None and row.profile["completed"]
+            assert row.profile["total_energy_wh"] == pytest.approx(m["profile_energy_wh"], rel=REL)
+        else:
+            assert row.profile is None
     rejected = {k: v for k, v in out.rejected.items() if v}
     assert rejected == counts
     if mission.min_thrust_to_weight_motor_out is not None:
@@ -94,6 +112,8 @@ def test_order_and_metrics_equal_brute_force(reference: dict, kind: str, objecti
         assert counts.get("winding_over_temperature", 0) > 0
     if mission.cold_day_temperature_c is not None:
         assert counts.get("cold_day_thrust_short", 0) > 0
+    if mission.segments:
+        assert counts.get("profile_reserve_short", 0) > 0  # the profile bites on this library
     assert out.feasible == len(feasible)
     assert out.feasible + sum(out.rejected.values()) == out.combinations
     assert set(out.rejected) == set(REASONS)
