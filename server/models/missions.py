@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from sqlalchemy import Boolean, Float, ForeignKey, Integer, String, Text, false
+from typing import Any
+
+from sqlalchemy import JSON, Boolean, Float, ForeignKey, Integer, String, Text, false
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from server.db import Base
@@ -58,6 +60,9 @@ class Mission(TeamOwned, Timestamped, Versioned, Base):
     temperature_effects: Mapped[bool] = mapped_column(Boolean, default=False, server_default=false())
     burst_s: Mapped[float] = mapped_column(Float, default=0.0, server_default="0")
     cold_day_temperature_c: Mapped[float | None] = mapped_column(Float, nullable=True)
+    segments: Mapped[list[dict[str, Any]]] = mapped_column(JSON, default=list, server_default="[]")
+    """Flight profile (:class:`server.schemas.missions.SegmentIn` dicts, flown in order); empty: single point."""
+    reserve_min: Mapped[float] = mapped_column(Float, default=0.0, server_default="0")
     notes: Mapped[str] = mapped_column(Text, default="")
 
     airframe: Mapped[Airframe] = relationship(back_populates="missions")

@@ -12,6 +12,9 @@ from pydantic import BaseModel
 from server.schemas._fields import field_meta
 
 TABLE_COLUMNS = {"static_table": ("rpm", "ct", "cp"), "forward_table": ("j", "ct", "cp")}
+SEGMENT_COLUMNS = ("kind", "label", "duration_s", "distance_m", "height_m", "airspeed_m_s", "climb_rate_m_s")
+"""The inputs of one flight-profile row (``segments-<i>-<column>``), as :class:`server.schemas.missions.SegmentIn`."""
+SEGMENT_SPARE_ROWS = 3
 
 
 @dataclass(frozen=True)
@@ -19,7 +22,7 @@ class FormField:
     name: str
     label: str
     unit: str
-    widget: Literal["number", "text", "select", "textarea", "table"]
+    widget: Literal["number", "text", "select", "textarea", "table", "segments"]
     required: bool
     minimum: float | None = None
     maximum: float | None = None
@@ -64,8 +67,10 @@ LABELS = {
         "Thermal time constant", "max_winding_temperature_c": "Highest winding temperature",
     "temperature_effects": "Temperature effects (heat and cold)", "burst_s": "Full-throttle burst",
     "cold_day_temperature_c": "Cold-day check at",
+    "segments": "Flight profile", "reserve_min": "Reserve after the profile",
 }
 CHOICE_LABELS = {"hover": "hover", "cruise": "cruise (wing-borne)", "forward_flight": "forward flight (multirotor)",
+                 "climb": "climb", "descent": "descent", "forward": "forward flight (multirotor)",
                  "false": "no", "true": "yes",
                  "lipo": "LiPo", "lihv": "LiHV", "liion": "Li-ion", "multirotor": "multirotor (hover)",
                  "fixed_wing": "fixed-wing (cruise)", "any": "any (hover and cruise)"}
@@ -126,6 +131,8 @@ def form_fields(schema: type[BaseModel]) -> list[FormField]:
             literal_args = ("false", "true")
         if name in TABLE_COLUMNS:
             widget: Any = "table"
+        elif name == "segments":
+            widget = "segments"
         elif literal_args:
             widget = "select"
         elif name == "notes":
@@ -181,7 +188,11 @@ def form_to_data(fields: list[FormField], values: dict[str, str]) -> tuple[dict[
     data: dict[str, Any] = {}
     errors: dict[str, str] = {}
     for field in fields:
+        if field.widget == "segments" and any(k.startswith("segments-") for k in values):
+            data[field.name] = segments_from_form(values)
         if field.name not in values:  # not on the form: the schema default applies
+            continue
+        if field.widget == "segments":
             continue
         raw = values[field.name]
         if field.widget == "table":
@@ -197,11 +208,37 @@ def form_to_data(fields: list[FormField], values: dict[str, str]) -> tuple[dict[
     return data, errors
 
 
+def segments_from_form(values: dict[str, str]) -> list[dict[str, str]]:
+    """The profile rows of a submitted form, in row order; a row without a kind is an unused spare row."""
+    rows = sorted({int(k.split("-")[1]) for k in values if k.startswith("segments-") and k.count("-") == 2
+                   and k.split("-")[1].isdigit()})
+    out = []
+    for i in rows:
+        row = {c: values.get(f"segments-{i}-{c}", "").strip() for c in SEGMENT_COLUMNS}
+        if not row["kind"]:
+            continue
+        out.append({c: v for c, v in row.items() if v != "" or c == "label"})
+    return out
+
+
+def segment_rows(values: dict[str, str]) -> list[int]:
+    """Row indices the profile editor shows: the filled rows and a few spare ones."""
+    used = [int(k.split("-")[1]) for k in values if k.startswith("segments-") and k.endswith("-kind")
+            and values[k] and k.split("-")[1].isdigit()]
+    return list(range((max(used) + 1 if used else 0) + SEGMENT_SPARE_ROWS))
+
+
 def values_of(obj: Any, fields: list[FormField]) -> dict[str, str]:
     """Form values (strings) of a stored row."""
     out = {}
     for field in fields:
         value = getattr(obj, field.name, None)
+        if field.widget == "segments":
+            for i, row in enumerate(value or []):
+                for c in SEGMENT_COLUMNS:
+                    v = row.get(c)
+                    out[f"segments-{i}-{c}"] = "" if v is None else (f"{v:g}" if isinstance(v, float) else str(v))
+            continue
         if field.widget == "table":
             out[field.name] = table_to_text(value, TABLE_COLUMNS[field.name])
         elif value is None:
@@ -218,4 +255,5 @@ def values_of(obj: Any, fields: list[FormField]) -> dict[str, str]:
 def unplaced(errors: dict[str, str], fields: list[FormField], *extra: str) -> list[str]:
     """Errors about no field of the form (a rule across fields, say): shown above the form instead of beside one."""
     names = {f.name for f in fields} | set(extra)
-    return [message if key == "body" else f"{key}: {message}" for key, message in errors.items() if key not in names]
+    return [message if key == "body" else f"{key}: {message}" for key, message in errors.items()
+            if key not in names and not key.startswith("segments.")]

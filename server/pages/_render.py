@@ -13,7 +13,7 @@ from markupsafe import Markup, escape
 from pydantic import ValidationError
 
 from server.errors import DomainError
-from server.pages._forms import parameter_label
+from server.pages._forms import parameter_label, segment_rows
 from server.security import new_csrf_token
 from server.services._sorting import naturally
 from server.services._validation import field_errors
@@ -64,6 +64,7 @@ def make_templates(directory: Path) -> Jinja2Templates:
     templates.env.filters["natural_sort"] = natural_sort
     templates.env.filters["param_label"] = parameter_label
     templates.env.globals["quantity"] = quantity
+    templates.env.globals["segment_rows"] = segment_rows
     templates.env.globals["csrf_token"] = csrf_token
     # Macros as a global (not a per-template import) so a single block can be rendered on its own.
     templates.env.globals["forms"] = templates.env.get_template("macros/forms.html").module

@@ -102,6 +102,34 @@ class RowAssumptions(Result):
     propeller: list[str] = Field(default_factory=list)
 
 
+class ProfileSegmentRead(Result):
+    """One flown segment of a mission's flight profile (the reserve is the last one when the mission sets it)."""
+
+    label: str
+    kind: str = Field(description="hover | climb | descent | forward | cruise")
+    duration_s: float = Field(description="Planned duration [s]")
+    airspeed_m_s: float = Field(default=0.0, description="Airspeed (forward segments) [m/s]")
+    climb_rate_m_s: float = Field(default=0.0, description="Vertical speed [m/s]")
+    reserve: bool = Field(default=False, description="The reserve flown after the mission's own segments")
+    start_state_of_charge: float | None = Field(default=None, description="State of charge at its start [-]")
+    end_state_of_charge: float | None = Field(default=None, description="State of charge at its end [-]")
+    energy_wh: float | None = Field(default=None, description="Energy drawn from the pack in it [Wh]")
+    flown: bool = Field(default=True, description="Flown to its end")
+
+
+class ProfileRead(Result):
+    """The mission's flight profile flown by this system: state of charge carried over, sag and cut-off."""
+
+    completed: bool = Field(description="Every segment and the reserve flown")
+    stop: str = Field(description="completed, or why the flight stopped")
+    stop_segment: int | None = Field(default=None, description="Index of the segment it stopped in")
+    completed_share: float = Field(description="Share of the profile's time flown (1 when completed) [-]")
+    total_energy_wh: float = Field(description="Energy over the mission's segments, reserve excluded [Wh]")
+    total_energy_wh_band: list[float] | None = Field(default=None, description="80 % band of that energy [Wh]")
+    reserve_min: float = Field(default=0.0, description="Reserve flown after the segments [min]")
+    segments: list[ProfileSegmentRead]
+
+
 class RankedCandidate(Result):
     """One ranked power system (craft totals unless a field says per rotor)."""
 
@@ -133,6 +161,7 @@ class RankedCandidate(Result):
     assumed_share: float | None = Field(
         default=None, description="Width of the cruise-power band with only priors varied ÷ its full width [-]")
     assumed: RowAssumptions | None = Field(default=None, description="Parameters resting on priors, per part")
+    profile: ProfileRead | None = Field(default=None, description="The flight profile flown (missions with segments)")
 
 
 class EvaluatedCruise(Result):

@@ -10,6 +10,42 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from server.schemas._fields import partial_model, ranged, text
 
 MissionKind = Literal["hover", "cruise", "forward_flight"]
+SegmentKind = Literal["hover", "climb", "descent", "forward", "cruise"]
+MAX_SEGMENTS = 40
+
+
+class SegmentIn(BaseModel):
+    """One segment of a flight profile, flown in the order given.
+
+    How long it lasts: ``duration_s``, or ``distance_m`` (forward, cruise: at the segment's or the mission's
+    airspeed), or ``height_m`` (climb, descent: at the climb rate). Exactly one of them.
+    """
+
+    model_config = ConfigDict(extra="forbid")
+
+    kind: SegmentKind
+    label: text(60) = ""  # type: ignore[valid-type]
+    duration_s: ranged(float, 1, 86_400, "s", description="How long the segment lasts") | None = None  # type: ignore[valid-type]
+    distance_m: ranged(float, 1, 1_000_000, "m", description="Ground distance (forward, cruise)") | None = None  # type: ignore[valid-type]
+    height_m: ranged(float, 0.5, 10_000, "m", description="Height gained or lost (climb, descent)") | None = None  # type: ignore[valid-type]
+    airspeed_m_s: ranged(float, 0.5, 60, "m/s", description="Airspeed (forward)") | None = None  # type: ignore[valid-type]
+    climb_rate_m_s: ranged(  # type: ignore[valid-type]
+        float, -30, 30, "m/s", description="Vertical speed (climb, descent: > 0; cruise: + up, − down)") | None = None
+
+    @model_validator(mode="after")
+    def _consistent(self) -> SegmentIn:
+        given = [n for n in ("duration_s", "distance_m", "height_m") if getattr(self, n) is not None]
+        if len(given) != 1:
+            raise ValueError("duration_s: give exactly one of duration_s, distance_m or height_m")
+        if self.kind == "forward" and self.airspeed_m_s is None:
+            raise ValueError("airspeed_m_s: a forward segment needs its airspeed")
+        if self.kind in ("climb", "descent") and not (self.climb_rate_m_s or 0.0) > 0.0:
+            raise ValueError(f"climb_rate_m_s: a {self.kind} segment needs a vertical speed above 0")
+        if self.distance_m is not None and self.kind not in ("forward", "cruise"):
+            raise ValueError("distance_m: only forward and cruise segments cover a distance")
+        if self.height_m is not None and self.kind not in ("climb", "descent"):
+            raise ValueError("height_m: only climb and descent segments have a height")
+        return self
 
 
 class AirframeCreate(BaseModel):
@@ -88,6 +124,10 @@ class MissionCreate(BaseModel):
         float, -60, 50, "°C", description="Re-check thrust-to-weight and endurance at this colder air temperature "
                                           "(pack resistance and air density of that day); blank: no cold-day check"
     ) | None = None
+    segments: list[SegmentIn] = Field(default_factory=list, max_length=MAX_SEGMENTS,
+                                      description="Flight profile flown in order (empty: the single cruise point)")
+    reserve_min: ranged(  # type: ignore[valid-type]
+        float, 0, 120, "min", description="Hover (multirotor) or cruise (fixed-wing) left after the profile") = 0.0
     notes: text(4000) = ""  # type: ignore[valid-type]
 
     @model_validator(mode="after")
@@ -105,6 +145,15 @@ class MissionCreate(BaseModel):
         if self.burst_s > 0 and not self.temperature_effects:
             raise ValueError("burst_s: a full-throttle burst is checked by the winding temperature model: turn on "
                              "temperature_effects, or leave the burst at 0")
+        allowed = ("cruise",) if self.kind == "cruise" else ("hover", "climb", "descent", "forward")
+        for i, seg in enumerate(self.segments):
+            if seg.kind not in allowed:
+                raise ValueError(f"segments.{i}.kind: a {self.kind} mission flies {', '.join(allowed)} segments")
+            if (seg.kind == "cruise" and seg.climb_rate_m_s is not None and self.cruise_airspeed_m_s is not None
+                    and abs(seg.climb_rate_m_s) >= self.cruise_airspeed_m_s):
+                raise ValueError(f"segments.{i}.climb_rate_m_s: must be below the cruise airspeed")
+        if self.reserve_min > 0 and not self.segments:
+            raise ValueError("reserve_min: a reserve belongs to a flight profile (add segments)")
         return self
 
 

@@ -10,6 +10,7 @@ from server.schemas._fields import ranged
 from server.schemas.evaluation import (
     FlightStateRead,
     Margins,
+    ProfileRead,
     RankedCandidate,
     RankedCruise,
     RankedFullThrottle,
@@ -129,6 +130,7 @@ class Explanation(Result):
     all_up_mass_g: float | None = None
     cost: float | None = None
     margins: Margins | None = None
+    profile: ProfileRead | None = Field(default=None, description="The flight profile flown (missions with segments)")
     sources: dict[str, dict[str, str]] = Field(default_factory=dict,
                                                description="Per part kind, parameters not from the part itself")
     notes: list[str] = Field(default_factory=list)

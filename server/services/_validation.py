@@ -76,6 +76,9 @@ def plain_error(err: Mapping[str, Any], *, skip_loc: int = 0) -> FieldError:
     loc = [str(p) for p in tuple(err.get("loc", ()))[skip_loc:] if p not in LOCATIONS]
     field = ".".join(loc)
     message = _message(err, field)
+    nested = _FIELD_PREFIX.match(message) if field and err.get("type") == "value_error" else None
+    if nested and "." not in nested.group(1):  # a nested model's rule ("segments.0" + "duration_s: ...")
+        return FieldError(f"{field}.{nested.group(1)}", nested.group(2))
     if not field:  # a model-level rule: "field: message", or a message whose first word is the field
         match = _FIELD_PREFIX.match(message)
         if match:

@@ -67,9 +67,7 @@ def explain(session: Session, *, team_id: int, mission_id: int | None, battery_i
     row = verdict.row.as_dict() if verdict.row is not None else None
     if row is not None and verdict.row is not None and ranking_bands.has_uncertainty(snap):
         (b,) = ranking_bands.rows_bands(snap, [verdict.row])
-        row["cruise"].update(b.pop("cruise"))
-        row["full_throttle"].update(b.pop("full_throttle"))
-        row |= b
+        ranking_bands.merge(row, b)
     return {
         "mission_id": mission_id, "ranking_id": ranking_id, **ids, "packs_in_parallel": packs_in_parallel,
         "feasible": verdict.feasible, "first_failed": verdict.first_failed,
@@ -78,6 +76,7 @@ def explain(session: Session, *, team_id: int, mission_id: int | None, battery_i
         "endurance_min": row["endurance_min"] if row else None,
         "all_up_mass_g": row["all_up_mass_g"] if row else None, "cost": row["cost"] if row else None,
         "margins": row["margins"] if row else None,
+        "profile": row.get("profile") if row else None,
         "endurance_min_band": row.get("endurance_min_band") if row else None,
         "feasible_share": row.get("feasible_share") if row else None,
         "assumed_share": row.get("assumed_share") if row else None,

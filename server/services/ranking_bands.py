@@ -48,6 +48,7 @@ BAND_METRICS = {
     "specific_thrust": ("cruise", "specific_thrust_g_per_w"),
     "thrust_to_weight": ("full_throttle", "thrust_to_weight"),
     "endurance": (None, "endurance_min"),
+    "profile_energy": ("profile", "total_energy_wh"),
 }
 """Objective -> (section of the row, metric) whose band decides ``indistinguishable_from_best``."""
 KINDS = ("batteries", "escs", "motors", "propellers")
@@ -152,6 +153,8 @@ def _metrics(snap: dict[str, Any], systems: list[tuple[dict[str, dict[str, Any]]
                     "specific_thrust_g_per_w": np.asarray(sc.specific_thrust_g_per_w)[rows] / factor,
                     "thrust_to_weight": np.asarray(sc.thrust_to_weight, dtype=np.float64)[rows],
                     "endurance_min": endurance[rows] / factor,
+                    "profile_energy_wh": np.broadcast_to(sc.profile_energy_wh, np.shape(sc.code)).ravel()[rows]
+                    * factor,
                     "feasible": np.asarray(sc.code)[rows] == 0})
     return out
 
@@ -177,8 +180,8 @@ def rows_bands(snap: dict[str, Any], rows: list[CandidateRow], samples: int = SA
                                                                                                      strict=True)]
 
     own = metrics[:len(rows)]
-    power, specific, tw, minutes = (bands_of(name, own) for name in (
-        "electrical_power_w", "specific_thrust_g_per_w", "thrust_to_weight", "endurance_min"))
+    power, specific, tw, minutes, energy = (bands_of(name, own) for name in (
+        "electrical_power_w", "specific_thrust_g_per_w", "thrust_to_weight", "endurance_min", "profile_energy_wh"))
     assumed_power = dict(zip(with_priors, bands_of("electrical_power_w", [assumed_metrics[i] for i in with_priors]),
                              strict=True)) if with_priors else {}
     out = []
@@ -195,6 +198,7 @@ def rows_bands(snap: dict[str, Any], rows: list[CandidateRow], samples: int = SA
             "cruise": {"electrical_power_w_band": full, "specific_thrust_g_per_w_band": specific[i]},
             "full_throttle": {"thrust_to_weight_band": tw[i]},
             "endurance_min_band": minutes[i],
+            "profile": {"total_energy_wh_band": energy[i]},
             "feasible_share": float(np.mean(m["feasible"])),
             "assumed_share": share,
             "assumed": {"battery": system.battery.assumed, "esc": system.esc.assumed, "motor": system.motor.assumed,
@@ -264,11 +268,19 @@ def with_bands(snap: dict[str, Any], objective: str, rows: list[CandidateRow],
     if not has_uncertainty(snap):
         return out
     for b, metrics in zip(rows_bands(snap, rows[:limit]), out, strict=False):
-        metrics["cruise"].update(b.pop("cruise"))
-        metrics["full_throttle"].update(b.pop("full_throttle"))
-        metrics["bands"] = {"level": b.pop("level")}
-        metrics.update(b)
+        merge(metrics, b)
+        metrics["bands"] = {"level": metrics.pop("level")}
     return out
+
+
+def merge(row: dict[str, Any], b: dict[str, Any]) -> None:
+    """Merge one :func:`rows_bands` entry into a row's ``as_dict()`` (sections into sections)."""
+    b = dict(b)
+    for section in ("cruise", "full_throttle", "profile"):
+        values = b.pop(section)
+        if row.get(section) is not None:
+            row[section].update(values)
+    row.update(b)
 
 
 def mark_indistinguishable(rows: list[dict[str, Any]], objective: str) -> None:

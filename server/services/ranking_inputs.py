@@ -5,6 +5,7 @@ A ranking always runs from its stored snapshot, so re-running a stored ranking r
 
 from __future__ import annotations
 
+import math
 from typing import Any, Literal, overload
 
 import numpy as np
@@ -13,7 +14,15 @@ from sqlalchemy.orm import Session
 
 from server.models import PART_MODELS, Mission
 from server.physics.propeller import PropellerAxis, PropellerTable
-from server.selection import EscLibrary, MissionSpec, MotorLibrary, PackLibrary, PartsLibrary, PropellerLibrary
+from server.selection import (
+    EscLibrary,
+    MissionSpec,
+    MotorLibrary,
+    PackLibrary,
+    PartsLibrary,
+    PropellerLibrary,
+    Segment,
+)
 from server.services import power_system as ps
 
 INCH_M = 0.0254
@@ -92,6 +101,8 @@ MISSION_FIELDS = [
     "temperature_effects",
     "burst_s",
     "cold_day_temperature_c",
+    "segments",
+    "reserve_min",
 ]
 AIRFRAME_FIELDS = ["name", "rotor_count", "frame_mass_g", "max_prop_diameter_in", "max_packs_in_parallel",
                    "drag_area_m2", "coaxial"]
@@ -273,7 +284,30 @@ def mission_spec(ms: dict[str, Any], af: dict[str, Any]) -> MissionSpec:
         temperature_effects=bool(ms.get("temperature_effects") or False),
         burst_s=float(ms.get("burst_s") or 0.0),
         cold_day_temperature_c=ms.get("cold_day_temperature_c"),
+        segments=segments_of(ms.get("segments") or [], ms.get("cruise_airspeed_m_s")),
+        reserve_min=float(ms.get("reserve_min") or 0.0),
     )
+
+
+def segments_of(rows: list[dict[str, Any]], cruise_airspeed_m_s: float | None) -> tuple[Segment, ...]:
+    """The engine's segments (durations in s) from the stored ones (a duration, a distance or a height)."""
+    out = []
+    for row in rows:
+        kind = row["kind"]
+        airspeed = float(row.get("airspeed_m_s") or 0.0)
+        rate = float(row.get("climb_rate_m_s") or 0.0)
+        if row.get("duration_s") is not None:
+            duration = float(row["duration_s"])
+        elif row.get("distance_m") is not None:  # forward at its own airspeed, cruise at the mission's (ground speed)
+            speed = airspeed if kind == "forward" else math.sqrt(max(float(cruise_airspeed_m_s or 0.0)**2 - rate**2,
+                                                                      0.0))
+            duration = float(row["distance_m"]) / speed
+        else:
+            duration = float(row["height_m"]) / abs(rate)
+        out.append(Segment(kind=kind, duration_s=duration, airspeed_m_s=airspeed if kind == "forward" else 0.0,
+                           climb_rate_m_s=abs(rate) if kind in ("climb", "descent") else rate,
+                           label=str(row.get("label") or "")))
+    return tuple(out)
 
 
 def mission_spec_of(mission: Mission) -> MissionSpec:

@@ -228,7 +228,36 @@
                   y: { title: { display: true, text: data.axis || "fleet objective" } } } } });
   }
 
-  function all() { predictCharts(); compareCharts(); paretoChart(); benchCharts(); tradeoffChart(); }
+  // Flight profile (explain page): each segment's mean electrical power as a step over time, and the state of
+  // charge at the segment boundaries, from the row's own profile numbers.
+  function profileChart() {
+    const node = document.getElementById("profile-chart-data");
+    if (!node) return;
+    const data = JSON.parse(node.textContent || "null");
+    if (!data || !data.segments) return;
+    const power = [], soc = [];
+    let t = 0;
+    data.segments.forEach((s) => {
+      const t1 = t + s.duration_s / 60;
+      if (s.flown && s.energy_wh !== null) {
+        const p = s.energy_wh * 3600 / s.duration_s;
+        power.push({ x: t, y: p }, { x: t1, y: p });
+      }
+      if (s.start_state_of_charge !== null) soc.push({ x: t, y: 100 * s.start_state_of_charge });
+      if (s.end_state_of_charge !== null) soc.push({ x: t1, y: 100 * s.end_state_of_charge });
+      t = t1;
+    });
+    draw("chart-profile", { type: "scatter", data: { datasets: [
+      { label: "mean electrical power [W]", data: power, showLine: true, pointRadius: 0, borderColor: PALETTE[0], yAxisID: "power" },
+      { label: "state of charge [%]", data: soc, showLine: true, pointRadius: 3, borderColor: PALETTE[1], borderDash: [6, 3], yAxisID: "soc" },
+    ] }, options: { scales: {
+      x: { title: { display: true, text: "time [min]" } },
+      power: { position: "left", beginAtZero: true, title: { display: true, text: "electrical power [W]" } },
+      soc: { position: "right", min: 0, max: 100, title: { display: true, text: "state of charge [%]" }, grid: { drawOnChartArea: false } },
+    } } });
+  }
+
+  function all() { predictCharts(); compareCharts(); paretoChart(); benchCharts(); tradeoffChart(); profileChart(); }
   document.addEventListener("DOMContentLoaded", all);
   document.addEventListener("htmx:afterSettle", all);
   window.liftmatchCharts = { draw: draw, palette: PALETTE, charts: charts };
