@@ -46,6 +46,9 @@ class Settings(BaseSettings):
     job_stalled_after_s: float = Field(default=20.0, ge=2.0, le=3600.0)
     # Threads that serve requests touching the database (the database pool keeps a connection for each).
     request_threads: int = 40
+    # A resolved API key is reused for this long in this process (server.key_cache; 0: look it up every time).
+    # A key revoked through another server process may still be accepted here for up to this long.
+    api_key_cache_s: float = Field(default=2.0, ge=0.0, le=60.0)
     # Log-in throttling: failures allowed per account and per client address within the window, then 429.
     login_failures_per_account: int = 5
     login_failures_per_client: int = 30

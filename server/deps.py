@@ -10,6 +10,7 @@ from fastapi import Depends, Path, Request
 from sqlalchemy.orm import Session
 from starlette.concurrency import run_in_threadpool
 
+from server import key_cache
 from server.config import Settings
 from server.errors import Forbidden, Unauthorized
 from server.security import csrf_matches
@@ -72,9 +73,8 @@ def _from_bearer(request: Request, session: Session) -> Caller | None:
     found = teams.resolve_api_key(session, token.strip())
     if found is None:
         raise Unauthorized("Unknown or revoked API key")
-    key, team = found
-    request.app.state.key_usage.note(key.id)  # written off the request path (server.usage)
-    return Caller(team.id, team.name, f"key:{key.scope}", "key", api_key_id=key.id)
+    request.app.state.key_usage.note(found.key_id)  # written off the request path (server.usage)
+    return Caller(found.team_id, found.team_name, f"key:{found.scope}", "key", api_key_id=found.key_id)
 
 
 def _from_session(request: Request, session: Session) -> Caller | None:
@@ -115,8 +115,31 @@ async def _form_csrf(request: Request) -> str | None:
 FormCsrf = Annotated[str | None, Depends(_form_csrf)]
 
 
-def get_caller(request: Request, session: SessionDep, form_token: FormCsrf) -> Caller:
-    """API callers: a bearer key, or a logged-in browser session (with CSRF on writes)."""
+async def get_caller(request: Request, session: SessionDep, form_token: FormCsrf) -> Caller:
+    """API callers: a bearer key, or a logged-in browser session (with CSRF on writes).
+
+    A key resolved a moment ago is taken from :mod:`server.key_cache` without a database round trip (its use is
+    still recorded); anything else is resolved on a worker thread (database work stays off the event loop).
+    """
+    token = _bearer_token(request)
+    if token is not None:
+        cached: Caller | None = key_cache.KEYS.get(token)
+        if cached is not None:
+            request.app.state.key_usage.note(cached.api_key_id)
+            return cached
+    caller = await run_in_threadpool(_resolve_caller, request, session, form_token)
+    if token is not None and caller.via == "key":
+        key_cache.KEYS.put(token, caller)
+    return caller
+
+
+def _bearer_token(request: Request) -> str | None:
+    """The key of a well-formed ``Authorization: Bearer <key>`` header (anything else: None)."""
+    scheme, _, token = (request.headers.get("authorization") or "").partition(" ")
+    return token.strip() if scheme.lower() == "bearer" and token.strip() else None
+
+
+def _resolve_caller(request: Request, session: Session, form_token: str | None) -> Caller:
     caller = _from_bearer(request, session)
     if caller is None:
         caller = _from_session(request, session)
@@ -141,7 +164,7 @@ def _writer(caller: Caller) -> Caller:
     return caller
 
 
-def get_writer(caller: Annotated[Caller, Depends(get_caller)]) -> Caller:
+async def get_writer(caller: Annotated[Caller, Depends(get_caller)]) -> Caller:  # no I/O: no worker thread
     return _writer(caller)
 
 

@@ -12,7 +12,7 @@ from fastapi.staticfiles import StaticFiles
 from starlette.middleware.sessions import SessionMiddleware
 from starlette.types import ASGIApp
 
-from server import __version__, http_errors
+from server import __version__, http_errors, key_cache
 from server.api import api_router
 from server.config import Settings, get_settings
 from server.db import make_engine, make_sessionmaker
@@ -43,6 +43,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         # Every request handler that touches the database runs in this many threads; the pool holds a connection
         # for each of them and for each job worker, so no request waits for a connection (or times out).
         to_thread.current_default_thread_limiter().total_tokens = settings.request_threads
+        key_cache.KEYS.ttl_s = settings.api_key_cache_s
+        key_cache.KEYS.forget_all()
         engine = make_engine(settings.database_url, pool_size=settings.request_threads + settings.job_concurrency + 2)
         app.state.engine = engine
         app.state.sessionmaker = make_sessionmaker(engine)
