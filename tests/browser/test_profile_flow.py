@@ -37,7 +37,8 @@ def test_profile_editor_and_explained_profile(live_server: str, page: Any) -> No
     page.goto(f"{live_server}/explain?mission_id={mission['id']}&battery_id={ids['batteries']}"
               f"&esc_id={ids['escs']}&motor_id={ids['motors']}&propeller_id={ids['propellers']}&packs_in_parallel=1")
     page.wait_for_selector("#profile")
-    assert "Flies every segment" in page.inner_text("#profile") and "lands with 39 % charge" in page.inner_text("#profile")
+    summary = page.inner_text("#profile")
+    assert "Flies every segment" in summary and "lands with 39 % charge" in summary
     rows = page.locator("#profile-segments tbody tr")
     assert rows.count() == 8  # seven segments and the reserve
     assert "reserve" in rows.nth(7).inner_text()
