@@ -115,11 +115,12 @@ async def _form_csrf(request: Request) -> str | None:
 FormCsrf = Annotated[str | None, Depends(_form_csrf)]
 
 
-async def get_caller(request: Request, session: SessionDep, form_token: FormCsrf) -> Caller:
+async def get_caller(request: Request, form_token: FormCsrf) -> Caller:
     """API callers: a bearer key, or a logged-in browser session (with CSRF on writes).
 
     A key resolved a moment ago is taken from :mod:`server.key_cache` without a database round trip (its use is
-    still recorded); anything else is resolved on a worker thread (database work stays off the event loop).
+    still recorded); anything else is resolved on a worker thread with a short read-only session of its own (no
+    database work on the event loop, and none in this async dependency).
     """
     token = _bearer_token(request)
     if token is not None:
@@ -127,10 +128,15 @@ async def get_caller(request: Request, session: SessionDep, form_token: FormCsrf
         if cached is not None:
             request.app.state.key_usage.note(cached.api_key_id)
             return cached
-    caller = await run_in_threadpool(_resolve_caller, request, session, form_token)
+    caller = await run_in_threadpool(_resolve_caller_in_own_session, request, form_token)
     if token is not None and caller.via == "key":
         key_cache.KEYS.put(token, caller)
     return caller
+
+
+def _resolve_caller_in_own_session(request: Request, form_token: str | None) -> Caller:
+    with request.app.state.sessionmaker() as session:
+        return _resolve_caller(request, session, form_token)
 
 
 def _bearer_token(request: Request) -> str | None:
