@@ -107,7 +107,8 @@ def batch_of(motor: MotorParams, esc: esc_model.EscParams, *, open_circuit_volta
              pack_resistance_ohm: np.ndarray, q: np.ndarray) -> Batch:
     """A batch from the physics engine's own parameter objects (one system, or draws of one), for the operating points.
 
-    The fields only the ranking reads (low/full-charge voltages, capacity, current limits, mass, heat) are NaN;
+    The fields only the ranking reads (low/full-charge voltages, capacity, current limits, mass, heat, the pack's
+    cells for flight profiles) are NaN;
     ``open_circuit_voltage_v`` is the cruise field :func:`cruise_point` reads. Every argument broadcasts.
     """
     constants = esc_model.EscConstants.of(esc)
@@ -121,7 +122,7 @@ def batch_of(motor: MotorParams, esc: esc_model.EscParams, *, open_circuit_volta
                  motor_resistance_ohm=motor.resistance_ohm, no_load_current_a=motor.no_load_current_a,
                  inductance_h=motor.inductance_h, motor_rating_a=nan, thermal_resistance_k_per_w=nan,
                  thermal_time_constant_s=nan, max_winding_temperature_c=nan, q=np.asarray(q, dtype=np.intp),
-                 mass_kg=nan)
+                 mass_kg=nan, cells_series=nan, full_voltage_per_cell_v=nan)
 
 
 @dataclass(frozen=True)
