@@ -161,33 +161,59 @@ def _content(row: Any) -> list[Any]:
             if c.key not in ("created_at", "updated_at", "version", "notes")]
 
 
+@dataclass(frozen=True)
+class Preloaded:
+    """Rows a caller evaluating several candidates of one team loads once: parts by kind and id (archived too), and
+    the team's active calibrations in id order (:func:`preload`)."""
+
+    parts: dict[str, dict[int, Any]]
+    calibrations: list[Any]
+
+
+def preload(session: Session, *, team_id: int, candidates: list[CandidateIds]) -> Preloaded:
+    """One query per part kind and one for the calibrations, for every candidate of a compare view."""
+    wanted = {kind: [getattr(c, f"{attr}_id") for c in candidates] for kind, attr in _KINDS}
+    calibrations = list(session.scalars(select(Calibration).where(
+        Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id)))
+    return Preloaded(parts_service.by_ids(session, team_id=team_id, ids=wanted), calibrations)
+
+
+_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
+
+
 def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds,
-               with_curves: bool) -> tuple[Any, ...]:
+               with_curves: bool, preloaded: Preloaded | None = None) -> tuple[Any, ...]:
     """Everything an evaluation depends on, by content: the engine version, the mission and its airframe, the four
     parts and every active calibration of the team (a part's own, and the ESCs' pooled k_pwm prior). Any edit,
     calibration or switch changes the key, so a cached evaluation is never served after a change (ids and versions
-    alone are not enough: a database may reuse an id)."""
+    alone are not enough: a database may reuse an id). ``preloaded`` rows (read in this request) save the queries."""
     parts = []
-    for kind, part_id in (("batteries", ids.battery_id), ("escs", ids.esc_id), ("motors", ids.motor_id),
-                          ("propellers", ids.propeller_id)):
-        try:
-            parts.append(_content(parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)))
-        except NotFound as exc:
-            raise InvalidInput("Unknown part", [FieldError("part", str(exc))]) from None
-    calibrations = [_content(c) for c in session.scalars(select(Calibration).where(
-        Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id))]
+    for kind, attr in _KINDS:
+        part_id = getattr(ids, f"{attr}_id")
+        row = None if preloaded is None else preloaded.parts.get(kind, {}).get(part_id)
+        if row is None:
+            try:
+                row = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+            except NotFound as exc:
+                raise InvalidInput("Unknown part", [FieldError("part", str(exc))]) from None
+        parts.append(_content(row))
+    rows = preloaded.calibrations if preloaded is not None else session.scalars(select(Calibration).where(
+        Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id))
+    calibrations = [_content(c) for c in rows]
     content = json.dumps([_content(mission), _content(mission.airframe), parts, calibrations], default=str,
                          sort_keys=True)
     return (ENGINE_VERSION, hashlib.sha256(content.encode()).hexdigest(), ids.packs_in_parallel, with_curves)
 
 
 def evaluate(
-    session: Session, *, team_id: int, mission: Mission, ids: CandidateIds, with_curves: bool = False
+    session: Session, *, team_id: int, mission: Mission, ids: CandidateIds, with_curves: bool = False,
+    preloaded: Preloaded | None = None,
 ) -> dict[str, Any]:
     """Every number the compare page shows for one candidate (craft totals unless named per rotor).
 
     Cached per process by :func:`_cache_key` (the same inputs give the same numbers; a change gives a new key)."""
-    key = _cache_key(session, team_id=team_id, mission=mission, ids=ids, with_curves=with_curves)
+    key = _cache_key(session, team_id=team_id, mission=mission, ids=ids, with_curves=with_curves,
+                     preloaded=preloaded)
     with _cache_lock:
         cached = _cache.get(key)
         if cached is not None:

@@ -66,9 +66,10 @@ stays static."""
 PART_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
 
 
-def part_summary(session: Session, team_id: int, kind: str, part_id: int) -> dict[str, Any]:
-    """What the compare view and the bill of materials say about a part."""
-    part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
+def part_summary(session: Session, team_id: int, kind: str, part_id: int, part: Any = None) -> dict[str, Any]:
+    """What the compare view and the bill of materials say about a part (``part``: the row, when already loaded)."""
+    if part is None:
+        part = parts_service.get_part(session, team_id=team_id, kind=kind, part_id=part_id)
     return {
         "id": part.id,
         "name": part.name,
@@ -99,9 +100,10 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
     mission = session.get(Mission, shortlist.mission_id)
     assert mission is not None
     entries: list[dict[str, Any]] = []
+    loaded = candidate.preload(session, team_id=team_id, candidates=[candidate_ids(e) for e in shortlist.entries])
     for entry in shortlist.entries:
         metrics = with_scopes(candidate.evaluate(
-            session, team_id=team_id, mission=mission, ids=candidate_ids(entry), with_curves=True
+            session, team_id=team_id, mission=mission, ids=candidate_ids(entry), with_curves=True, preloaded=loaded
         ))
         added_by = session.get(User, entry.added_by_id) if entry.added_by_id else None
         entries.append(
@@ -117,7 +119,8 @@ def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, A
                     for kind, sources in metrics["sources"].items()
                 },
                 "parts": {
-                    kind: part_summary(session, team_id, kind, getattr(entry, f"{attr}_id"))
+                    kind: part_summary(session, team_id, kind, getattr(entry, f"{attr}_id"),
+                                       loaded.parts.get(kind, {}).get(getattr(entry, f"{attr}_id")))
                     for kind, attr in PART_KINDS
                 },
                 "packs_in_parallel": entry.packs_in_parallel,

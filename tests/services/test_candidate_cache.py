@@ -100,3 +100,16 @@ def test_two_databases_with_the_same_ids_never_share_an_evaluation(app: FastAPI,
         assert mass["copy"] == pytest.approx(mass["app"] + 4 * 100)  # four motors, each 100 g heavier
     finally:
         engine.dispose()
+
+
+def test_preloaded_rows_give_the_same_key_as_loading_them(app: FastAPI, client: TestClient) -> None:
+    """The compare view loads every entry's parts and the calibrations once (candidate.preload); the cache key it
+    builds from them must be the key a lone evaluation builds from its own queries, or a change could be missed."""
+    with app.state.sessionmaker() as session:
+        mission, ids = _ids(session)
+        loaded = candidate.preload(session, team_id=mission.team_id, candidates=[ids])
+        alone = candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=ids, with_curves=True)
+        shared = candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=ids, with_curves=True,
+                                      preloaded=loaded)
+        assert shared == alone
+        assert loaded.calibrations  # the demo has active calibrations, so they are part of the key
