@@ -64,13 +64,12 @@ class LoginRequired(Unauthorized):
 
 
 def _from_bearer(request: Request, session: Session) -> Caller | None:
-    header = request.headers.get("authorization")
-    if not header:
+    if not request.headers.get("authorization"):
         return None
-    scheme, _, token = header.partition(" ")
-    if scheme.lower() != "bearer" or not token.strip():
+    token = _bearer_token(request)
+    if token is None:
         raise Unauthorized("Authorization header must be 'Bearer <api key>'")
-    found = teams.resolve_api_key(session, token.strip())
+    found = teams.resolve_api_key(session, token)
     if found is None:
         raise Unauthorized("Unknown or revoked API key")
     request.app.state.key_usage.note(found.key_id)  # written off the request path (server.usage)

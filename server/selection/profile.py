@@ -18,7 +18,7 @@ import numpy as np
 
 from server.physics.battery import PackParams, open_circuit_voltage_per_cell_v
 from server.physics.drive_screen import Batch, cruise_point
-from server.physics.profile import LegState, ProfileResult, fly
+from server.physics.profile import STOP_TEXT, LegState, ProfileResult, ProfileStop, fly
 from server.physics.propeller_segments import PropModel
 
 from .library import MissionSpec, Segment
@@ -77,8 +77,6 @@ def fly_batch(batch: Batch, model: PropModel, mission: MissionSpec) -> ProfileRe
 
 def summary(mission: MissionSpec, result: ProfileResult, index: tuple[int, ...] | int) -> dict[str, object]:
     """The API's ``profile`` section of candidate ``index`` of ``result``."""
-    from server.physics.profile import STOP_TEXT, ProfileStop
-
     idx = (index,) if isinstance(index, int) else index
     segments = flown_segments(mission)
     soc = result.soc_at_boundary[idx]
@@ -90,9 +88,9 @@ def summary(mission: MissionSpec, result: ProfileResult, index: tuple[int, ...] 
         rows.append({
             "label": seg.label or seg.kind, "kind": seg.kind, "duration_s": seg.duration_s,
             "airspeed_m_s": seg.airspeed_m_s, "climb_rate_m_s": seg.climb_rate_m_s,
-            "reserve": seg.label == RESERVE_LABEL and j == len(segments) - 1 and mission.reserve_min > 0.0,
+            "reserve": j >= len(mission.segments),  # flown_segments appends the reserve after the mission's own
             "start_state_of_charge": _num(soc[j]), "end_state_of_charge": _num(soc[j + 1]),
-            "energy_wh": _num(energy[j]), "flown": j < stop_at or stop == ProfileStop.COMPLETED,
+            "energy_wh": _num(energy[j]), "flown": j < stop_at,  # stop_segment is len(segments) when completed
         })
     return {
         "completed": bool(result.completed[idx]), "stop": STOP_TEXT[stop],

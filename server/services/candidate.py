@@ -172,13 +172,14 @@ class Preloaded:
 
 def preload(session: Session, *, team_id: int, candidates: list[CandidateIds]) -> Preloaded:
     """One query per part kind and one for the calibrations, for every candidate of a compare view."""
-    wanted = {kind: [getattr(c, f"{attr}_id") for c in candidates] for kind, attr in _KINDS}
+    wanted = {kind: [getattr(c, f"{attr}_id") for c in candidates] for kind, attr in PART_KINDS}
     calibrations = list(session.scalars(select(Calibration).where(
         Calibration.team_id == team_id, Calibration.active.is_(True)).order_by(Calibration.id)))
     return Preloaded(parts_service.by_ids(session, team_id=team_id, ids=wanted), calibrations)
 
 
-_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
+PART_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
+"""Part kind (library and API plural) and the singular its id field is named after (``battery_id`` ...)."""
 
 
 def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: CandidateIds,
@@ -188,7 +189,7 @@ def _cache_key(session: Session, *, team_id: int, mission: Mission, ids: Candida
     calibration or switch changes the key, so a cached evaluation is never served after a change (ids and versions
     alone are not enough: a database may reuse an id). ``preloaded`` rows (read in this request) save the queries."""
     parts = []
-    for kind, attr in _KINDS:
+    for kind, attr in PART_KINDS:
         part_id = getattr(ids, f"{attr}_id")
         row = None if preloaded is None else preloaded.parts.get(kind, {}).get(part_id)
         if row is None:

@@ -63,7 +63,7 @@ FLIGHT_ROWS: list[tuple[str, str, str, str, str | None]] = [
 ]
 """Rows of a multirotor flight state (forward flight, climb, coaxial), shown when an entry has one; full throttle
 stays static."""
-PART_KINDS = (("batteries", "battery"), ("escs", "esc"), ("motors", "motor"), ("propellers", "propeller"))
+PART_KINDS = candidate.PART_KINDS
 
 
 def part_summary(session: Session, team_id: int, kind: str, part_id: int, part: Any = None) -> dict[str, Any]:
