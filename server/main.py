@@ -22,6 +22,7 @@ from server.middleware import SecurityHeaders
 from server.pages import page_router
 from server.pages._render import make_templates
 from server.resources import web_dir
+from server.services.page_cache import PageCache
 from server.usage import KeyUsage
 
 
@@ -71,6 +72,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         max_body_size=MAX_BODY_BYTES,
     )
     app.state.settings = settings
+    app.state.parts_pages = PageCache()  # the parts list's pages (server/api/parts.py)
     web = web_dir()
     app.state.templates = make_templates(web / "templates")
     app.add_middleware(

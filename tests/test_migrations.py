@@ -1,14 +1,16 @@
-"""Migrations: upgrade on an empty database, models match migrations, downgrade/upgrade round trip."""
+"""Migrations: upgrade on an empty database, models match migrations, downgrade/upgrade round trip, and the part
+tables' revision triggers exist at head (SQLite drops a table's triggers when batch mode rebuilds it)."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
-from sqlalchemy import create_engine, inspect
+from sqlalchemy import create_engine, inspect, text
 
 import server.models  # noqa: F401
 from server import migrate
 from server.db import Base
+from server.models import PART_MODELS
 
 
 def test_upgrade_on_empty_database_creates_every_table(tmp_path: Path) -> None:
@@ -32,3 +34,23 @@ def test_downgrade_to_base_and_back(tmp_path: Path) -> None:
     assert set(inspect(create_engine(url)).get_table_names()) <= {"alembic_version"}
     migrate.upgrade(url)
     assert set(Base.metadata.tables) <= set(inspect(create_engine(url)).get_table_names())
+    assert _revision_triggers(url) == EXPECTED_TRIGGERS
+
+
+EXPECTED_TRIGGERS = {(model.__table__.name, event) for model in PART_MODELS.values()  # type: ignore[attr-defined]
+                     for event in ("INSERT", "UPDATE", "DELETE")}
+
+
+def _revision_triggers(url: str) -> set[tuple[str, str]]:
+    """(table, event) of each trigger that writes ``part_revision``."""
+    with create_engine(url).connect() as connection:
+        rows = connection.execute(text("SELECT tbl_name, sql FROM sqlite_master WHERE type = 'trigger'")).all()
+    return {(table, sql.split(" AFTER ", 1)[1].split(" ", 1)[0]) for table, sql in rows if "part_revision" in sql}
+
+
+def test_every_part_table_has_its_revision_triggers_at_head(tmp_path: Path) -> None:
+    """A migration that rebuilds a part table (batch mode) must create its triggers again: the parts list's cache
+    relies on them (server/services/page_cache.py; ``create_triggers`` in the part_revisions migration)."""
+    url = f"sqlite:///{tmp_path / 'triggers.db'}"
+    migrate.upgrade(url)
+    assert _revision_triggers(url) == EXPECTED_TRIGGERS

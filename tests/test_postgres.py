@@ -92,3 +92,23 @@ def test_parts_shortlist_and_ranking_flows(pg_client: TestClient) -> None:
     assert pg_client.delete(f"/api/v1/parts/motors/{ids['motors']}", headers=h).status_code == 409  # in use
     assert pg_client.post("/api/v1/parts/motors", json=part_payload("motors", name="x" * 121),
                           headers=h).status_code == 422
+
+
+def test_the_parts_list_follows_writes_made_outside_the_api(pg_client: TestClient) -> None:
+    """The revision triggers on PostgreSQL: plain SQL that bumps no version is seen by the cached parts list."""
+    app = pg_client.app
+    team = make_team(app, "PG cache")  # type: ignore[arg-type]
+    h = team.headers()
+    assert pg_client.post("/api/v1/parts/motors", json=part_payload("motors", "Before"), headers=h).status_code == 201
+
+    def names() -> list[str]:
+        return [p["name"] for p in pg_client.get("/api/v1/parts/motors", headers=h).json()["items"]]
+
+    assert names() == names() == ["Before"]  # the second one from the cache
+    engine = app.state.engine  # type: ignore[attr-defined]
+    with engine.begin() as connection:
+        connection.execute(text("UPDATE motor SET name = 'After' WHERE team_id = :t"), {"t": team.team_id})
+    assert names() == ["After"]
+    with engine.begin() as connection:
+        connection.execute(text("DELETE FROM motor WHERE team_id = :t"), {"t": team.team_id})
+    assert names() == []

@@ -4,7 +4,7 @@ from server.models.bench_runs import BenchRun, BenchSample
 from server.models.calibrations import Calibration
 from server.models.fleet import FleetPlan
 from server.models.missions import Airframe, Mission
-from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, Propeller
+from server.models.parts import PART_MODELS, Battery, Esc, Motor, PartColumns, PartRevision, Propeller
 from server.models.rankings import Ranking, RankingResult, RankingShard
 from server.models.refits import Refit
 from server.models.shortlists import Shortlist, ShortlistEntry
@@ -26,6 +26,7 @@ __all__ = [
     "Mission",
     "Motor",
     "PartColumns",
+    "PartRevision",
     "Propeller",
     "Ranking",
     "RankingResult",

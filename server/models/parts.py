@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, Float, ForeignKey, Integer, String, Text
+from sqlalchemy import JSON, BigInteger, Boolean, Float, ForeignKey, Integer, String, Text
 from sqlalchemy.orm import Mapped, mapped_column
 
 from server.db import Base
@@ -98,3 +98,20 @@ PART_MODELS: dict[str, type[PartColumns]] = {
     "motors": Motor,
     "propellers": Propeller,
 }
+
+
+class PartRevision(Base):
+    """A token that changes with every write to a team's parts of one kind: the parts list's freshness signal.
+
+    Written only by database triggers on the four part tables (migration ``3f0c7a9e2b51``): every INSERT, UPDATE
+    and DELETE of a part row, whatever wrote it (this app, another process, a script, a cascade), sets the row's
+    ``revision`` to a fresh random 64-bit value in the same transaction. So a token seen once never comes back
+    (not after a restore, nor in another database), and reading it is one primary-key lookup however large the
+    library (``server/services/page_cache.py``). No foreign key: the triggers write it while a team's rows go.
+    """
+
+    __tablename__ = "part_revision"
+
+    team_id: Mapped[int] = mapped_column(Integer, primary_key=True, autoincrement=False)
+    kind: Mapped[str] = mapped_column(String(16), primary_key=True)
+    revision: Mapped[int] = mapped_column(BigInteger)
