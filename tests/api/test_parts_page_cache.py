@@ -8,7 +8,9 @@ from fastapi import FastAPI
 from fastapi.testclient import TestClient
 from sqlalchemy import text
 
+from server.config import Settings
 from server.db import transaction
+from server.main import create_app
 from server.models import PART_MODELS, Motor
 from server.services import page_cache
 from server.services.page_cache import PageCache
@@ -56,6 +58,24 @@ def test_cached_pages_follow_every_change(app: FastAPI, client: TestClient, team
     with app.state.engine.begin() as connection:
         connection.exec_driver_sql("DELETE FROM motor WHERE team_id = ?", (team.team_id,))
     assert _names(client, team) == []
+
+
+def test_another_server_process_sees_every_write_at_once(app: FastAPI, client: TestClient, team: TeamFixture,
+                                                         settings: Settings) -> None:
+    """Two apps on one database stand for two server processes: each has its own cache, engine and key cache."""
+    h = team.headers()
+    with TestClient(create_app(settings)) as other:
+        def names_there() -> list[str]:
+            return [p["name"] for p in other.get("/api/v1/parts/motors", headers=h).json()["items"]]
+
+        assert names_there() == names_there() == []  # the second one from the other process's cache
+        part = client.post("/api/v1/parts/motors", json=part_payload("motors", "Here"), headers=h).json()
+        assert names_there() == ["Here"]
+        client.patch(f"/api/v1/parts/motors/{part['id']}", json={"name": "Changed here"},
+                     headers={**h, "If-Match": '"1"'})
+        assert names_there() == ["Changed here"]
+        client.delete(f"/api/v1/parts/motors/{part['id']}", headers=h)
+        assert names_there() == []
 
 
 def test_a_cached_page_is_byte_for_byte_a_fresh_one(app: FastAPI, client: TestClient, team: TeamFixture) -> None:
