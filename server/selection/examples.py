@@ -89,6 +89,8 @@ class Examples:
             self._keep(int(code), taken)
 
     def _keep(self, code: int, keys: np.ndarray) -> None:
+        if keys.size > EXAMPLES_PER_REASON:  # only the smallest few can be kept: select them in linear time
+            keys = np.partition(keys, EXAMPLES_PER_REASON - 1)[:EXAMPLES_PER_REASON]
         merged = np.union1d(self.keys.get(code, np.empty(0, dtype=np.int64)), keys)[:EXAMPLES_PER_REASON]
         self.keys[code] = merged
         if merged.size >= EXAMPLES_PER_REASON:

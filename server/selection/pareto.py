@@ -3,17 +3,19 @@
 A candidate is dominated when another is at least as good in all four objectives and better in one. The set
 of non-dominated candidates is unique, so merging chunk by chunk (or worker by worker) gives the same set in
 any order. Each merge first removes what a few "elite" points dominate (minimisers of fixed weighted sums,
-cheap to find), then compares the few survivors pairwise, in blocks to bound memory. Unknown costs count as
-the worst cost.
+cheap to find), then compares the few survivors pairwise (compiled loops that stop at the first dominator).
+Unknown costs count as the worst cost.
 """
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
+from .compiled import jit
 from .result import CandidateSet
 
-_BLOCK = 16
 _WEIGHTS = np.array([
     [1, 0, 0, 0], [0, 1, 0, 0], [0, 0, 1, 0], [0, 0, 0, 1], [1, 1, 1, 1],
     [2, 1, 1, 1], [1, 2, 1, 1], [1, 1, 2, 1], [1, 1, 1, 2], [3, 1, 2, 0.5],
@@ -30,29 +32,25 @@ def objective_matrix(cs: CandidateSet) -> np.ndarray:
 def _dominated_by(points: np.ndarray, by: np.ndarray) -> np.ndarray:
     """Mask of ``points`` (n, 4) dominated by at least one row of ``by`` (m, 4).
 
-    ``by`` is scanned in small blocks and points already known to be dominated leave the scan, so putting the
-    strongest rows of ``by`` first makes this close to linear in n.
+    Each point scans ``by`` in order and stops at its first dominator, so putting the strongest rows of ``by``
+    first makes this close to linear in n (compiled: :func:`_dominated_loop`).
     """
-    n = points.shape[0]
-    out = np.zeros(n, dtype=bool)
-    if n == 0 or by.shape[0] == 0:
-        return out
-    active = np.arange(n)
-    cols = np.ascontiguousarray(points.T)
-    for start in range(0, by.shape[0], _BLOCK):
-        b = by[start:start + _BLOCK]
-        p = cols[:, active]
-        weak = b[:, 0, None] <= p[0]
-        strict = b[:, 0, None] < p[0]
-        for j in range(1, 4):
-            weak &= b[:, j, None] <= p[j]
-            strict |= b[:, j, None] < p[j]
-        hit = np.any(weak & strict, axis=0)
-        out[active[hit]] = True
-        active = active[~hit]
-        if active.size == 0:
-            break
+    out = np.zeros(points.shape[0], dtype=np.bool_)
+    if points.shape[0] and by.shape[0]:
+        _dominated_loop(np.ascontiguousarray(points, dtype=np.float64), np.ascontiguousarray(by, dtype=np.float64),
+                        out)
     return out
+
+
+@jit
+def _dominated_loop(points: np.ndarray, by: np.ndarray, out: np.ndarray) -> None:
+    for i in range(points.shape[0]):
+        p0, p1, p2, p3 = points[i, 0], points[i, 1], points[i, 2], points[i, 3]
+        for j in range(by.shape[0]):
+            b0, b1, b2, b3 = by[j, 0], by[j, 1], by[j, 2], by[j, 3]
+            if (b0 <= p0 and b1 <= p1 and b2 <= p2 and b3 <= p3) and (b0 < p0 or b1 < p1 or b2 < p2 or b3 < p3):
+                out[i] = True
+                break
 
 
 def _strongest_first(x: np.ndarray) -> np.ndarray:
@@ -74,8 +72,28 @@ def _elites(x: np.ndarray) -> np.ndarray:
         lo = np.nanmin(finite, axis=0, initial=np.inf, where=~np.isnan(finite))
         hi = np.nanmax(finite, axis=0, initial=-np.inf, where=~np.isnan(finite))
         span = np.where(hi > lo, hi - lo, 1.0)
-        z = np.where(np.isfinite(x), (x - lo) / span, 2.0)  # a column without any finite value: inf - inf
-    return np.unique(np.argmin(z @ _WEIGHTS.T, axis=0))
+    found = np.zeros(_WEIGHTS.shape[0], dtype=np.intp)
+    if x.shape[0]:
+        _weighted_minimisers(np.ascontiguousarray(x, dtype=np.float64), lo, span, _WEIGHTS, found)
+    return np.unique(found)
+
+
+@jit
+def _weighted_minimisers(x: np.ndarray, lo: np.ndarray, span: np.ndarray, weights: np.ndarray,
+                         found: np.ndarray) -> None:
+    """Per row of ``weights``, the first row of ``x`` minimising the weighted sum of ``(x - lo) / span`` (a
+    non-finite objective counts as 2, worse than any finite one)."""
+    best = np.full(weights.shape[0], np.inf)
+    z = np.empty(4)
+    for i in range(x.shape[0]):
+        for c in range(4):
+            v = x[i, c]
+            z[c] = (v - lo[c]) / span[c] if math.isfinite(v) else 2.0
+        for w in range(weights.shape[0]):
+            total = weights[w, 0] * z[0] + weights[w, 1] * z[1] + weights[w, 2] * z[2] + weights[w, 3] * z[3]
+            if total < best[w]:
+                best[w] = total
+                found[w] = i
 
 
 def nondominated(x: np.ndarray) -> np.ndarray:

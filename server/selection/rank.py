@@ -14,6 +14,7 @@ import numpy as np
 from server.physics import ENGINE_VERSION
 from server.physics.propeller_segments import PropModel
 
+from . import fused_screen
 from .constraints import CODE, REASONS
 from .enumerate import DEFAULT_CHUNK_SIZE, Chunk, PartVerdicts, Plan, chunks, plan
 from .examples import ExampleKeys, pruned_examples
@@ -23,6 +24,9 @@ from .result import OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
 from .rows import build_rows
 from .stream import Partial, run_chunks, screen_chunk
 
+FUSED_CHUNK_FACTOR = 8
+"""By default the chunks of the compiled screen (:mod:`.fused_screen`) are this many times the numpy screen's: it
+keeps about 50 B per candidate of a chunk instead of ~1 kB, and larger chunks share more full-throttle points."""
 SCREEN_SHARE = 0.9
 """Share of the progress bar given to screening (the rest covers refinement and the result rows)."""
 
@@ -78,6 +82,8 @@ def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropMod
     so that no core idles while work is queued. Partials merge in any order with the same result.
     """
     method = "fork" if "fork" in get_all_start_methods() else "spawn"
+    if fused_screen.supports(mission, model):
+        fused_screen.warm_up()  # compiled (or loaded from the cache) once, before the workers fork
     tasks = split_chunks(all_chunks, the_plan, processes * 4)
     total = max(the_plan.evaluated, 1)
     if not tasks:
@@ -121,7 +127,7 @@ def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropMod
 
 
 def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruise_power", top_n: int = 50,
-         chunk_size: int = DEFAULT_CHUNK_SIZE, progress: Callable[[float], None] | None = None,
+         chunk_size: int | None = None, progress: Callable[[float], None] | None = None,
          should_cancel: Callable[[], bool] | None = None, processes: int = 1) -> RankingOutcome:
     """Rank every power system of ``library`` for ``mission``.
 
@@ -137,8 +143,10 @@ def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruis
         with fewer assumed (prior) parameters, then part ids.
     top_n : int, default 50
         Rows to return; these are refined by the discharge simulation and re-ranked with it.
-    chunk_size : int
-        Candidates per evaluated chunk (memory ~ 1 kB per candidate of a chunk); results do not depend on it.
+    chunk_size : int, optional
+        Candidates per evaluated chunk; results do not depend on it. Default :data:`.enumerate.DEFAULT_CHUNK_SIZE`
+        for the numpy screen (memory ~ 1 kB per candidate of a chunk) and :data:`FUSED_CHUNK_FACTOR` times that for
+        the compiled one (~ 50 B per candidate).
     progress : callable, optional
         Called with a monotonically increasing fraction in [0, 1]; the last call of a finished run is 1.0.
     should_cancel : callable, optional
@@ -207,14 +215,16 @@ class Prepared:
 
 
 def prepare(library: PartsLibrary, mission: MissionSpec, *, objective: str, top_n: int,
-            chunk_size: int = DEFAULT_CHUNK_SIZE) -> Prepared:
+            chunk_size: int | None = None) -> Prepared:
     """Check the arguments, build the propeller model, the plan (part-level pruning) and its chunks."""
     if objective not in OBJECTIVES:
         raise ValueError(f"unknown objective {objective!r}; choose one of {OBJECTIVES}")
-    if top_n < 0 or chunk_size < 1:
+    if top_n < 0 or (chunk_size is not None and chunk_size < 1):
         raise ValueError("top_n must be >= 0, chunk_size and processes >= 1")
     model = mission.propeller_model(library.propellers)
     the_plan = plan(library, mission, model)
+    if chunk_size is None:  # the compiled screen keeps ~50 B per candidate, not ~1 kB
+        chunk_size = DEFAULT_CHUNK_SIZE * (FUSED_CHUNK_FACTOR if fused_screen.supports(mission, model) else 1)
     return Prepared(objective, top_n, model, the_plan, list(chunks(the_plan, chunk_size)), _id_ranks(library))
 
 

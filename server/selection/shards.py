@@ -89,8 +89,7 @@ def rank_in_shards(library: PartsLibrary, mission: MissionSpec, *, objective: st
                    chunk_size: int | None = None, order: Iterable[int] | None = None) -> RankingOutcome:
     """Screen every shard here, one after another, and merge them in ``order`` (a test and benchmark helper)."""
     t0 = time.perf_counter()
-    prepared = (prepare(library, mission, objective=objective, top_n=top_n) if chunk_size is None else
-                prepare(library, mission, objective=objective, top_n=top_n, chunk_size=chunk_size))
+    prepared = prepare(library, mission, objective=objective, top_n=top_n, chunk_size=chunk_size)
     partials = [screen_shard(library, mission, prepared, i, count) for i in range(count)]
     t1 = time.perf_counter()
     chosen = [partials[i] for i in (order if order is not None else range(count))]

@@ -13,8 +13,9 @@ import numpy as np
 
 from server.physics.propeller_segments import PropModel
 
+from . import fused_screen
 from .constraints import REASONS, screen
-from .enumerate import Chunk, Plan, batch_for, chunk_indices, cost_of
+from .enumerate import Block, Chunk, Plan, batch_for, chunk_indices, cost_of
 from .examples import ExampleKeys, Examples, chunk_keys
 from .library import MissionSpec, PartsLibrary
 from .pareto import ParetoFront
@@ -60,16 +61,22 @@ class Partial:
 
 def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, model: PropModel, the_plan: Plan,
                  chunk: Chunk) -> int:
-    """Evaluate one chunk into ``partial``; returns the number of candidates evaluated."""
+    """Evaluate one chunk into ``partial``; returns the number of candidates evaluated.
+
+    Plain missions go through the compiled loop of :mod:`.fused_screen`, the rest through
+    :func:`.constraints.screen`; both give the same verdicts and metrics.
+    """
     block = the_plan.blocks[chunk.block]
+    if partial.keys is None:
+        partial.keys = ExampleKeys.of(library, mission)
+    if fused_screen.supports(mission, model):
+        return _screen_fused(partial, library, mission, model, block, chunk)
     index = chunk_indices(block, chunk)
     result = screen(batch_for(library, mission, *index), model, mission)
     codes = result.code.ravel()
     partial.counts += np.bincount(codes, minlength=len(REASONS) + 1)
     partial.violations += result.violations
     partial.evaluated += codes.size
-    if partial.keys is None:
-        partial.keys = ExampleKeys.of(library, mission)
     partial.examples.add(result.code, chunk_keys(partial.keys, block, chunk))
     feasible = np.flatnonzero(codes == 0)
     if feasible.size:
@@ -91,6 +98,33 @@ def screen_chunk(partial: Partial, library: PartsLibrary, mission: MissionSpec, 
         partial.add_candidates(cs)
         partial.front.add(cs)
     return int(codes.size)
+
+
+def _screen_fused(partial: Partial, library: PartsLibrary, mission: MissionSpec, model: PropModel, block: Block,
+                  chunk: Chunk) -> int:
+    """:func:`screen_chunk` through the compiled loop."""
+    assert partial.keys is not None
+    out = fused_screen.screen_chunk(library, mission, model, block, chunk, partial.keys)
+    partial.counts += out.counts
+    partial.violations += out.violations
+    partial.evaluated += out.size
+    partial.examples.add(out.example_codes, out.example_keys)
+    if out.feasible.size:
+        ic, ie, im, iq = np.unravel_index(out.feasible, (chunk.c1 - chunk.c0, chunk.e1 - chunk.e0, len(block.motors),
+                                                         len(block.props)))
+        pack = block.packs[chunk.c0 + ic]
+        k = block.ks[chunk.c0 + ic]
+        esc = block.escs[chunk.e0 + ie]
+        motor, prop = block.motors[im], block.props[iq]
+        cs = CandidateSet(
+            pack=pack, k=k, esc=esc, motor=motor, prop=prop, electrical_power_w=out.electrical_power_w,
+            endurance_min=out.endurance_min, specific_thrust_g_per_w=out.specific_thrust_g_per_w,
+            thrust_to_weight=out.thrust_to_weight, mass_kg=out.mass_kg,
+            cost=cost_of(library, mission, pack, k, esc, motor, prop),
+        )
+        partial.add_candidates(cs)
+        partial.front.add(cs)
+    return out.size
 
 
 def run_chunks(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, chunks: list[Chunk], objective: str,
