@@ -7,7 +7,10 @@ combinations per second and peak memory (max RSS above the baseline) are printed
 evaluated candidates then goes through the scalar brentq path of ``tests/physics/scalar_reference.py`` (cruise
 point by thrust and the two full-throttle points, one candidate at a time) and its rate is extrapolated.
 
-    python benchmarks/ranking.py [--combinations N] [--processes P] [--scalar-sample S]
+    python benchmarks/ranking.py [--combinations N] [--processes P] [--scalar-sample S] [--compare-screens]
+
+Plain hover missions are screened by the compiled loop (server/selection/fused_screen.py); ``--compare-screens``
+first times the numpy screen against it on the same chunks (the measurement behind adopting numba).
 
 The last line is ``ranking: N combinations in S s (R combinations/s), scalar ratio X, peak memory M MB``.
 """
@@ -35,9 +38,12 @@ from server.selection import (  # noqa: E402
     PackLibrary,
     PartsLibrary,
     PropellerLibrary,
+    fused_screen,  # noqa: E402
     rank,
 )
-from server.selection.enumerate import plan  # noqa: E402
+from server.selection.constraints import screen  # noqa: E402
+from server.selection.enumerate import batch_for, chunk_indices, chunks, plan  # noqa: E402
+from server.selection.examples import ExampleKeys  # noqa: E402
 from tests.physics import scalar_reference as ref  # noqa: E402
 
 BASE = (20, 10, 70, 72)  # packs, ESCs, motors, propellers: 1 008 000 combinations
@@ -142,6 +148,27 @@ def scalar_rate(library: PartsLibrary, mission: MissionSpec, sample: int, seed: 
     return sample / elapsed, sample
 
 
+def compare_screens(library: PartsLibrary, mission: MissionSpec) -> None:
+    """The numpy screen and the compiled one on the same chunks (one process): rates, ratio, equal counts."""
+    model = mission.propeller_model(library.propellers)
+    the_plan = plan(library, mission, model)
+    keys = ExampleKeys.of(library, mission)
+    fused_screen.warm_up()
+    t_numpy = t_fused = 0.0
+    n = 0
+    for chunk in chunks(the_plan, 65_536):
+        block = the_plan.blocks[chunk.block]
+        t0 = time.perf_counter()
+        plain = screen(batch_for(library, mission, *chunk_indices(block, chunk)), model, mission)
+        t1 = time.perf_counter()
+        fused = fused_screen.screen_chunk(library, mission, model, block, chunk, keys)
+        t2 = time.perf_counter()
+        assert np.array_equal(np.bincount(plain.code.ravel(), minlength=fused.counts.size), fused.counts)
+        t_numpy, t_fused, n = t_numpy + t1 - t0, t_fused + t2 - t1, n + fused.size
+    print(f"screens: numpy {n / t_numpy / 1e6:.2f} M candidates/s, compiled {n / t_fused / 1e6:.2f} M/s "
+          f"({t_numpy / t_fused:.1f}x) on the same {n} candidates, same counts")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--combinations", type=int, default=math.prod(BASE))
@@ -153,6 +180,8 @@ def main() -> None:
     parser.add_argument("--forward-flight", type=float, default=0.0, metavar="V",
                         help="also rank the same craft in forward flight at V m/s (drag area 0.03 m^2) and print the "
                              "ratio of its time to the hover ranking's")
+    parser.add_argument("--compare-screens", action="store_true",
+                        help="also time the numpy screen against the compiled one on the same chunks")
     args = parser.parse_args()
     library = make_library(args.combinations)
     print(f"library: packs x ESCs x motors x propellers = {' x '.join(str(s) for s in library.sizes)}")
@@ -188,6 +217,8 @@ def main() -> None:
         wall_ff = time.perf_counter() - t1
         print(f"forward flight at {args.forward_flight:g} m/s: {flown.combinations} combinations in {wall_ff:.3f} s, "
               f"{wall_ff / wall:.2f}x the hover ranking; feasible {flown.feasible} (hover {out.feasible})")
+    if args.compare_screens:
+        compare_screens(library, MISSION)
     print(f"ranking: {n} combinations in {wall:.3f} s ({rate:.0f} combinations/s), scalar ratio {rate / scalar:.0f}, "
           f"peak memory {peak_mb:.0f} MB")
 

@@ -18,6 +18,7 @@ from sqlalchemy import select, update
 from sqlalchemy.orm import Session, sessionmaker
 
 from server.jobs import execute, kinds
+from server.selection import fused_screen
 
 log = logging.getLogger("liftmatch.jobs")
 
@@ -93,6 +94,8 @@ class InProcessRunner:
 
     def start(self) -> None:
         self.recover()
+        # The ranking's compiled loops are loaded (or compiled) beside the server, not in the first ranking.
+        threading.Thread(target=fused_screen.warm_up, name="warm-up", daemon=True).start()
         for i in range(self.concurrency):
             thread = threading.Thread(target=self._work, name=f"job-{i}", daemon=True)
             thread.start()

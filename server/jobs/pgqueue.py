@@ -173,6 +173,9 @@ def run_worker(settings: Settings, factory: sessionmaker[Session], *, concurrenc
     """A worker process: runs queued jobs ``concurrency`` at a time until SIGINT/SIGTERM."""
     runner = QueueRunner(settings, factory)
     runner.start()
+    from server.selection import fused_screen
+
+    fused_screen.warm_up()  # the ranking's compiled loops, before the first job
     _Worker.factory, _Worker.settings, _Worker.runner = factory, settings, runner
     app = make_app(settings.database_url, sync=False)
     try:
