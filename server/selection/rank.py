@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
-from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 from multiprocessing import get_all_start_methods, get_context
 from typing import Any
@@ -22,7 +22,7 @@ from .library import MissionSpec, PartsLibrary
 from .refine import refine
 from .result import OBJECTIVES, CandidateRow, RankingOutcome, ranking_order
 from .rows import build_rows
-from .stream import Partial, run_chunks, screen_chunk
+from .stream import Partial, screen_chunk
 
 FUSED_CHUNK_FACTOR = 8
 """By default the chunks of the compiled screen (:mod:`.fused_screen`) are this many times the numpy screen's: it
@@ -62,14 +62,31 @@ def chunk_sizes(all_chunks: list[Chunk], the_plan: Plan) -> np.ndarray:
                      * the_plan.blocks[c.block].shape[3] for c in all_chunks], dtype=np.float64)
 
 
-def split_chunks(all_chunks: list[Chunk], the_plan: Plan, count: int) -> list[list[Chunk]]:
-    """Split chunks into ``count`` contiguous groups of about equal candidate counts."""
-    sizes = chunk_sizes(all_chunks, the_plan)
-    if not sizes.size:
-        return []
-    edges = np.searchsorted(np.cumsum(sizes), np.linspace(0, sizes.sum(), count + 1)[1:-1], side="right")
-    groups = np.split(np.arange(len(all_chunks)), edges)
-    return [[all_chunks[i] for i in g] for g in groups if g.size]
+_NEXT: Any = None
+"""The shared index of the next chunk to screen (a ``multiprocessing.Value``), set in each worker at its start."""
+
+
+def _share_counter(counter: Any) -> None:
+    global _NEXT
+    _NEXT = counter
+
+
+def _take(counter: Any, count: int) -> int:
+    """The next chunk index to screen (``count`` or more: none left)."""
+    with counter.get_lock():
+        index = int(counter.value)
+        counter.value = index + 1
+    return index
+
+
+def _screen_shared(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, all_chunks: list[Chunk],
+                   objective: str, pool_size: int, id_ranks: tuple[np.ndarray, ...]) -> Partial:
+    """A worker's share: chunks taken one at a time from the shared counter until none are left."""
+    model = mission.propeller_model(library.propellers)
+    partial = Partial(objective, pool_size, id_ranks)
+    while (index := _take(_NEXT, len(all_chunks))) < len(all_chunks):
+        screen_chunk(partial, library, mission, model, the_plan, all_chunks[index])
+    return partial
 
 
 def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropModel, the_plan: Plan,
@@ -77,53 +94,36 @@ def _screen_parallel(library: PartsLibrary, mission: MissionSpec, model: PropMod
                      should_cancel: Callable[[], bool] | None) -> bool:
     """Screen with ``processes - 1`` forked processes plus this one; returns True when cancelled.
 
-    The chunks are cut into ``4 processes`` contiguous tasks. All but the first go to the pool; this process
-    screens the first itself, then takes back (cancels and runs) tasks the pool has not started yet, last first,
-    so that no core idles while work is queued. Partials merge in any order with the same result.
+    Every process takes the next chunk from one shared counter until none are left, so no core idles while a
+    chunk is waiting (the last chunks end within about one chunk's time of each other). Cancelling moves the
+    counter past the end: every process stops after its current chunk. Partials merge in any order with the same
+    result.
     """
     method = "fork" if "fork" in get_all_start_methods() else "spawn"
     if fused_screen.supports(mission, model):
         fused_screen.warm_up()  # compiled (or loaded from the cache) once, before the workers fork
-    tasks = split_chunks(all_chunks, the_plan, processes * 4)
+    context = get_context(method)
+    counter = context.Value("q", 0)
+    count = len(all_chunks)
     total = max(the_plan.evaluated, 1)
-    if not tasks:
-        return False
-    with ProcessPoolExecutor(max_workers=processes - 1, mp_context=get_context(method)) as pool:
-        futures = [pool.submit(run_chunks, library, mission, the_plan, task, partial.objective, partial.pool_size,
-                               partial.id_ranks) for task in tasks[1:]]
-        pending: set[Future[Partial]] = set(futures)
-        own: list[list[Chunk]] = [tasks[0]]
-        stealable = list(zip(futures, tasks[1:], strict=True))
-
-        def collect(timeout: float | None) -> None:
-            nonlocal pending
-            if not pending:
-                return
-            done, pending = wait(pending, timeout=timeout, return_when=FIRST_COMPLETED)
-            for future in done:
-                partial.merge(future.result())
-
-        while own or pending:
-            if own:
-                for chunk in own.pop():
-                    if should_cancel is not None and should_cancel():
-                        pool.shutdown(wait=True, cancel_futures=True)
-                        return True
-                    screen_chunk(partial, library, mission, model, the_plan, chunk)
-                    collect(0.0)
-                    progress(SCREEN_SHARE * partial.evaluated / total)
-                while stealable and not own:
-                    future, task = stealable.pop()
-                    if future.cancel():
-                        pending.discard(future)
-                        own.append(task)
-                continue
-            collect(0.2)
-            progress(SCREEN_SHARE * partial.evaluated / total)
+    sizes = np.cumsum(chunk_sizes(all_chunks, the_plan))
+    with ProcessPoolExecutor(max_workers=processes - 1, mp_context=context, initializer=_share_counter,
+                             initargs=(counter,)) as pool:
+        futures = [pool.submit(_screen_shared, library, mission, the_plan, all_chunks, partial.objective,
+                               partial.pool_size, partial.id_ranks) for _ in range(processes - 1)]
+        cancelled = False
+        while (index := _take(counter, count)) < count:
             if should_cancel is not None and should_cancel():
-                pool.shutdown(wait=True, cancel_futures=True)
-                return True
-    return False
+                with counter.get_lock():
+                    counter.value = count
+                cancelled = True
+                break
+            screen_chunk(partial, library, mission, model, the_plan, all_chunks[index])
+            taken = min(int(counter.value), count)
+            progress(SCREEN_SHARE * float(sizes[taken - 1]) / total if taken else 0.0)
+        for future in futures:
+            partial.merge(future.result())
+    return cancelled
 
 
 def rank(library: PartsLibrary, mission: MissionSpec, *, objective: str = "cruise_power", top_n: int = 50,

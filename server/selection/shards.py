@@ -2,7 +2,7 @@
 
 A ranking's chunks (:func:`.rank.prepare`) are a function of its inputs and the chunk size alone, so every worker
 that prepares the same stored snapshot cuts the same chunks and the same shards (contiguous groups of about equal
-candidate counts, :func:`.rank.split_chunks`). Each shard reduces its chunks into a :class:`.stream.Partial`;
+candidate counts, :func:`shard_edges`). Each shard reduces its chunks into a :class:`.stream.Partial`;
 partials merge in any order into the partial of the union (counts add, the best few and the Pareto set and the
 smallest-key rejection examples do not depend on arrival order), and :func:`.rank.finish` turns the merged partial
 into exactly the outcome of the unsharded :func:`.rank.rank`. Partials travel between processes as ``.npz`` bytes

@@ -125,13 +125,3 @@ def _screen_fused(partial: Partial, library: PartsLibrary, mission: MissionSpec,
         partial.add_candidates(cs)
         partial.front.add(cs)
     return out.size
-
-
-def run_chunks(library: PartsLibrary, mission: MissionSpec, the_plan: Plan, chunks: list[Chunk], objective: str,
-               pool_size: int, id_ranks: tuple[np.ndarray, ...]) -> Partial:
-    """Screen a list of chunks in a fresh partial (the unit of work of a worker process)."""
-    model = mission.propeller_model(library.propellers)
-    partial = Partial(objective, pool_size, id_ranks)
-    for chunk in chunks:
-        screen_chunk(partial, library, mission, model, the_plan, chunk)
-    return partial
