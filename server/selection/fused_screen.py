@@ -222,6 +222,8 @@ def _full_throttle_lanes(voc: float, loop: float, sag: float, kv: float, i0: flo
                          ratio: np.ndarray) -> None:
     """Full-throttle points (d = 1) of one motor on every propeller lane: propeller_segments.full_throttle.
 
+    ``kt`` and ``kq`` are per lane (the propeller of lane i is ``qs[i]``).
+
     Lanes are solved together (independent Newton chains overlap in the processor), each until its own step is
     small. Writes thrust [N], motor current [A], bus voltage [V] and momentum ratio [-] per lane.
     """
@@ -230,13 +232,14 @@ def _full_throttle_lanes(voc: float, loop: float, sag: float, kv: float, i0: flo
     drive = voc - loop * i0
     for i in range(n):
         seg[i] = 0
+        w3[i] = gamma0 * kq[i]
     for j in range(speed_knots_t.shape[0]):
         for i in range(n):
-            seg[i] += (drive - beta * speed_knots_t[j, i]) > (gamma0 * kq[qs[i]]) * torque_knots_t[j, i]
+            seg[i] += (drive - beta * speed_knots_t[j, i]) > w3[i] * torque_knots_t[j, i]
     for i in range(n):
         q = qs[i]
         s = seg[i]
-        gamma = gamma0 * kq[q]
+        gamma = w3[i]
         y[i] = 2.0 * drive / (beta + math.sqrt(beta * beta + 4.0 * gamma * cp_mid[q, s] * drive))
         gc = gamma * cp_a[q, s]
         gd = gamma * cp_b[q, s]
@@ -279,8 +282,8 @@ def _full_throttle_lanes(voc: float, loop: float, sag: float, kv: float, i0: flo
         ct = ct_a[q, s] + ct_b[q, s] * v
         cp = cp_a[q, s] + cp_b[q, s] * v
         y2 = v * v
-        c = i0 + kv * (kq[q] * cp * y2)
-        thrust[i] = kt[q] * ct * y2
+        c = i0 + kv * (kq[i] * cp * y2)
+        thrust[i] = kt[i] * ct * y2
         current[i] = c
         bus[i] = voc - sag * c
         ratio[i] = _momentum_ratio(ct, cp)
@@ -427,6 +430,11 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
     cp_arr = np.empty(n_q)
     tau_arr = np.empty(n_q)
     mass = np.empty(n_q)
+    kt_l = np.empty(n_q)  # the propellers' constants per lane (contiguous, no gather in the lane loops)
+    kq_l = np.empty(n_q)
+    for i in range(n_q):
+        kt_l[i] = kt[qs[i]]
+        kq_l[i] = kq[qs[i]]
     bits = np.empty(n_q, dtype=np.int64)
     jumped = np.empty(n_q, dtype=np.bool_)
     metrics_lane = np.empty((4, n_q))
@@ -444,10 +452,10 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
             beta = _RPM_TO_RAD_S / kv
             for u in range(n_u):
                 loop = (r_motor + distinct[u]) + load
-                _full_throttle_lanes(voc_low, loop, load, kv, i0, beta, qs, kt, kq, speed_knots_t, torque_knots_t,
+                _full_throttle_lanes(voc_low, loop, load, kv, i0, beta, qs, kt_l, kq_l, speed_knots_t, torque_knots_t,
                                      cp_a, cp_b, cp_mid, ct_a, ct_b, seg_lo, seg_hi, seg, y, w1, w2, w3, w4, prev,
                                      act, low_thrust[u], low_current[u], low_bus[u], low_mr[u])
-                _full_throttle_lanes(voc_full, loop, load, kv, i0, beta, qs, kt, kq, speed_knots_t, torque_knots_t,
+                _full_throttle_lanes(voc_full, loop, load, kv, i0, beta, qs, kt_l, kq_l, speed_knots_t, torque_knots_t,
                                      cp_a, cp_b, cp_mid, ct_a, ct_b, seg_lo, seg_hi, seg, y, w1, w2, w3, w4, prev,
                                      act, full_thrust[u], full_current[u], full_bus[u], full_mr[u])
             for ie in range(n_e):
@@ -461,7 +469,7 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                 for i in range(n_q):
                     m_kg = base_mass + n_r * (esc_mass + (motor_mass + prop_mass[i]))
                     mass[i] = m_kg
-                    tau_arr[i] = (m_kg * thrust_factor) / kt[qs[i]]
+                    tau_arr[i] = (m_kg * thrust_factor) / kt_l[i]
                     seg[i] = 0
                 for j in range(thrust_knots_t.shape[0]):
                     for i in range(n_q):
@@ -520,7 +528,7 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                     ct_arr[i] = w1[i] + w2[i] * v
                     cp = cp_a[q, s] + cp_b[q, s] * v
                     cp_arr[i] = cp
-                    c = i0 + kv * ((kq[q] * cp) * (v * v))
+                    c = i0 + kv * ((kq_l[i] * cp) * (v * v))
                     mv = v * beta + c * series
                     current[i] = c
                     motor_v[i] = mv
