@@ -55,6 +55,12 @@ def _compare(out: str) -> tuple[str, str, str, bool]:
     return f"{warm:.1f} ms", f"trivial endpoint {trivial:.1f} ms", f"{warm / trivial:.1f}×", warm <= 30.0
 
 
+def _compare_page(out: str) -> tuple[str, str, str, bool]:
+    page = _number(r"page warm median ([\d.]+) ms", out)
+    trivial = _number(r"trivial endpoint's ([\d.]+) ms", out)
+    return f"{page:.1f} ms", f"trivial endpoint {trivial:.1f} ms", f"{page / trivial:.1f}×", page <= 30.0
+
+
 def _refit(out: str) -> tuple[str, str, str, bool]:
     pool = _number(r"pool \(.*\): ([\d.]+) s median", out)
     one = _number(r"one run \(.*\): ([\d.]+) s median", out)
@@ -89,6 +95,7 @@ def _ranking(minimum: float) -> Callable[[str], tuple[str, str, str, bool]]:
 FIGURES = [
     Figure("predict with endurance (server median, in process)", "predict.py", ("--n", "30"), "≤ 100 ms", _predict),
     Figure("compare.json, 3 entries (server median, warm)", "compare.py", ("--n", "15"), "≤ 30 ms", _compare),
+    Figure("compare page, 3 entries (server median, warm)", "compare.py", ("--n", "15"), "≤ 30 ms", _compare_page),
     Figure("refit, 50 runs × 200 samples", "refit.py", ("--runs", "50", "--samples", "200", "--repeat", "3"),
            "≤ 2 s", _refit),
     Figure("bench upload, 10 000 rows (response)", "uploads.py", ("--rows", "10000", "--body-mb", "1"), "≤ 1 s",
@@ -115,6 +122,7 @@ def main() -> None:
     args = parser.parse_args()
     only = {s.strip() for s in args.only.split(",") if s.strip()}
     rows = []
+    runs: dict[str, subprocess.CompletedProcess[str]] = {}
     started = time.perf_counter()
     load_before = _load()
     for figure in FIGURES:
@@ -123,12 +131,14 @@ def main() -> None:
             continue
         argv = figure.quick_args if args.quick and figure.quick_args else figure.args
         command = f"python benchmarks/{figure.script} {' '.join(argv)}"
-        print(f"$ {command}", flush=True)
-        t = time.perf_counter()
-        done = subprocess.run([sys.executable, str(HERE / figure.script), *argv], capture_output=True, text=True,
-                              cwd=HERE.parent, check=False)
-        print(f"  ({time.perf_counter() - t:.0f} s) {done.stdout.strip().splitlines()[-1] if done.stdout else ''}",
-              flush=True)
+        if command not in runs:  # figures read from the same command share one run of it
+            print(f"$ {command}", flush=True)
+            t = time.perf_counter()
+            runs[command] = subprocess.run([sys.executable, str(HERE / figure.script), *argv], capture_output=True,
+                                           text=True, cwd=HERE.parent, check=False)
+            out = runs[command].stdout
+            print(f"  ({time.perf_counter() - t:.0f} s) {out.strip().splitlines()[-1] if out else ''}", flush=True)
+        done = runs[command]
         try:
             if done.returncode != 0:
                 raise ValueError(done.stderr.strip().splitlines()[-1] if done.stderr.strip() else "failed")
