@@ -201,6 +201,8 @@ class Prepared:
     plan: Plan
     chunks: list[Chunk]
     id_ranks: tuple[np.ndarray, ...]
+    default_chunk: int = DEFAULT_CHUNK_SIZE
+    """The mission's default chunk size (:func:`default_chunk_size`), the largest shards cut."""
 
     @property
     def pool_size(self) -> int:
@@ -214,6 +216,11 @@ class Prepared:
         return replace(self, chunks=list(chunks(self.plan, chunk_size)))
 
 
+def default_chunk_size(mission: MissionSpec, model: PropModel) -> int:
+    """Candidates per chunk by default: the compiled screen keeps ~50 B per candidate, the numpy one ~1 kB."""
+    return DEFAULT_CHUNK_SIZE * (FUSED_CHUNK_FACTOR if fused_screen.supports(mission, model) else 1)
+
+
 def prepare(library: PartsLibrary, mission: MissionSpec, *, objective: str, top_n: int,
             chunk_size: int | None = None) -> Prepared:
     """Check the arguments, build the propeller model, the plan (part-level pruning) and its chunks."""
@@ -223,9 +230,9 @@ def prepare(library: PartsLibrary, mission: MissionSpec, *, objective: str, top_
         raise ValueError("top_n must be >= 0, chunk_size and processes >= 1")
     model = mission.propeller_model(library.propellers)
     the_plan = plan(library, mission, model)
-    if chunk_size is None:  # the compiled screen keeps ~50 B per candidate, not ~1 kB
-        chunk_size = DEFAULT_CHUNK_SIZE * (FUSED_CHUNK_FACTOR if fused_screen.supports(mission, model) else 1)
-    return Prepared(objective, top_n, model, the_plan, list(chunks(the_plan, chunk_size)), _id_ranks(library))
+    default = default_chunk_size(mission, model)
+    return Prepared(objective, top_n, model, the_plan, list(chunks(the_plan, chunk_size or default)),
+                    _id_ranks(library), default)
 
 
 def _counts(the_plan: Plan, partial: Partial) -> tuple[dict[str, int], dict[str, int]]:

@@ -20,7 +20,6 @@ from typing import Any
 
 import numpy as np
 
-from .enumerate import DEFAULT_CHUNK_SIZE
 from .examples import Examples
 from .library import MissionSpec, PartsLibrary
 from .rank import Prepared, chunk_sizes, finish, prepare
@@ -39,8 +38,8 @@ def shard_count(prepared: Prepared, combinations_per_shard: int) -> int:
 
 def shard_chunking(prepared: Prepared, count: int) -> Prepared:
     """The ranking cut into chunks small enough for ``count`` shards: about four chunks per shard, never above the
-    default size. A function of the inputs and ``count`` alone, so every worker cuts the same chunks."""
-    size = min(DEFAULT_CHUNK_SIZE, max(1, math.ceil(prepared.plan.evaluated / (4 * count))))
+    mission's default size. A function of the inputs and ``count`` alone, so every worker cuts the same chunks."""
+    size = min(prepared.default_chunk, max(1, math.ceil(prepared.plan.evaluated / (4 * count))))
     return prepared.rechunked(size)
 
 
