@@ -16,7 +16,7 @@ from server.errors import FieldError, InvalidInput, NotFound
 from server.models import BenchRun, Calibration, Esc, Motor, Propeller
 from server.physics import ENGINE_VERSION, thermal
 from server.physics._types import RAD_S_PER_RPM
-from server.physics.calibrate import JointFit, MotorPrior, RunData, fit_joint
+from server.physics.calibrate import POOL_SAMPLE_LIMIT, JointFit, MotorPrior, RunData, fit_joint, thinned
 from server.services import parts as parts_service
 from server.services import power_system as ps
 from server.services.calibration_report import parameter_changes, pool_latest
@@ -98,8 +98,9 @@ def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, A
         assert motor is not None
         priors[str(motor_id)] = MotorPrior(motor.kv_rpm_per_v, motor.winding_resistance_ohm,
                                            motor.no_load_current_a)
+    pool, stride = thinned([rd for _, rd in data], POOL_SAMPLE_LIMIT)
     try:
-        fit = fit_joint([rd for _, rd in data], esc=base, motor_priors=priors)
+        fit = fit_joint(pool, esc=base, motor_priors=priors)
     except (ValueError, np.linalg.LinAlgError) as exc:
         return {"calibrations": [], "error": f"the fit did not converge: {exc}"}
     run_ids = [r.id for r, _ in data]
@@ -111,6 +112,12 @@ def calibrate_esc(session: Session, *, team_id: int, esc_id: int) -> dict[str, A
         stored.append(_store_motor(session, team_id, int(motor_key), fit, mfit, run_ids, heat))
     for prop_id, pfit in fit.propellers.items():
         stored.append(_store_propeller(session, team_id, int(prop_id), pfit, run_ids))
+    if stride > 1:  # the pool was thinned to bound the refit's cost: say so under every part it calibrated
+        total = sum(int(rd.rpm.size) for _, rd in data)
+        for calibration in stored:
+            note = (f"fitted on every {stride}th sample of each run (and every full-throttle sample): the pool's "
+                    f"{total} samples exceed the {POOL_SAMPLE_LIMIT} a refit uses")
+            calibration.notes = f"{calibration.notes}; {note}" if calibration.notes else note
     session.flush()
     changes = [change for c in stored if (c.part_kind, c.part_id) in before
                for change in parameter_changes(before[(c.part_kind, c.part_id)], c)]

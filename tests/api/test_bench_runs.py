@@ -16,6 +16,7 @@ from fastapi.testclient import TestClient
 
 from server.db import transaction
 from server.models import BenchRun, BenchSample, Calibration
+from server.services import calibrations
 from tests.bench_runs.reference import load_tests
 from tests.bench_runs.test_idle_thrust import csv_of as reference_csv
 from tests.factories import TeamFixture, make_team, part_payload
@@ -389,3 +390,17 @@ def test_a_tested_esc_is_not_beaten_by_its_untested_twin(
     assert rows[0]["indistinguishable_from_best"] is True
     assert same["indistinguishable_from_best"] is True  # identical central values: bands overlap
     assert untested["assumed_share"] > 0 and tested["assumed_share"] == 0
+
+
+def test_a_pool_above_the_sample_limit_is_fitted_thinned_and_says_so(
+    client: TestClient, stand: tuple[TeamFixture, dict[str, int]], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # The bound on a refit's cost (physics.calibrate.POOL_SAMPLE_LIMIT, 50 000 samples) lowered to 20 samples so
+    # that the reference sweeps exceed it: the fit still calibrates the motor, on every k-th sample, and says so.
+    monkeypatch.setattr(calibrations, "POOL_SAMPLE_LIMIT", 20)
+    team, ids = stand
+    upload_sweeps(client, team, ids)
+    history = client.get(f"/api/v1/parts/motors/{ids['motor']}/calibrations", headers=team.headers()).json()
+    assert history[0]["active"] and "fitted on every" in history[0]["notes"]
+    assert "exceed the 20 a refit uses" in history[0]["notes"]
+    assert history[0]["parameters"]["kv_rpm_per_v"]["value"] > 0

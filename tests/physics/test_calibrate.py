@@ -19,6 +19,7 @@ from server.physics.calibrate import (
     fit_joint,
     fit_motor,
     fit_propeller_static,
+    thinned,
 )
 from server.physics.esc import EscParams
 from server.physics.motor import MotorParams
@@ -129,6 +130,27 @@ def test_joint_fit_recovers_known_parameters_within_three_standard_errors() -> N
         for k, cp in enumerate(table.power_coefficient):  # CP from electrical power only: within 3 SE
             assert abs(cp - prop.power_coefficient[0]) <= 3 * table.parameters[f"cp[{k}]"].standard_error
     assert fit.residual_rms < 0.01 and fit.samples_used == 12 * DUTIES.size
+
+
+def test_a_thinned_pool_keeps_every_full_throttle_sample_and_recovers_the_same_parameters() -> None:
+    # round trip as above (known parameters + 0.3 % noise): the pool thinned to half its samples (the bound on a
+    # refit's cost) still recovers every identified parameter within 3 of its (larger) standard errors
+    runs = synthetic_runs()
+    total = sum(run.rpm.size for run in runs)
+    pool, stride = thinned(runs, limit=total // 2)
+    assert stride == 2 and sum(run.rpm.size for run in pool) <= total // 2 + len(runs)
+    for run, kept in zip(runs, pool, strict=True):
+        assert np.count_nonzero(kept.duty >= 1.0) == np.count_nonzero(run.duty >= 1.0) > 0
+        assert kept.throttle[0] == run.throttle[0]
+    whole, part = fit_joint(runs), fit_joint(pool)
+    assert part.samples_used < whole.samples_used
+    for mid, motor in TRUE_MOTORS.items():
+        for name, truth in (("kv_rpm_per_v", float(motor.kv_rpm_per_v)), ("no_load_current_a",
+                                                                           float(motor.no_load_current_a))):
+            p, q = part.motors[mid].parameters[name], whole.motors[mid].parameters[name]
+            assert p.status == "identified" and abs(p.value - truth) <= 3 * p.standard_error
+            assert p.standard_error >= q.standard_error
+    assert thinned(runs, limit=total) == (runs, 1)
 
 
 def test_fitted_model_predicts_an_untested_voltage() -> None:

@@ -34,6 +34,7 @@ from ._common import (
     DATASHEET_RELATIVE_SIGMA,
     KV_PRIOR_RELATIVE_SIGMA,
     MAX_RELATIVE_STANDARD_ERROR,
+    POOL_SAMPLE_LIMIT,
     EscFit,
     FitReport,
     FittedParameter,
@@ -42,12 +43,13 @@ from ._common import (
     MotorPrior,
     PropellerFit,
     RunData,
+    thinned,
 )
 from .drive import fit_esc, fit_joint, fit_motor
 from .propeller import fit_propeller_static
 
 __all__ = [
-    "DATASHEET_RELATIVE_SIGMA", "KV_PRIOR_RELATIVE_SIGMA", "MAX_RELATIVE_STANDARD_ERROR", "EscFit", "FitReport",
-    "FittedParameter", "JointFit", "MotorFit", "MotorPrior", "PropellerFit", "RunData", "fit_esc", "fit_joint",
-    "fit_motor", "fit_propeller_static",
+    "DATASHEET_RELATIVE_SIGMA", "KV_PRIOR_RELATIVE_SIGMA", "MAX_RELATIVE_STANDARD_ERROR", "POOL_SAMPLE_LIMIT",
+    "EscFit", "FitReport", "FittedParameter", "JointFit", "MotorFit", "MotorPrior", "PropellerFit", "RunData",
+    "fit_esc", "fit_joint", "fit_motor", "fit_propeller_static", "thinned",
 ]

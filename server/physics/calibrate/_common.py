@@ -153,6 +153,33 @@ class RunData:
         return np.clip(self.duty_offset + self.duty_slope * self.throttle, 0.0, 1.0)
 
 
+POOL_SAMPLE_LIMIT = 50_000
+"""About the most samples one pooled fit uses (a bound on a refit's cost: ~1 s here, ``benchmarks/refit.py``)."""
+
+
+def thinned(runs: list[RunData], limit: int = POOL_SAMPLE_LIMIT) -> tuple[list[RunData], int]:
+    """The runs with every k-th sample kept, k the smallest stride that brings the pool to about ``limit`` samples,
+    and k (1: the runs unchanged).
+
+    Each run keeps its first sample, every k-th after it (a throttle sweep keeps its range) and every sample at
+    full throttle (the samples that enter the voltage equation), so the pool's information is thinned evenly; the
+    standard errors are those of the thinned pool (larger than the whole pool's would be).
+    """
+    total = sum(int(run.rpm.size) for run in runs)
+    stride = max(1, math.ceil(total / limit))
+    if stride == 1:
+        return list(runs), 1
+    out = []
+    for run in runs:
+        keep = np.zeros(run.rpm.size, dtype=bool)
+        keep[::stride] = True
+        keep |= run.duty >= 1.0
+        out.append(replace(run, bus_voltage_v=run.bus_voltage_v[keep], bus_current_a=run.bus_current_a[keep],
+                           rpm=run.rpm[keep], thrust_n=run.thrust_n[keep], throttle=run.throttle[keep],
+                           torque_nm=None if run.torque_nm is None else run.torque_nm[keep]))
+    return out, stride
+
+
 @dataclass(frozen=True)
 class MotorPrior:
     """Datasheet values (None = unknown); Kv is usually the label."""
