@@ -57,7 +57,6 @@ def cautions(compare: dict[str, Any]) -> list[str]:
 
 def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: int, status_code: int = 200,
                   **extra: Any) -> HTMLResponse:
-    shortlist = shortlists_service.get(session, team_id=caller.team_id, shortlist_id=shortlist_id)
     compare = shortlist_compare.compare(session, team_id=caller.team_id, shortlist_id=shortlist_id)
     charts = {
         "required_thrust_n": compare["required_thrust_per_rotor_n"],
@@ -69,10 +68,10 @@ def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: 
                     "full_throttle": {"thrust_n": e["metrics"]["full_throttle"]["thrust_n"]}}
                    for i, e in enumerate(compare["entries"])],
     }
-    options = {kind: parts_service.list_parts(session, team_id=caller.team_id, kind=kind, page_size=500)[0]
+    options = {kind: parts_service.choices(session, team_id=caller.team_id, kind=kind)
                for kind in ("batteries", "escs", "motors", "propellers")}
     point = rankings_service.point_word(compare["mission"]["kind"]).capitalize()
-    ctx = {"caller": caller, "nav": "shortlists", "shortlist": shortlists_service.read(session, shortlist),
+    ctx = {"caller": caller, "nav": "shortlists", "shortlist": compare["shortlist"],
            "compare": compare, "charts": charts, "cautions": cautions(compare), "options": options, "errors": [],
            "changes": None, "values": {}, "point_label": point, "kind_words": {k: w[0] for k, w in KIND_WORDS.items()},
            "currencies": sorted({e["metrics"]["currency"] for e in compare["entries"]

@@ -141,6 +141,14 @@ def list_parts(
     return rows, int(total)
 
 
+def choices(session: Session, *, team_id: int, kind: str, limit: int = MAX_PAGE_SIZE) -> list[Any]:
+    """The team's parts of ``kind`` a form offers (not archived; the first ``limit`` in natural name order, as
+    :func:`list_parts` orders them): rows of ``id``, ``name`` and ``part_number`` only, no ORM objects."""
+    model = model_for(kind)
+    rows = session.execute(select(model.id, model.name, model.part_number)
+                           .where(model.team_id == team_id, model.archived.is_(False)).order_by(model.id))
+    return naturally(rows, lambda p: p.name)[:limit]
+
 def by_ids(session: Session, *, team_id: int, ids: Mapping[str, Iterable[int]]) -> dict[str, dict[int, PartColumns]]:
     """The team's parts of each kind with the given ids (archived ones too), by id; unknown ids are left out."""
     out: dict[str, dict[int, PartColumns]] = {}

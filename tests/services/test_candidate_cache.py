@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import shutil
 from collections import OrderedDict
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -113,3 +114,41 @@ def test_preloaded_rows_give_the_same_key_as_loading_them(app: FastAPI, client: 
                                       preloaded=loaded)
         assert shared == alone
         assert loaded.calibrations  # the demo has active calibrations, so they are part of the key
+
+
+def test_a_cached_evaluation_equals_a_fresh_one_and_belongs_to_its_caller(app: FastAPI, client: TestClient,
+                                                                          monkeypatch: pytest.MonkeyPatch) -> None:
+    """A hit (unpickled from the cache) holds exactly the numbers of a fresh evaluation, curves included, and is the
+    caller's own copy: changing it (as with_scopes does) never changes what the next caller gets."""
+    monkeypatch.setattr(candidate, "_cache", OrderedDict())
+    with app.state.sessionmaker() as session:
+        mission, ids = _ids(session)
+        kw: dict[str, Any] = {"team_id": mission.team_id, "mission": mission, "ids": ids, "with_curves": True}
+        first = candidate.evaluate(session, **kw)
+        assert len(candidate._cache) == 1
+        hit = candidate.evaluate(session, **kw)
+        assert hit == first == candidate._evaluate(session, **kw)
+        assert hit["curves"]["thrust_n"] and hit is not first
+        hit["cruise"]["electrical_power_w"] = -1.0
+        hit["curves"]["thrust_n"].clear()
+        first["margins"].clear()
+        again = candidate.evaluate(session, **kw)
+        assert again["cruise"]["electrical_power_w"] > 0 and again["curves"]["thrust_n"] and again["margins"]
+        assert again == candidate._evaluate(session, **kw)
+
+
+def test_one_preload_for_several_candidates_gives_each_its_own_key(app: FastAPI, client: TestClient) -> None:
+    """The compare view digests each preloaded row once for all its entries: every entry's key is still the key it
+    gets alone, and entries that differ in one part (or in the packs in parallel) get different keys."""
+    with app.state.sessionmaker() as session:
+        mission, ids = _ids(session)
+        other_esc = session.scalars(select(PART_MODELS["escs"].id).where(PART_MODELS["escs"].part_number == "NS-E20")
+                                    ).one()
+        entries = [ids, replace(ids, esc_id=other_esc), replace(ids, packs_in_parallel=2), ids]
+        loaded = candidate.preload(session, team_id=mission.team_id, candidates=entries)
+        shared = [candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=e, with_curves=True,
+                                       preloaded=loaded) for e in entries]
+        alone = [candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=e, with_curves=True)
+                 for e in entries]
+        assert shared == alone
+        assert len(set(shared)) == 3 and shared[0] == shared[3]
