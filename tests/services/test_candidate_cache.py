@@ -109,9 +109,8 @@ def test_preloaded_rows_give_the_same_key_as_loading_them(app: FastAPI, client: 
     with app.state.sessionmaker() as session:
         mission, ids = _ids(session)
         loaded = candidate.preload(session, team_id=mission.team_id, candidates=[ids])
-        alone = candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=ids, with_curves=True)
-        shared = candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=ids, with_curves=True,
-                                      preloaded=loaded)
+        alone = candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=ids)
+        shared = candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=ids, preloaded=loaded)
         assert shared == alone
         assert loaded.calibrations  # the demo has active calibrations, so they are part of the key
 
@@ -137,6 +136,28 @@ def test_a_cached_evaluation_equals_a_fresh_one_and_belongs_to_its_caller(app: F
         assert again == candidate._evaluate(session, **kw)
 
 
+def test_one_evaluation_serves_with_and_without_curves(app: FastAPI, client: TestClient,
+                                                       monkeypatch: pytest.MonkeyPatch) -> None:
+    """The snapshot of an added entry (no curves) and the compare view (curves) share one cached evaluation: the
+    first call computes it with its curves, and either answer equals a fresh evaluation of its own kind exactly,
+    key order included (the snapshot is stored as JSON)."""
+    calls = []
+    real = candidate._evaluate
+    monkeypatch.setattr(candidate, "_evaluate", lambda *a, **k: calls.append(k["with_curves"]) or real(*a, **k))
+    monkeypatch.setattr(candidate, "_cache", OrderedDict())
+    with app.state.sessionmaker() as session:
+        mission, ids = _ids(session)
+        kw: dict[str, Any] = {"team_id": mission.team_id, "mission": mission, "ids": ids}
+        plain = candidate.evaluate(session, **kw)
+        drawn = candidate.evaluate(session, **kw, with_curves=True)
+        assert calls == [True]
+        assert "curves" not in plain and drawn["curves"]["discharge_time_min"]
+        fresh_plain, fresh_drawn = real(session, **kw), real(session, **kw, with_curves=True)
+        assert list(plain) == list(fresh_plain) and plain == fresh_plain
+        assert list(drawn) == list(fresh_drawn) and drawn == fresh_drawn
+        assert candidate.evaluate(session, **kw) == fresh_plain and calls == [True]
+
+
 def test_one_preload_for_several_candidates_gives_each_its_own_key(app: FastAPI, client: TestClient) -> None:
     """The compare view digests each preloaded row once for all its entries: every entry's key is still the key it
     gets alone, and entries that differ in one part (or in the packs in parallel) get different keys."""
@@ -146,9 +167,8 @@ def test_one_preload_for_several_candidates_gives_each_its_own_key(app: FastAPI,
                                     ).one()
         entries = [ids, replace(ids, esc_id=other_esc), replace(ids, packs_in_parallel=2), ids]
         loaded = candidate.preload(session, team_id=mission.team_id, candidates=entries)
-        shared = [candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=e, with_curves=True,
-                                       preloaded=loaded) for e in entries]
-        alone = [candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=e, with_curves=True)
-                 for e in entries]
+        shared = [candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=e, preloaded=loaded)
+                  for e in entries]
+        alone = [candidate._cache_key(session, team_id=mission.team_id, mission=mission, ids=e) for e in entries]
         assert shared == alone
         assert len(set(shared)) == 3 and shared[0] == shared[3]
