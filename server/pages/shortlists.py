@@ -68,8 +68,8 @@ def _compare_page(request: Request, session: Any, caller: Caller, shortlist_id: 
                     "full_throttle": {"thrust_n": e["metrics"]["full_throttle"]["thrust_n"]}}
                    for i, e in enumerate(compare["entries"])],
     }
-    options = {kind: parts_service.choices(session, team_id=caller.team_id, kind=kind)
-               for kind in ("batteries", "escs", "motors", "propellers")}
+    options = parts_service.choices(session, team_id=caller.team_id,
+                                    kinds=[kind for kind, _ in shortlist_compare.PART_KINDS])
     point = rankings_service.point_word(compare["mission"]["kind"]).capitalize()
     ctx = {"caller": caller, "nav": "shortlists", "shortlist": compare["shortlist"],
            "compare": compare, "charts": charts, "cautions": cautions(compare), "options": options, "errors": [],

@@ -13,7 +13,7 @@ from datetime import datetime
 from typing import Any, Literal, overload
 
 from pydantic import BaseModel, ValidationError
-from sqlalchemy import Column, func, or_, select
+from sqlalchemy import Column, func, literal, or_, select, union_all
 from sqlalchemy.orm import Session
 
 from server.csv_cells import csv_writer, unescape_cell
@@ -141,13 +141,18 @@ def list_parts(
     return rows, int(total)
 
 
-def choices(session: Session, *, team_id: int, kind: str, limit: int = MAX_PAGE_SIZE) -> list[Any]:
-    """The team's parts of ``kind`` a form offers (not archived; the first ``limit`` in natural name order, as
-    :func:`list_parts` orders them): rows of ``id``, ``name`` and ``part_number`` only, no ORM objects."""
-    model = model_for(kind)
-    rows = session.execute(select(model.id, model.name, model.part_number)
-                           .where(model.team_id == team_id, model.archived.is_(False)).order_by(model.id))
-    return naturally(rows, lambda p: p.name)[:limit]
+def choices(session: Session, *, team_id: int, kinds: Sequence[str],
+            limit: int = MAX_PAGE_SIZE) -> dict[str, list[Any]]:
+    """The team's parts of each of ``kinds`` a form offers (not archived; the first ``limit`` in natural name order, as
+    :func:`list_parts` orders them), in one query: rows of ``id``, ``name`` and ``part_number`` only, no ORM objects."""
+    picks = [select(literal(kind).label("kind"), model.id, model.name, model.part_number)
+             .where(model.team_id == team_id, model.archived.is_(False))
+             for kind, model in ((kind, model_for(kind)) for kind in kinds)]
+    by_kind: dict[str, list[Any]] = {kind: [] for kind in kinds}
+    for row in session.execute(union_all(*picks).order_by("kind", "id")):
+        by_kind[row.kind].append(row)
+    return {kind: naturally(rows, lambda p: p.name)[:limit] for kind, rows in by_kind.items()}
+
 
 def by_ids(session: Session, *, team_id: int, ids: Mapping[str, Iterable[int]]) -> dict[str, dict[int, PartColumns]]:
     """The team's parts of each kind with the given ids (archived ones too), by id; unknown ids are left out."""

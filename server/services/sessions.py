@@ -8,7 +8,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 
 from sqlalchemy import delete, func, select, update
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from server.config import Settings
 from server.models import LoginFailure, LoginSession, Membership, User
@@ -43,8 +43,8 @@ def resolve(session: Session, token: str) -> Membership | None:
     expires = login.expires_at if login.expires_at.tzinfo else login.expires_at.replace(tzinfo=UTC)
     if not active or expires <= _now():
         return None
-    return session.scalar(select(Membership).where(Membership.user_id == login.user_id,
-                                                   Membership.team_id == login.team_id))
+    return session.scalar(select(Membership).options(joinedload(Membership.team))  # every page shows the team's name
+                          .where(Membership.user_id == login.user_id, Membership.team_id == login.team_id))
 
 
 def end(session: Session, token: str) -> None:

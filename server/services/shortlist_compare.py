@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from server.models import Mission, Shortlist, User
 from server.physics import ENGINE_VERSION
@@ -97,7 +97,7 @@ def _best(values: list[Any], better: str | None, flying: list[bool]) -> list[int
 def compare(session: Session, *, team_id: int, shortlist_id: int) -> dict[str, Any]:
     """Fresh numbers for every entry (current engine and calibrations), rows with the best value marked."""
     shortlist: Shortlist = get(session, team_id=team_id, shortlist_id=shortlist_id)
-    mission = session.get(Mission, shortlist.mission_id)
+    mission = session.get(Mission, shortlist.mission_id, options=[joinedload(Mission.airframe)])  # one query
     assert mission is not None
     entries: list[dict[str, Any]] = []
     loaded = candidate.preload(session, team_id=team_id, candidates=[candidate_ids(e) for e in shortlist.entries])
