@@ -252,9 +252,13 @@ def cruise_point(batch: Batch, model: PropModel, rotor_count: float, thrust_n: n
         solved = feasible & ~jump & (converged | at_full) & np.isfinite(bus) & (duty > 0) & (duty <= 1.0)
         extra = np.where(at_full, 0.0, esc_model.extra_loss_below_full_w(coefs, bus, motor_v))
         bus_current = duty * current + extra / bus
+        # Where no balanced bus voltage exists the bus values are those of an unfinished iteration (how far it got
+        # depends on the other candidates iterated with it): NaN instead, so every check on them fails alike.
+        reachable = solved | jump
+        bus, duty, extra, bus_current = (np.where(reachable, a, np.nan) for a in (bus, duty, extra, bus_current))
     cruise = Cruise(thrust_n=thrust, speed=y, omega_rad_s=model.omega_rad_s(y), torque_nm=torque,
                     motor_current_a=current, motor_voltage_v=motor_v, bus_voltage_v=bus, duty=duty,
-                    extra_loss_w=extra, bus_current_a=bus_current, reachable=solved | jump,
+                    extra_loss_w=extra, bus_current_a=bus_current, reachable=reachable,
                     momentum_ratio=model.momentum_ratio(batch.q, seg, y), outside_table=model.outside(batch.q, seg))
     if np.any(jump):
         cruise = _saturate(cruise, jump, batch, model, n_r)

@@ -36,6 +36,13 @@ import numpy as np
 from server.physics import motor_out
 from server.physics._types import STANDARD_GRAVITY_M_S2
 from server.physics.drive_screen import BUS_CONVERGED_RTOL, BUS_MAX_ITER, FULL_THROTTLE_SLACK_RTOL
+from server.physics.forward_flight import (
+    COAXIAL_INDUCED_FACTOR,
+    GLAUERT_MAX_ITER,
+    GLAUERT_RTOL,
+    PROFILE_POWER_GROWTH,
+)
+from server.physics.propeller import disk_area_m2
 from server.physics.propeller_segments import NEWTON_MAX_ITER, NEWTON_RTOL, PropModel
 
 from . import pareto
@@ -69,8 +76,7 @@ _FIRST_CODE = np.array([0] + [int(_CHECKED_CODES[(b & -b).bit_length() - 1]) for
 
 def supports(mission: MissionSpec, model: PropModel) -> bool:
     """Whether the compiled loop covers this mission (else :func:`.constraints.screen` is used)."""
-    return (model.axis == "rpm" and not mission.has_flight_state
-            and not mission.temperature_effects and mission.cold_day_temperature_c is None
+    return (model.axis == "rpm" and not mission.temperature_effects and mission.cold_day_temperature_c is None
             and not mission.has_profile)
 
 
@@ -140,7 +146,10 @@ def screen_chunk(library: PartsLibrary, mission: MissionSpec, model: PropModel, 
         math.nan if mission.max_all_up_mass_kg is None else 1000.0 * mission.max_all_up_mass_kg,
         mission.esc_current_margin, mission.usable_fraction * 60.0, mission.min_endurance_min,
         n_r / STANDARD_GRAVITY_M_S2, 1000.0 / STANDARD_GRAVITY_M_S2,
+        *_flight_settings(mission),
     ], dtype=np.float64)
+    diameter = model.diameter_m[prop]
+    prop_lanes = np.stack([disk_area_m2(diameter), 0.5 * diameter])
     size = n_c * n_e * n_m * n_q
     patterns = np.zeros(1 << len(_CHECKED), dtype=np.int64)
     examples = np.full((len(REASONS) + 1, EXAMPLES_PER_REASON), _NO_KEY, dtype=np.int64)
@@ -156,7 +165,7 @@ def screen_chunk(library: PartsLibrary, mission: MissionSpec, model: PropModel, 
     found = _screen_loop(
         f64(config), f64(escs), f64(motors), np.ascontiguousarray(prop, dtype=np.intp), f64(pr.mass_kg[prop]),
         f64(distinct), np.ascontiguousarray(esc_group.ravel(), dtype=np.intp), i64(key_c), i64(key_e), i64(key_m),
-        i64(qr_rank[prop]), settings, f64(model.kt), f64(model.kq), lanes[0], lanes[1], lanes[2],
+        i64(qr_rank[prop]), settings, f64(prop_lanes), f64(model.kt), f64(model.kq), lanes[0], lanes[1], lanes[2],
         f64(model.speed_knots), f64(model.torque_knots), f64(model.ct_a), f64(model.ct_b), f64(model.cp_a),
         f64(model.cp_b), f64(model.cp_mid), f64(model.seg_lo), f64(model.seg_hi), f64(model.seg_root_thrust_lo),
         f64(model.seg_root_thrust_hi), _FIRST_CODE, patterns, examples, feasible, metrics)
@@ -173,6 +182,28 @@ def screen_chunk(library: PartsLibrary, mission: MissionSpec, model: PropModel, 
                       mass_kg=metrics[4])
 
 
+def _flight_settings(mission: MissionSpec) -> list[float]:
+    """The multirotor flight state's constants (forward_flight.craft_thrust_n and flight_state): whether there is
+    one, horizontal airspeed V and climb rate V_c [m/s], air density [kg/m^3], the induced-power factor, and the
+    drag terms ``D V / V_rel`` [N] and ``D / V_rel`` [N s/m] of the flight and of level flight (the descent rule)."""
+    if not mission.has_flight_state:
+        return [0.0] * 8
+    rho = mission.density_kg_m3
+    v = np.float64(mission.horizontal_airspeed_m_s)
+    vc = np.float64(mission.climb_rate_m_s)
+    out = [1.0, float(v), float(vc), rho, COAXIAL_INDUCED_FACTOR if mission.coaxial else 1.0]
+    for climb in (vc, np.float64(0.0)):  # as forward_flight.craft_thrust_n computes them
+        v_rel = np.hypot(v, climb)
+        drag = 0.5 * np.float64(rho) * v_rel * v_rel * np.float64(mission.drag_area_m2)
+        out.append(float(drag / v_rel if v_rel > 0.0 else 0.0))
+    out.insert(6, float(np.float64(out[5]) * v))  # T_x of the flight
+    return out
+
+
+_SETTINGS = 21
+"""Length of the settings vector :func:`screen_chunk` passes (13 mission values, 8 flight-state constants)."""
+
+
 def warm_up() -> None:
     """Compile (or load from numba's cache) the ranking's compiled loops now — this screen's on an empty cube with
     the argument types :func:`screen_chunk` passes, and the Pareto filter's — e.g. before forking screening
@@ -181,7 +212,8 @@ def warm_up() -> None:
     f2, i1, f1 = np.zeros((2, 2)), np.zeros(0, dtype=np.intp), np.zeros(0)
     k1 = np.zeros(0, dtype=np.int64)
     _screen_loop(np.zeros((7, 0)), np.zeros((8, 0)), np.zeros((6, 0)), i1, f1, f1, i1, k1, k1, k1, k1,
-                 np.zeros(13), f1, f1, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, _FIRST_CODE,
+                 np.zeros(_SETTINGS), np.zeros((2, 0)), f1, f1, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2, f2,
+                 f2, f2, _FIRST_CODE,
                  np.zeros(_FIRST_CODE.shape, dtype=np.int64), np.zeros((2, 2), dtype=np.int64), k1, np.zeros((5, 0)))
 
 
@@ -345,6 +377,57 @@ def _keep_example(examples: np.ndarray, code: int, key: int) -> None:
 
 
 @jit
+def _glauert(m: float, x: float) -> float:
+    """forward_flight.glauert_inflow_ratio of one rotor: the largest root ``lam`` of ``lam^2 (m^2 + (x + lam)^2) = 1``
+    by the same bracketed Newton iteration, stopped on this rotor's own step."""
+    m2 = m * m
+    lo = 0.0
+    xp = max(x, 0.0) if x == x else x
+    hi = min(max(0.0, -x) + 1.0, 1.0 / math.sqrt(m2 + xp * xp)) if (x == x and m == m) else math.nan
+    lam = hi
+    for _ in range(GLAUERT_MAX_ITER):
+        s = x + lam
+        g = lam * lam * (m2 + s * s) - 1.0
+        dg = 2.0 * lam * (m2 + s * s) + 2.0 * lam * lam * s
+        lo = lam if g < 0.0 else lo
+        hi = lam if g >= 0.0 else hi
+        new = lam - g / dg
+        new = new if (new >= lo) & (new <= hi) & math.isfinite(new) else 0.5 * (lo + hi)
+        step = abs(new - lam) / max(new, 1e-300)
+        lam = new
+        if not step > GLAUERT_RTOL:
+            break
+    return lam if math.isfinite(m) & math.isfinite(x) else math.nan
+
+
+@jit
+def _flight_lane(weight: float, n_r: float, area: float, settings: np.ndarray) -> tuple[float, float, float, float]:
+    """One rotor's thrust [N], in-plane free stream [m/s], hover ideal power ``T v_h`` [W] and ideal power [W] in
+    the mission's flight state (forward_flight.craft_thrust_n, flight_state; the descent rule)."""
+    v, vc, rho, k, per_speed, t_x, per_speed_0 = settings[14], settings[15], settings[16], settings[17], \
+        settings[18], settings[19], settings[20]
+    total = math.hypot(t_x, weight + per_speed * vc)
+    tilt = math.atan2(t_x, weight + per_speed * vc)
+    thrust = total / n_r
+    v_h = math.sqrt(thrust / (2.0 * rho * area))
+    through = v * math.sin(tilt) + vc * math.cos(tilt)
+    edgewise = abs(v * math.cos(tilt) - vc * math.sin(tilt))
+    lam = _glauert(edgewise / v_h, through / v_h)
+    ideal_per_thrust = k * lam * v_h + through
+    if vc < 0.0:  # descent: no credit below level flight at the same airspeed
+        t_x0 = per_speed_0 * v
+        t_z0 = weight + per_speed_0 * 0.0
+        tilt_0 = math.atan2(t_x0, t_z0)
+        v_h0 = math.sqrt((math.hypot(t_x0, t_z0) / n_r) / (2.0 * rho * area))
+        through_0 = v * math.sin(tilt_0) + 0.0 * math.cos(tilt_0)
+        edgewise_0 = abs(v * math.cos(tilt_0) - 0.0 * math.sin(tilt_0))
+        level = k * _glauert(edgewise_0 / v_h0, through_0 / v_h0) * v_h0 + through_0
+        ideal_per_thrust = math.nan if (ideal_per_thrust != ideal_per_thrust) | (level != level) else \
+            max(ideal_per_thrust, level)
+    return thrust, edgewise, thrust * v_h, thrust * ideal_per_thrust
+
+
+@jit
 def _verdict_bits(m_kg: float, reachable: bool, momentum: float, duty: float, bus_v: float, bus_current: float,
                   thrust: float, low_thrust: float, low_mr: float, full_mr: float, low_bus: float, full_bus: float,
                   full_current: float, voc_low: float, voc_full: float, capacity: float, pack_limit: float,
@@ -386,7 +469,8 @@ def _verdict_bits(m_kg: float, reachable: bool, momentum: float, duty: float, bu
 @jit
 def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.ndarray,  # noqa: C901
                  prop_mass: np.ndarray, distinct: np.ndarray, esc_group: np.ndarray, key_c: np.ndarray,
-                 key_e: np.ndarray, key_m: np.ndarray, key_q: np.ndarray, settings: np.ndarray, kt: np.ndarray,
+                 key_e: np.ndarray, key_m: np.ndarray, key_q: np.ndarray, settings: np.ndarray,
+                 prop_lanes: np.ndarray, kt: np.ndarray,
                  kq: np.ndarray, thrust_knots_t: np.ndarray, speed_knots_t: np.ndarray, torque_knots_t: np.ndarray,
                  speed_knots: np.ndarray, torque_knots: np.ndarray, ct_a: np.ndarray, ct_b: np.ndarray,
                  cp_a: np.ndarray, cp_b: np.ndarray, cp_mid: np.ndarray, seg_lo: np.ndarray, seg_hi: np.ndarray,
@@ -430,6 +514,11 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
     cp_arr = np.empty(n_q)
     tau_arr = np.empty(n_q)
     mass = np.empty(n_q)
+    thrust_l = np.empty(n_q)
+    edgewise = np.empty(n_q)
+    hover_ideal_w = np.empty(n_q)
+    ideal_w = np.empty(n_q)
+    flying = settings[13] != 0.0
     kt_l = np.empty(n_q)  # the propellers' constants per lane (contiguous, no gather in the lane loops)
     kq_l = np.empty(n_q)
     for i in range(n_q):
@@ -469,7 +558,16 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                 for i in range(n_q):
                     m_kg = base_mass + n_r * (esc_mass + (motor_mass + prop_mass[i]))
                     mass[i] = m_kg
-                    tau_arr[i] = (m_kg * thrust_factor) / kt_l[i]
+                    if flying:  # the multirotor flight state (forward_flight.flight_state) and its thrust
+                        t, edge, hover_ideal, ideal = _flight_lane(m_kg * STANDARD_GRAVITY_M_S2, n_r,
+                                                                   prop_lanes[0, i], settings)
+                        edgewise[i] = edge
+                        hover_ideal_w[i] = hover_ideal
+                        ideal_w[i] = ideal
+                    else:
+                        t = m_kg * thrust_factor
+                    thrust_l[i] = t
+                    tau_arr[i] = t / kt_l[i]
                     seg[i] = 0
                 for j in range(thrust_knots_t.shape[0]):
                     for i in range(n_q):
@@ -528,7 +626,14 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                     ct_arr[i] = w1[i] + w2[i] * v
                     cp = cp_a[q, s] + cp_b[q, s] * v
                     cp_arr[i] = cp
-                    c = i0 + kv * ((kq_l[i] * cp) * (v * v))
+                    torque = (kq_l[i] * cp) * (v * v)
+                    if flying:  # forward_flight.shaft_torque_nm: the static power corrected to the flight state
+                        omega = v * _RPM_TO_RAD_S
+                        mu = edgewise[i] / (omega * prop_lanes[1, i])
+                        power = (torque * omega - hover_ideal_w[i]) * (1.0 + PROFILE_POWER_GROWTH * mu * mu) \
+                            + ideal_w[i]
+                        torque = power / omega
+                    c = i0 + kv * torque
                     mv = v * beta + c * series
                     current[i] = c
                     motor_v[i] = mv
@@ -601,7 +706,9 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                         & (duty <= 1.0)
                     extra = 0.0 if at_full else _extra_w(rw, cw, pw, sw, dt, vb, mv)
                     bus_current = duty * c + extra / vb
-                    thrust = m_kg * thrust_factor
+                    if not reachable | jump:  # no balanced bus voltage: NaN, as drive_screen.cruise_point
+                        vb = duty = bus_current = math.nan
+                    thrust = thrust_l[i]
                     momentum = _momentum_ratio(ct_arr[i], cp_arr[i])
                     bits[i] = _verdict_bits(
                         m_kg, reachable, momentum, duty, vb, bus_current, thrust, low_thrust[u, i], low_mr[u, i],

@@ -43,6 +43,17 @@ def _cases() -> list[tuple[PartsLibrary, MissionSpec]]:
         (parts.mixed_library(), parts.hover_mission()),
         (parts.library(), parts.hover_mission(rotor_count=6, min_thrust_to_weight_motor_out=1.4)),
     ]
+    # The multirotor flight states (docs/model-reference.md#multirotor-flight-state): forward flight, a climb, a
+    # coaxial X8 descending while it moves forward (the descent rule), a coaxial hover.
+    for seed, changes in ((1, {"kind": "forward_flight", "cruise_airspeed_m_s": 12.0, "drag_area_m2": 0.03}),
+                          (2, {"climb_rate_m_s": 2.0, "drag_area_m2": 0.03}),
+                          (3, {"rotor_count": 8, "coaxial": True, "climb_rate_m_s": -1.5, "kind": "forward_flight",
+                               "cruise_airspeed_m_s": 3.0, "drag_area_m2": 0.03}),
+                          (4, {"rotor_count": 8, "coaxial": True})):
+        out.append((random_library(seed, n_packs=6, n_escs=5, n_motors=8, n_props=9),
+                    replace(random_mission(seed), **changes)))  # type: ignore[arg-type]
+    out.append((parts.mixed_library(), parts.hover_mission(kind="forward_flight", cruise_airspeed_m_s=12.0,
+                                                           drag_area_m2=0.03)))
     return out
 
 
@@ -95,7 +106,7 @@ def test_every_chunk_equals_the_numpy_screen(case: int, monkeypatch: pytest.Monk
             assert total[REASONS.index(name) + 1] > 0  # the optional limits bite
 
 
-@pytest.mark.parametrize("case", [0, 5, 6, 7])
+@pytest.mark.parametrize("case", [0, 5, 6, 7, 9, 11, 13])
 @pytest.mark.parametrize("objective", ["cruise_power", "endurance", "cost"])
 def test_the_ranking_is_the_same_through_either_screen(case: int, objective: str,
                                                        monkeypatch: pytest.MonkeyPatch) -> None:
@@ -135,9 +146,6 @@ def test_chunk_size_and_processes_do_not_change_the_compiled_ranking() -> None:
 
 @pytest.mark.parametrize("changes", [
     {"kind": "cruise", "cruise_airspeed_m_s": 15.0, "lift_to_drag": 8.0},
-    {"kind": "forward_flight", "cruise_airspeed_m_s": 12.0, "drag_area_m2": 0.03},
-    {"climb_rate_m_s": 2.0},
-    {"coaxial": True, "rotor_count": 8},
     {"temperature_effects": True},
     {"cold_day_temperature_c": -10.0},
     {"segments": (Segment("hover", 600.0),), "reserve_min": 2.0},
@@ -146,7 +154,9 @@ def test_missions_the_loop_does_not_cover_take_the_numpy_screen(changes: dict[st
     library = parts.library()
     mission = replace(parts.hover_mission(), **changes)  # type: ignore[arg-type]
     assert not fused_screen.supports(mission, mission.propeller_model(library.propellers))
-    assert fused_screen.supports(parts.hover_mission(), parts.hover_mission().propeller_model(library.propellers))
+    for covered in (parts.hover_mission(), parts.hover_mission(kind="forward_flight", cruise_airspeed_m_s=12.0),
+                    parts.hover_mission(climb_rate_m_s=-1.0, coaxial=True, rotor_count=8)):
+        assert fused_screen.supports(covered, covered.propeller_model(library.propellers))
 
 
 def test_the_pareto_front_is_the_brute_force_non_dominated_set() -> None:
