@@ -1,17 +1,19 @@
-"""The screen of a plain mission as one compiled loop: every candidate of a chunk solved and checked in registers.
+"""The multirotor screen as one compiled loop: every candidate of a chunk solved and checked in registers.
 
 :func:`.constraints.screen` is the definition: numpy arrays, one operation at a time over the whole chunk, which
 costs memory traffic and Python overhead per operation (about 0.5 µs per candidate). For the missions most
-rankings are — a multirotor hovering on static propeller tables, no flight state, no temperature effects, no
-cold-day re-check and no flight profile (:func:`supports`) — this module runs the same equations in one loop
-compiled by numba (measured 2.5–3× the numpy screen on one core: ``python benchmarks/ranking.py
---compare-screens``):
+rankings are — a multirotor on static propeller tables, hovering, in forward flight, climbing or descending,
+coaxial or not, without temperature effects, a cold-day re-check or a flight profile (:func:`supports`) — this
+module runs the same equations in one loop compiled by numba (3.5–5× the numpy screen on one core:
+``python benchmarks/ranking.py --compare-screens``):
 
 - per configuration and motor, the full-throttle points at the low and full states of charge of every propeller,
   once per distinct ESC on-path resistance (:func:`.drive_screen.full_throttle_points`);
-- per ESC, the cruise point of every propeller: the speed for the thrust on the propeller's segment polynomial
-  by Newton, the bus voltage by Newton with every ESC loss term, the loss-step band just below full throttle
-  answered by the full-throttle point (:func:`.drive_screen.cruise_point`);
+- per ESC, the cruise point of every propeller: the flight state's thrust and shaft-power correction
+  (:mod:`server.physics.forward_flight`, Glauert's inflow per rotor), the speed for the thrust on the
+  propeller's segment polynomial by Newton, the bus voltage by Newton with every ESC loss term, the loss-step
+  band just below full throttle answered by the full-throttle point (:func:`.drive_screen.cruise_point`); no
+  balanced bus voltage gives NaN bus values, as there;
 - every check of :data:`.constraints.REASONS` in order (:func:`.constraints.operating_checks`), counted as the
   numpy screen counts them: the first failing reason, and every violated reason;
 - the rejection examples (:mod:`.examples`: the smallest part-order keys per reason) and the metrics of the
@@ -21,8 +23,9 @@ The propellers of a block are solved side by side ("lanes"): each lane's Newton 
 step, the independent chains overlap in the processor. Differences from the numpy screen are at rounding level:
 a Newton iteration also stops once its step is below 1e-8 of the iterate after a step at least 1000 times larger
 (quadratic convergence: the next step would be below rounding), divisions by the bus voltage are multiplications
-by its reciprocal, and the figure of merit's ``CT^1.5`` is ``CT sqrt(CT)``. Verdicts and metrics equal the numpy
-screen's (to 1e-12) and the brute-force reference's (tests/selection/test_fused_screen.py). The loop is compiled
+by its reciprocal, the figure of merit's ``CT^1.5`` is ``CT sqrt(CT)``, and sin, cos, atan2 and hypot are the C
+library's. Verdicts and metrics equal the numpy screen's (to 1e-12) and the brute-force reference's
+(tests/selection/test_fused_screen.py). The loop is compiled
 on first use and cached on disk (numba's ``cache=True``); :func:`warm_up` compiles it ahead of forked workers.
 """
 
