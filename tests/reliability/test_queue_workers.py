@@ -82,8 +82,9 @@ def _wait_all(url: str, model: Any, ids: list[int], timeout_s: float) -> list[An
 def test_two_web_and_two_worker_processes_run_every_job_once_and_fairly(queue_db: str, tmp_path: Path) -> None:
     alpha, beta = make_live_team(queue_db, "Alpha"), make_live_team(queue_db, "Beta")
     env = {"LIFTMATCH_JOB_TEAM_LIMIT": "1"}
-    with live_server(queue_db, tmp_path, **env) as web1, live_server(queue_db, tmp_path, **env) as web2, \
-            workers(queue_db, tmp_path, count=2, **env):
+    # The workers start once every job is queued: the backlog the fairness is about (rankings of this size take
+    # tens of milliseconds, so with workers already running a burst would barely queue up).
+    with live_server(queue_db, tmp_path, **env) as web1, live_server(queue_db, tmp_path, **env) as web2:
         clients = [httpx.Client(base_url=w.base, timeout=30) for w in (web1, web2)]
         a, b = _Team(alpha["key"]), _Team(beta["key"])
         lib_a, lib_b = make_library(clients[0], a), make_library(clients[1], b)  # type: ignore[arg-type]
@@ -103,7 +104,8 @@ def test_two_web_and_two_worker_processes_run_every_job_once_and_fairly(queue_db
         assert plan.status_code == 202, plan.text
         plan_id = int(plan.json()["id"])
         assert clients[1].post(f"/api/v1/fleet-plans/{plan_id}/cancel", headers=b.headers()).status_code in (200, 202)
-        rows = _wait_all(queue_db, Ranking, burst + later, timeout_s=240)
+        with workers(queue_db, tmp_path, count=2, **env):
+            rows = _wait_all(queue_db, Ranking, burst + later, timeout_s=240)
         for client in clients:
             client.close()
     by_id = {r.id: r for r in rows}
