@@ -119,6 +119,8 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--only", default="", help="comma-separated: predict, compare, refit, uploads, api, ranking")
     parser.add_argument("--quick", action="store_true", help="shorter API load, no ranking at 10^7")
+    parser.add_argument("--pause", type=float, default=5.0,
+                        help="seconds between benchmarks, so that one's server shutting down does not load the next")
     args = parser.parse_args()
     only = {s.strip() for s in args.only.split(",") if s.strip()}
     rows = []
@@ -132,6 +134,8 @@ def main() -> None:
         argv = figure.quick_args if args.quick and figure.quick_args else figure.args
         command = f"python benchmarks/{figure.script} {' '.join(argv)}"
         if command not in runs:  # figures read from the same command share one run of it
+            if runs:
+                time.sleep(args.pause)
             print(f"$ {command}", flush=True)
             t = time.perf_counter()
             runs[command] = subprocess.run([sys.executable, str(HERE / figure.script), *argv], capture_output=True,
