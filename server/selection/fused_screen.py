@@ -228,16 +228,26 @@ def _clip(value: float, lo: float, hi: float) -> float:
     return min(max(value, lo), hi)
 
 @jit
-def _going_on(step: float, size: float, previous: float) -> bool:
-    """Whether a Newton iteration goes on after a step of ``step`` at an iterate of magnitude ``size``.
+def _lane_step(i: int, value: float, new: float, lo: float, hi: float, values: np.ndarray, previous: np.ndarray,
+               active: np.ndarray) -> bool:
+    """One lane of a lockstep Newton iteration: ``new`` kept inside ``[lo, hi]`` (NaN stays NaN), stored in
+    ``values[i]`` while the lane is active; returns whether the lane goes on.
 
-    It stops once the step is below :data:`NEWTON_RTOL` of the iterate (the numpy screen's rule), or once it is
-    below :data:`SETTLED_RTOL` and at most :data:`SETTLED_SHRINK` of the step before: convergence is then quadratic,
-    so the iterate just computed is exact to rounding (one confirming iteration saved). NaN stops.
+    A lane stops once its step is below :data:`NEWTON_RTOL` of the iterate (the numpy screen's rule), or below
+    :data:`SETTLED_RTOL` after a step at least 1 / :data:`SETTLED_SHRINK` times larger: convergence is then
+    quadratic, so the iterate just computed is exact to rounding (one confirming iteration saved). NaN stops.
+    Written without branches, so that the loops calling it vectorise.
     """
-    if not step > NEWTON_RTOL * size:
-        return False
-    return not (step <= SETTLED_RTOL * size and step <= SETTLED_SHRINK * previous)
+    new = new if new != new else (lo if new < lo else (hi if new > hi else new))
+    step = abs(new - value)
+    size = abs(new)
+    going = (step > NEWTON_RTOL * size) & ~((step <= SETTLED_RTOL * size) & (step <= SETTLED_SHRINK * previous[i]))
+    on = active[i]
+    values[i] = new if on else value
+    previous[i] = step if on else previous[i]
+    going = going & on
+    active[i] = going
+    return bool(going)
 
 
 @jit
@@ -293,19 +303,7 @@ def _full_throttle_lanes(voc: float, loop: float, sag: float, kv: float, i0: flo
             gd = w2[i]
             f = ((gd * v + gc) * v + beta) * v - drive
             df = ((3.0 * gd) * v + 2.0 * gc) * v + beta
-            new = v - f / df
-            lo = w3[i]
-            hi = w4[i]
-            new = new if new != new else (lo if new < lo else (hi if new > hi else new))
-            step = abs(new - v)
-            size = abs(new)
-            go = (step > NEWTON_RTOL * size) & ~((step <= SETTLED_RTOL * size) & (step <= SETTLED_SHRINK * prev[i]))
-            on = act[i]
-            y[i] = new if on else v
-            prev[i] = step if on else prev[i]
-            g = go & on
-            act[i] = g
-            busy |= g
+            busy |= _lane_step(i, v, v - f / df, w3[i], w4[i], y, prev, act)
         if not busy:
             break
     for i in range(n):
@@ -603,20 +601,7 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                         b = w2[i]
                         f = (b * v + a) * (v * v) - tau_arr[i]
                         df = ((3.0 * b) * v + 2.0 * a) * v
-                        new = v - f / df
-                        lo = w3[i]
-                        hi = w4[i]
-                        new = new if new != new else (lo if new < lo else (hi if new > hi else new))
-                        step = abs(new - v)
-                        size = abs(new)
-                        go = (step > NEWTON_RTOL * size) & ~((step <= SETTLED_RTOL * size)
-                                                             & (step <= SETTLED_SHRINK * prev[i]))
-                        on = act[i]
-                        y[i] = new if on else v
-                        prev[i] = step if on else prev[i]
-                        g = go & on
-                        act[i] = g
-                        busy |= g
+                        busy |= _lane_step(i, v, v - f / df, w3[i], w4[i], y, prev, act)
                     if not busy:
                         break
                 # --- motor state and the bus start (drive_screen.cruise_point)
@@ -668,18 +653,7 @@ def _screen_loop(config: np.ndarray, esc: np.ndarray, motor: np.ndarray, qs: np.
                         slope = (2.0 * (rw - cw) * uu + cw + pw) * ratio * inv + sw
                         h = vb * (vb - voc) + drawn[i] + load * extra
                         dh = 2.0 * vb - voc + load * slope
-                        step = h / dh
-                        new = vb - step
-                        step = abs(step)
-                        size = abs(new)
-                        go = (step > NEWTON_RTOL * size) & ~((step <= SETTLED_RTOL * size)
-                                                             & (step <= SETTLED_SHRINK * prev[i]))
-                        on = act[i]
-                        bus[i] = new if on else vb
-                        prev[i] = step if on else prev[i]
-                        g = go & on
-                        act[i] = g
-                        busy |= g
+                        busy |= _lane_step(i, vb, vb - h / dh, -math.inf, math.inf, bus, prev, act)
                     if not busy:
                         break
                 for i in range(n_q):  # settled: stopped by its own rule, or out of iterations after a small step
