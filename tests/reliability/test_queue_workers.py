@@ -114,7 +114,9 @@ def test_two_web_and_two_worker_processes_run_every_job_once_and_fairly(queue_db
     assert all(r.status == "done" and r.attempts == 1 for r in ran), [(r.id, r.status, r.attempts) for r in ran]
     # Fair: the second team's jobs did not wait for the end of the first team's burst.
     last_of_burst = max(by_id[i].started_at for i in burst[:-1])
-    assert max(by_id[i].started_at for i in later) < last_of_burst
+    assert max(by_id[i].started_at for i in later) < last_of_burst, sorted(
+        (by_id[i].started_at.isoformat()[11:23], "A" if i in burst else "B", by_id[i].finished_at.isoformat()[11:23])
+        for i in burst[:-1] + later)
     (fleet,) = _rows(queue_db, FleetPlan, [plan_id])
     assert fleet.status == "cancelled"
 
