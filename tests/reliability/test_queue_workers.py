@@ -24,7 +24,7 @@ from sqlalchemy.engine import make_url
 from server import migrate
 from server.db import make_engine, make_sessionmaker
 from server.models import FleetPlan, Ranking
-from tests.factories import make_library
+from tests.factories import make_library, part_payload
 from tests.pg_workers import start_worker, stop, workers
 from tests.reliability.conftest import PG_URL, live_server, make_live_team
 
@@ -79,6 +79,17 @@ def _wait_all(url: str, model: Any, ids: list[int], timeout_s: float) -> list[An
         time.sleep(0.25)
 
 
+def _more_parts(client: httpx.Client, headers: dict[str, str], count: int) -> None:
+    """``count`` more parts of each kind (invented values inside every bound), so that a ranking has some work."""
+    varied = {"batteries": ("capacity_mah", 3000, 800), "escs": ("continuous_current_a", 30, 10),
+              "motors": ("kv_rpm_per_v", 700, 150), "propellers": ("diameter_in", 9, 1)}
+    for kind, (field, start, step) in varied.items():
+        for j in range(count):
+            body = part_payload(kind, name=f"Extra {kind} {j}", **{field: start + j * step})
+            body["part_number"] = f"X-{kind[:3]}-{j}"
+            assert client.post(f"/api/v1/parts/{kind}", json=body, headers=headers).status_code == 201
+
+
 def test_two_web_and_two_worker_processes_run_every_job_once_and_fairly(queue_db: str, tmp_path: Path) -> None:
     alpha, beta = make_live_team(queue_db, "Alpha"), make_live_team(queue_db, "Beta")
     env = {"LIFTMATCH_JOB_TEAM_LIMIT": "1"}
@@ -88,9 +99,13 @@ def test_two_web_and_two_worker_processes_run_every_job_once_and_fairly(queue_db
         clients = [httpx.Client(base_url=w.base, timeout=30) for w in (web1, web2)]
         a, b = _Team(alpha["key"]), _Team(beta["key"])
         lib_a, lib_b = make_library(clients[0], a), make_library(clients[1], b)  # type: ignore[arg-type]
+        # Rankings of 4 parts of each kind with 50 result rows take 120-150 ms (one combination: about 20 ms), so the
+        # burst is a queue of a few seconds that half a second of a busy machine cannot reorder.
+        _more_parts(clients[0], a.headers(), 3)
+        _more_parts(clients[1], b.headers(), 3)
 
         def start(team: _Team, mission: int, i: int) -> int:
-            made = clients[i % 2].post("/api/v1/rankings", json={"mission_id": mission, "top_n": 5},
+            made = clients[i % 2].post("/api/v1/rankings", json={"mission_id": mission, "top_n": 50},
                                        headers=team.headers())
             assert made.status_code == 202, made.text
             return int(made.json()["id"])
