@@ -94,8 +94,10 @@ class InProcessRunner:
 
     def start(self) -> None:
         self.recover()
-        # The ranking's compiled loops are loaded (or compiled) beside the server, not in the first ranking.
-        threading.Thread(target=fused_screen.warm_up, name="warm-up", daemon=True).start()
+        # The ranking's compiled loops are loaded (or compiled) now, before any request, not in the first ranking:
+        # numba's compiler changes the process-wide warning filters while it works, which must not happen beside a
+        # request thread (catch_warnings is not thread-safe). From its disk cache this takes about 0.3 s.
+        fused_screen.warm_up()
         for i in range(self.concurrency):
             thread = threading.Thread(target=self._work, name=f"job-{i}", daemon=True)
             thread.start()
