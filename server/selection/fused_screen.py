@@ -38,6 +38,7 @@ import numpy as np
 
 from server.physics import motor_out
 from server.physics._types import STANDARD_GRAVITY_M_S2
+from server.physics.battery import open_circuit_voltage_per_cell_v
 from server.physics.drive_screen import BUS_CONVERGED_RTOL, BUS_MAX_ITER, FULL_THROTTLE_SLACK_RTOL
 from server.physics.forward_flight import (
     COAXIAL_INDUCED_FACTOR,
@@ -117,7 +118,6 @@ def screen_chunk(library: PartsLibrary, mission: MissionSpec, model: PropModel, 
     cells = pk.cells_series[pack]
     full_v = pk.full_voltage_per_cell_v[pack]
     capacity = pk.capacity_ah[pack] * kf
-    from server.physics.battery import open_circuit_voltage_per_cell_v
     config = np.stack([
         cells * open_circuit_voltage_per_cell_v(mission.cruise_state_of_charge, full_v),
         cells * open_circuit_voltage_per_cell_v(mission.low_state_of_charge, full_v),
